@@ -1,0 +1,287 @@
+"""The scenario file: TOML read with the standard library, validated with pydantic.
+
+One schema, :class:`Scenario`, is the single source of truth for every key a user can write. Unknown
+keys are errors that name the key and the closest valid one; a cost matrix under which one action is
+always best produces a warning (returned, never printed: ``cli.py`` prints).
+"""
+
+from __future__ import annotations
+
+import hashlib
+import math
+import tomllib
+from datetime import date
+from pathlib import Path
+from typing import Annotated, Any, Literal
+
+import numpy as np
+from pydantic import BaseModel, ConfigDict, Field, ValidationError, field_validator, model_validator
+
+from .errors import InputError, did_you_mean
+
+__all__ = ["Scenario", "Costs", "read_scenario", "scenario_from_text", "cutoff_grid",
+           "break_even_probability", "cost_warnings", "WEEKDAYS", "BASELINES"]
+
+WEEKDAYS = ("mon", "tue", "wed", "thu", "fri", "sat", "sun")
+BASELINES = ("never_act", "always_act", "persistence", "seasonal_rate", "perfect")
+
+
+class _Section(BaseModel):
+    model_config = ConfigDict(extra="forbid", frozen=True)
+
+
+class HistorySection(_Section):
+    path: str | None = None
+    date_column: str = "date"
+    probability_column: str = "probability"
+    outcome_column: str | None = None
+    value_column: str | None = None
+    threshold: float | None = None
+    side: Literal["above", "below"] | None = None
+    direction: Literal["up", "down"] | None = None
+    validation_from: date | None = None
+
+    @model_validator(mode="after")
+    def _one_way_to_the_outcome(self):
+        numeric = self.value_column is not None
+        if self.outcome_column is not None and numeric:
+            raise ValueError("give either outcome_column or value_column, not both")
+        if numeric:
+            by_threshold = self.threshold is not None or self.side is not None
+            if by_threshold and self.direction is not None:
+                raise ValueError("value_column takes either threshold and side, or direction, not both")
+            if by_threshold and (self.threshold is None or self.side is None):
+                raise ValueError('value_column with a threshold needs both threshold and side ("above" or "below")')
+            if not by_threshold and self.direction is None:
+                raise ValueError('value_column needs threshold and side, or direction ("up" or "down")')
+        elif self.threshold is not None or self.side is not None or self.direction is not None:
+            raise ValueError("threshold, side and direction go with value_column; add value_column")
+        return self
+
+    @property
+    def outcome_source(self) -> str:
+        """Column the outcome comes from (the default "outcome" when nothing is said)."""
+        return self.value_column or self.outcome_column or "outcome"
+
+
+class EventSection(_Section):
+    name: str = "event"
+    flip: bool = False
+    hazard: bool = False
+
+
+class DecisionSection(_Section):
+    action: str = "act"
+    cutoffs: tuple[float, float, float] = (0.0, 1.0, 0.01)
+
+    @field_validator("cutoffs")
+    @classmethod
+    def _grid(cls, value):
+        lo, hi, step = value
+        if not (0.0 <= lo < hi <= 1.0):
+            raise ValueError(f"from and to must satisfy 0 <= from < to <= 1, got {lo} and {hi}")
+        if step <= 0:
+            raise ValueError(f"the step must be positive, got {step}")
+        n = (hi - lo) / step
+        if abs(n - round(n)) > 1e-6:
+            raise ValueError(f"the step {step} does not divide {lo} to {hi} into whole steps")
+        if round(n) + 1 > 10001:
+            raise ValueError(f"{round(n) + 1} cutoffs is too many; use a step of at least 0.0001")
+        return value
+
+
+class Costs(_Section):
+    """Per-occasion cost of each cell of the classification matrix, in the scenario's currency."""
+
+    hit: float
+    false_alarm: float
+    miss: float
+    correct_negative: float = 0.0
+
+    def as_array(self) -> np.ndarray:
+        """(hit, false_alarm, miss, correct_negative) as float64."""
+        return np.array([self.hit, self.false_alarm, self.miss, self.correct_negative], dtype=float)
+
+
+class SeasonSection(_Section):
+    months: tuple[Annotated[int, Field(ge=1, le=12)], ...] = tuple(range(1, 13))
+    weekdays: tuple[str, ...] = WEEKDAYS
+    year: int | None = None
+
+    @field_validator("months")
+    @classmethod
+    def _months(cls, value):
+        if not value:
+            raise ValueError("list at least one month")
+        if len(set(value)) != len(value):
+            raise ValueError("a month is listed twice")
+        return value
+
+    @field_validator("weekdays")
+    @classmethod
+    def _weekdays(cls, value):
+        value = tuple(str(v).lower()[:3] for v in value)
+        for v in value:
+            if v not in WEEKDAYS:
+                raise ValueError(f'"{v}" is not a weekday{did_you_mean(v, WEEKDAYS)}')
+        if not value:
+            raise ValueError("list at least one weekday")
+        return value
+
+    @property
+    def weekday_numbers(self) -> tuple[int, ...]:
+        return tuple(WEEKDAYS.index(w) for w in self.weekdays)
+
+
+class SimulationSection(_Section):
+    replicates: Annotated[int, Field(ge=20, le=10_000_000)] = 5000
+    seed: Annotated[int, Field(ge=0)] = 2027
+    block_days: Literal["auto"] | Annotated[float, Field(ge=1)] = "auto"
+    reference: Literal["never_act", "always_act", "persistence", "seasonal_rate"] = "never_act"
+    window_days: Annotated[int, Field(ge=0, le=60)] = 10
+
+
+class Scenario(_Section):
+    name: str
+    currency: str = "EUR"
+    history: HistorySection = HistorySection()
+    event: EventSection = EventSection()
+    decision: DecisionSection = DecisionSection()
+    costs: Costs
+    season: SeasonSection = SeasonSection()
+    simulation: SimulationSection = SimulationSection()
+    # where the file was read from (not a user key): history paths are relative to it
+    source: Path | None = Field(default=None, exclude=True)
+    sha256: str = Field(default="", exclude=True)
+
+    @property
+    def cutoffs(self) -> np.ndarray:
+        return cutoff_grid(*self.decision.cutoffs)
+
+    @property
+    def slug(self) -> str:
+        safe = "".join(ch.lower() if ch.isalnum() else "-" for ch in self.name)
+        return "-".join(part for part in safe.split("-") if part) or "scenario"
+
+    def history_path(self) -> Path | None:
+        if self.history.path is None:
+            return None
+        path = Path(self.history.path)
+        if not path.is_absolute() and self.source is not None:
+            path = self.source.parent / path
+        return path
+
+
+def cutoff_grid(lo: float, hi: float, step: float) -> np.ndarray:
+    """Cutoffs from ``lo`` to ``hi`` by ``step``, both ends included, rounded to the step's decimals.
+
+    Built with ``linspace`` and rounded, never ``arange`` with a float step (whose 0.3 is
+    0.30000000000000004; common practice, no single source).
+    """
+    n = int(round((hi - lo) / step)) + 1
+    decimals = max(0, -int(math.floor(math.log10(step)))) + 2
+    return np.round(np.linspace(lo, hi, n), decimals)
+
+
+def break_even_probability(costs: Costs) -> float:
+    """Probability at which acting and not acting have the same expected cost.
+
+    p* = (false_alarm - correct_negative) / ((false_alarm - correct_negative) + (miss - hit)): the
+    cost-loss ratio C/L of Thompson (1952) and Murphy (1977) for a general 2x2 matrix (Elkan 2001,
+    "The foundations of cost-sensitive learning", IJCAI). NaN when one action is always best.
+    """
+    c_prime = costs.false_alarm - costs.correct_negative
+    d_prime = costs.miss - costs.hit
+    if c_prime <= 0 or d_prime <= 0:
+        return float("nan")
+    return c_prime / (c_prime + d_prime)
+
+
+def cost_warnings(costs: Costs, action: str) -> list[str]:
+    """Warnings for a cost matrix under which one action is best whatever happens (Elkan 2001)."""
+    c_prime = costs.false_alarm - costs.correct_negative
+    d_prime = costs.miss - costs.hit
+    if c_prime <= 0 and d_prime <= 0:
+        return [f"[costs]: acting costs no more than not acting when the event fails to happen, and not "
+                f"acting costs no more when it happens; check the signs of the costs"]
+    if c_prime <= 0:
+        return [f'[costs]: "{action}" is always at least as cheap (false_alarm <= correct_negative and '
+                f"hit <= miss), so every cutoff below the lowest forecast is best; check the costs"]
+    if d_prime <= 0:
+        return [f'[costs]: not acting is always at least as cheap (miss <= hit and correct_negative <= '
+                f"false_alarm), so the best rule never acts; check the costs"]
+    return []
+
+
+# ------------------------------------------------------------------------------------------------
+# reading
+
+def read_scenario(path: str | Path) -> Scenario:
+    """Read and validate a scenario file; every problem becomes a one-line :class:`InputError`."""
+    path = Path(path)
+    if not path.exists():
+        raise InputError(f"{path}: no such scenario file; check the path")
+    if path.is_dir():
+        raise InputError(f"{path}: is a folder; give the scenario's .toml file")
+    raw = path.read_bytes()
+    try:
+        text = raw.decode("utf-8")
+    except UnicodeDecodeError:
+        raise InputError(f"{path}: is not a text file; give a TOML scenario file") from None
+    scenario = scenario_from_text(text, label=str(path))
+    return scenario.model_copy(update={"source": path.resolve(),
+                                       "sha256": hashlib.sha256(raw).hexdigest()})
+
+
+def scenario_from_text(text: str, label: str = "scenario") -> Scenario:
+    """Validate scenario TOML text; ``label`` names the file in messages."""
+    try:
+        data = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise InputError(f"{label}: not valid TOML ({exc}); check the syntax near that line") from None
+    try:
+        return Scenario.model_validate(data)
+    except ValidationError as exc:
+        raise InputError(_first_problem(exc, label)) from None
+
+
+def _first_problem(exc: ValidationError, label: str) -> str:
+    errors = exc.errors(include_url=False)
+    # a misspelt key also makes its correct spelling "missing": report the misspelling first
+    err = min(errors, key=lambda e: e["type"] != "extra_forbidden")
+    loc = [str(part) for part in err["loc"]]
+    kind = err["type"]
+    if kind == "extra_forbidden":
+        key = loc[-1]
+        model = _model_at(loc[:-1])
+        where = f"[{'.'.join(loc[:-1])}]" if len(loc) > 1 else "top level"
+        valid = [k for k in model.model_fields if k not in ("source", "sha256")]
+        return f'{label} {where}: unknown key "{key}"{did_you_mean(key, valid)}'
+    section = [p for p in loc if not p.isdigit()]
+    if not section:
+        where = "top level"
+    elif section[0] in _SECTIONS:
+        where = f"[{section[0]}]" + (f" {'.'.join(section[1:])}" if len(section) > 1 else "")
+    else:
+        where = f'"{section[0]}"'  # a top-level key such as name
+    if kind == "missing":
+        return f"{label} {where}: this key is required; add it"
+    message = err["msg"].removeprefix("Value error, ")
+    value = err.get("input")
+    shown = f" (got {value!r})" if not isinstance(value, dict | list) and value is not None else ""
+    return f"{label} {where}: {message}{shown}"
+
+
+_SECTIONS = ("history", "event", "decision", "costs", "season", "simulation")
+
+
+def _model_at(loc: list[str]) -> type[BaseModel]:
+    model: Any = Scenario
+    for part in loc:
+        field = model.model_fields.get(part)
+        if field is None:
+            break
+        annotation = field.annotation
+        if isinstance(annotation, type) and issubclass(annotation, BaseModel):
+            model = annotation
+    return model
