@@ -9,21 +9,30 @@ same replicates (common random numbers).
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 
 from .history import History
 from .scenario import BASELINES, Costs, break_even_probability
-from .scoring import Contingency, counts_from_slots, cutoff_slots
+from .scoring import Contingency, cutoff_slots
 
-__all__ = ["price", "baseline_actions", "SeasonPricer", "PricedBlock"]
+__all__ = ["price", "occasion_costs", "baseline_actions", "SeasonPricer", "PricedBlock"]
 
 
 def price(counts: Contingency, costs: Costs) -> np.ndarray:
     """Cost of each classification matrix: hits*hit + false_alarms*false_alarm + ... (float64)."""
     return (counts.hits * costs.hit + counts.false_alarms * costs.false_alarm
             + counts.misses * costs.miss + counts.correct_negatives * costs.correct_negative)
+
+
+def occasion_costs(act: np.ndarray, event: np.ndarray, costs: Costs) -> np.ndarray:
+    """Cost of each occasion given whether one acted and whether the event happened (float64)."""
+    act, event = np.asarray(act, dtype=bool), np.asarray(event, dtype=bool)
+    cells = Contingency(hits=(act & event).astype(np.int64), false_alarms=(act & ~event).astype(np.int64),
+                        misses=(~act & event).astype(np.int64),
+                        correct_negatives=(~act & ~event).astype(np.int64))
+    return price(cells, costs)
 
 
 def baseline_actions(history: History, costs: Costs) -> dict[str, np.ndarray]:
@@ -59,6 +68,9 @@ def baseline_actions(history: History, costs: Costs) -> dict[str, np.ndarray]:
     }
 
 
+_NEVER = BASELINES.index("never_act")
+
+
 @dataclass(frozen=True)
 class PricedBlock:
     """Season costs of one block of replicates: ``model`` (n_rep, n_cutoffs), ``baselines``
@@ -67,27 +79,49 @@ class PricedBlock:
     model: np.ndarray
     baselines: np.ndarray
     n_events: np.ndarray
+    # further per-replicate arrays a pricer may add (the operations pricer's cost components and
+    # completion days), each with replicates first; concatenated over blocks by ``run.py``
+    extras: dict[str, np.ndarray] = field(default_factory=dict)
 
 
 class SeasonPricer:
-    """Prices replicate seasons given as history row indices (n_rep, n_occasions)."""
+    """Prices replicate seasons given as history row indices (n_rep, n_occasions).
+
+    A season's cost at cutoff k is its cost when never acting plus, for every occasion whose
+    probability reaches the cutoff, the difference acting makes on that occasion
+    (``occasion_costs(act=True) - occasion_costs(act=False)``). Each history row is given its slot
+    (how many cutoffs it reaches) once, so one weighted bincount per block of replicates and a
+    reversed cumulative sum over slots give every cutoff at once.
+    """
 
     def __init__(self, history: History, cutoffs: np.ndarray, costs: Costs):
         self.costs = costs
         self.n_cutoffs = int(cutoffs.size)
         self._slots = cutoff_slots(history.p, cutoffs)
         self._event = history.event
+        n = history.n_rows
+        self._acting_difference = (occasion_costs(np.ones(n, bool), history.event, costs)
+                                   - occasion_costs(np.zeros(n, bool), history.event, costs))
         actions = baseline_actions(history, costs)
-        self._baseline_actions = np.stack([actions[name] for name in BASELINES])  # (n_baselines, n_rows)
+        # every history row has one of a few patterns of (event, what each baseline does); a
+        # replicate's baseline counts follow from how often it holds each pattern
+        table = np.column_stack([history.event] + [actions[name] for name in BASELINES])
+        patterns, pattern = np.unique(table, axis=0, return_inverse=True)
+        self._pattern = pattern.ravel().astype(np.int64)
+        self._n_patterns = patterns.shape[0]
+        event, acts = patterns[:, :1], patterns[:, 1:]
+        self._pattern_event = patterns[:, 0].astype(np.int64)
+        self._pattern_cells = [(acts & event).astype(np.int64), (acts & ~event).astype(np.int64),
+                               (~acts & event).astype(np.int64), (~acts & ~event).astype(np.int64)]
 
     def __call__(self, rows: np.ndarray) -> PricedBlock:
-        event = self._event[rows]
-        model = price(counts_from_slots(self._slots[rows], event, self.n_cutoffs), self.costs)
-        acts = self._baseline_actions[:, rows]  # (n_baselines, n_rep, n_occ)
-        n_occ = rows.shape[1]
-        n_events = event.sum(axis=1)
-        hits = (acts & event).sum(axis=2)
-        false_alarms = acts.sum(axis=2) - hits
-        baselines = price(Contingency(hits, false_alarms, n_events - hits,
-                                      n_occ - n_events - false_alarms), self.costs)
-        return PricedBlock(model=model, baselines=baselines.T, n_events=n_events)
+        n_rep, width = rows.shape[0], self.n_cutoffs + 1
+        code = self._slots[rows] + (np.arange(n_rep, dtype=np.int64) * width)[:, None]
+        tally = np.bincount(code.ravel(), weights=self._acting_difference[rows].ravel(),
+                            minlength=n_rep * width).reshape(n_rep, width)
+        acting = np.cumsum(tally[:, ::-1], axis=1)[:, -2::-1]  # [r, k]: occasions with slot > k
+        code = self._pattern[rows] + (np.arange(n_rep, dtype=np.int64) * self._n_patterns)[:, None]
+        held = np.bincount(code.ravel(), minlength=n_rep * self._n_patterns).reshape(n_rep, -1)
+        baselines = price(Contingency(*(held @ cells for cells in self._pattern_cells)), self.costs)
+        model = baselines[:, _NEVER, None] + acting
+        return PricedBlock(model=model, baselines=baselines, n_events=held @ self._pattern_event)

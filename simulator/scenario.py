@@ -10,6 +10,7 @@ from __future__ import annotations
 import hashlib
 import math
 import tomllib
+import typing
 from datetime import date
 from pathlib import Path
 from typing import Annotated, Any, Literal
@@ -20,7 +21,8 @@ from pydantic import BaseModel, ConfigDict, Field, ValidationError, field_valida
 from .errors import InputError, did_you_mean
 
 __all__ = ["Scenario", "Costs", "read_scenario", "scenario_from_text", "cutoff_grid",
-           "break_even_probability", "cost_warnings", "WEEKDAYS", "BASELINES"]
+           "break_even_probability", "cost_warnings", "WEEKDAYS", "BASELINES",
+           "OperationsSection", "StressCase", "CostChanges", "STRESS_CHANGES"]
 
 WEEKDAYS = ("mon", "tue", "wed", "thu", "fri", "sat", "sun")
 BASELINES = ("never_act", "always_act", "persistence", "seasonal_rate", "perfect")
@@ -139,6 +141,123 @@ class SimulationSection(_Section):
     block_days: Literal["auto"] | Annotated[float, Field(ge=1)] = "auto"
     reference: Literal["never_act", "always_act", "persistence", "seasonal_rate"] = "never_act"
     window_days: Annotated[int, Field(ge=0, le=60)] = 10
+    mode: Literal["replay", "calibrated"] = "replay"
+    walk_forward: bool = False
+
+
+class OperationsSection(_Section):
+    """Operating rules: crews, the work and its deadline, overtime, retention, a safety stop.
+
+    Money is in the scenario's currency; a crew-day is one crew's work for one day. Every key is
+    described in ``scenarios/line_marking_rules.toml``; the rules are played by
+    :mod:`simulator.operations` (the event-level statement) and :mod:`simulator.operations_fast`.
+    """
+
+    crews: Annotated[int, Field(ge=1, le=1000)] = 1
+    crews_out_on: Literal["acting", "not_acting"]
+    spoiled_on: Literal["event", "no_event"]
+    day_rate: Annotated[float, Field(ge=0)]
+    standby_rate: Annotated[float, Field(ge=0)] | None = None
+    spoilage_cost: Annotated[float, Field(ge=0)] = 0.0
+    work_lost_when_spoiled: Annotated[float, Field(ge=0, le=1)] = 1.0
+    work: Annotated[float, Field(gt=0)] | None = None
+    deadline: date | None = None
+    damages_per_day_late: Annotated[float, Field(ge=0)] = 0.0
+    unfinished_cost: Annotated[float, Field(ge=0)] = 0.0
+    workdays: tuple[str, ...] | None = None
+    holidays: tuple[date, ...] = ()
+    overtime_weekdays: tuple[str, ...] = ()
+    overtime_multiple: Annotated[float, Field(ge=1)] = 1.5
+    max_overtime_days_per_week: Annotated[int, Field(ge=1, le=7)] = 1
+    max_standby_days: Annotated[int, Field(ge=1)] | None = None
+    safety_stop_at: Annotated[float, Field(gt=0, le=1)] | None = None
+    safety_probability: Literal["as_in_file", "of_event"] = "as_in_file"
+
+    @field_validator("workdays", "overtime_weekdays")
+    @classmethod
+    def _weekday_names(cls, value):
+        if value is None:
+            return value
+        value = tuple(str(v).lower()[:3] for v in value)
+        for v in value:
+            if v not in WEEKDAYS:
+                raise ValueError(f'"{v}" is not a weekday{did_you_mean(v, WEEKDAYS)}')
+        if len(set(value)) != len(value):
+            raise ValueError("a weekday is listed twice")
+        return value
+
+    @model_validator(mode="after")
+    def _rules_fit_together(self):
+        if self.workdays is not None and not self.workdays:
+            raise ValueError("workdays lists no weekday; list at least one, or leave it out")
+        both = set(self.workdays or ()) & set(self.overtime_weekdays)
+        if both:
+            raise ValueError(f'"{sorted(both)[0]}" is both a workday and an overtime weekday; keep it in one list')
+        if self.work is None:
+            needs = [key for key, given in (("deadline", self.deadline is not None),
+                                            ("overtime_weekdays", bool(self.overtime_weekdays)),
+                                            ("unfinished_cost", self.unfinished_cost > 0)) if given]
+            if needs:
+                raise ValueError(f"{needs[0]} needs the amount of work; add work = <crew-days>")
+        if self.damages_per_day_late > 0 and self.deadline is None:
+            raise ValueError("damages_per_day_late needs a deadline; add deadline = YYYY-MM-DD")
+        return self
+
+    @property
+    def standby_day_rate(self) -> float:
+        """Rate per crew on a standby day: ``standby_rate``, else the full ``day_rate``."""
+        return self.day_rate if self.standby_rate is None else self.standby_rate
+
+
+class CostChanges(_Section):
+    """Cost keys a stress case replaces or multiplies; unset keys stay as in [costs]."""
+
+    hit: float | None = None
+    false_alarm: float | None = None
+    miss: float | None = None
+    correct_negative: float | None = None
+
+    def given(self) -> dict[str, float]:
+        return {k: v for k, v in self.model_dump().items() if v is not None}
+
+
+STRESS_CHANGES = ("event_rate", "costs", "cost_multipliers", "skill", "noise", "block_days",
+                  "worst_seasons")
+
+
+class StressCase(_Section):
+    """One ``[[stress]]`` table: a named change to the world the season is priced in."""
+
+    name: str
+    event_rate: Annotated[float, Field(gt=0)] | None = None
+    costs: CostChanges | None = None
+    cost_multipliers: CostChanges | None = None
+    skill: Annotated[float, Field(ge=0, le=1)] | None = None
+    noise: Annotated[float, Field(ge=0)] | None = None
+    block_days: Annotated[float, Field(ge=1)] | None = None
+    worst_seasons: Annotated[int, Field(ge=1)] | None = None
+
+    @model_validator(mode="after")
+    def _changes_something(self):
+        if all(getattr(self, key) is None for key in STRESS_CHANGES):
+            raise ValueError("a stress case needs at least one change: " + ", ".join(STRESS_CHANGES))
+        new = self.costs.given() if self.costs else {}
+        factors = self.cost_multipliers.given() if self.cost_multipliers else {}
+        if any(v < 0 for v in factors.values()):
+            raise ValueError("cost_multipliers must not be negative")
+        both = sorted(set(new) & set(factors))
+        if both:
+            raise ValueError(f'"{both[0]}" has both a new value (costs) and a multiplier '
+                             "(cost_multipliers); keep one")
+        return self
+
+    def changed_costs(self, base: Costs) -> Costs:
+        """``base`` with this case's new values and multipliers applied."""
+        values = base.model_dump()
+        values.update(self.costs.given() if self.costs else {})
+        for key, factor in (self.cost_multipliers.given() if self.cost_multipliers else {}).items():
+            values[key] = values[key] * factor
+        return Costs(**values)
 
 
 class Scenario(_Section):
@@ -150,6 +269,8 @@ class Scenario(_Section):
     costs: Costs
     season: SeasonSection = SeasonSection()
     simulation: SimulationSection = SimulationSection()
+    stress: list[StressCase] = []
+    operations: OperationsSection | None = None
     # where the file was read from (not a user key): history paths are relative to it
     source: Path | None = Field(default=None, exclude=True)
     sha256: str = Field(default="", exclude=True)
@@ -162,6 +283,14 @@ class Scenario(_Section):
     def slug(self) -> str:
         safe = "".join(ch.lower() if ch.isalnum() else "-" for ch in self.name)
         return "-".join(part for part in safe.split("-") if part) or "scenario"
+
+    @model_validator(mode="after")
+    def _stress_names_differ(self):
+        names = [case.name for case in self.stress]
+        twice = sorted({n for n in names if names.count(n) > 1})
+        if twice:
+            raise ValueError(f'two [[stress]] tables are named "{twice[0]}"; give each its own name')
+        return self
 
     def history_path(self) -> Path | None:
         if self.history.path is None:
@@ -229,7 +358,7 @@ def read_scenario(path: str | Path) -> Scenario:
     except UnicodeDecodeError:
         raise InputError(f"{path}: is not a text file; give a TOML scenario file") from None
     scenario = scenario_from_text(text, label=str(path))
-    return scenario.model_copy(update={"source": path.resolve(),
+    return scenario.model_copy(update={"source": path.absolute(),
                                        "sha256": hashlib.sha256(raw).hexdigest()})
 
 
@@ -255,10 +384,14 @@ def _first_problem(exc: ValidationError, label: str) -> str:
         key = loc[-1]
         model = _model_at(loc[:-1])
         where = f"[{'.'.join(loc[:-1])}]" if len(loc) > 1 else "top level"
+        if loc[0] == "stress" and len(loc) > 2:
+            where = f"[[stress]] table {int(loc[1]) + 1}" + (f" {'.'.join(loc[2:-1])}" if len(loc) > 3 else "")
         valid = [k for k in model.model_fields if k not in ("source", "sha256")]
         return f'{label} {where}: unknown key "{key}"{did_you_mean(key, valid)}'
     section = [p for p in loc if not p.isdigit()]
-    if not section:
+    if section and section[0] == "stress" and len(loc) > 1 and loc[1].isdigit():
+        where = f"[[stress]] table {int(loc[1]) + 1}" + (f" {'.'.join(loc[2:])}" if len(loc) > 2 else "")
+    elif not section:
         where = "top level"
     elif section[0] in _SECTIONS:
         where = f"[{section[0]}]" + (f" {'.'.join(section[1:])}" if len(section) > 1 else "")
@@ -272,16 +405,21 @@ def _first_problem(exc: ValidationError, label: str) -> str:
     return f"{label} {where}: {message}{shown}"
 
 
-_SECTIONS = ("history", "event", "decision", "costs", "season", "simulation")
+_SECTIONS = ("history", "event", "decision", "costs", "season", "simulation", "operations", "stress")
 
 
 def _model_at(loc: list[str]) -> type[BaseModel]:
     model: Any = Scenario
     for part in loc:
+        if part.isdigit():  # an entry of a list of tables, such as [[stress]]
+            continue
         field = model.model_fields.get(part)
         if field is None:
             break
         annotation = field.annotation
-        if isinstance(annotation, type) and issubclass(annotation, BaseModel):
-            model = annotation
+        # an optional section (X | None) names its model among the union's members
+        for member in (annotation, *typing.get_args(annotation)):  # also list[Model]
+            if isinstance(member, type) and issubclass(member, BaseModel):
+                model = member
+                break
     return model
