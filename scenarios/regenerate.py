@@ -1,0 +1,20 @@
+"""Rewrite the demo histories beside this file from simulator.demo.
+
+    .venv/bin/python scenarios/regenerate.py
+
+The CSVs are golden files (tests/test_demo.py compares them byte for byte with the generators);
+run this only after changing a generator on purpose, and review the diff.
+"""
+
+from pathlib import Path
+
+from simulator.demo import line_marking_history, river_history, write_history_csv
+
+HERE = Path(__file__).resolve().parent
+
+if __name__ == "__main__":
+    for name, history in [
+        ("line_marking_history.csv", line_marking_history()),
+        ("river_pumps_history.csv", river_history()),
+    ]:
+        print(write_history_csv(history, HERE / name))

@@ -1,0 +1,234 @@
+"""Invented demo histories: forecasts and outcomes for two fictional operations.
+
+Both histories are made up, for demonstrations and golden-file tests only; they are not evidence
+about any real weather, river or forecaster. The settings are fictional:
+
+- Ferrowby Stripe Works, a road line-marking contractor in the coastal town of Gannetholm, gets a
+  daily probability of rain from its weather supplier and decides each evening whether to send its
+  three crews out the next day (``line_marking_history``).
+- The Vantle Vale Water Board keeps mobile pumps at its Pellisford flood-defence depot and gets a
+  daily probability that the River Vantle at Pellisford Weir gauge peaks above the 3.2 m warning
+  level (``river_history``).
+
+Functions here are pure: they return data frames and never print. ``write_demo_files`` and
+``write_history_csv`` are the only functions that touch files; they write to a temporary name in
+the target folder and rename it into place.
+"""
+
+from __future__ import annotations
+
+import os
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+from scipy.signal import lfilter
+from scipy.special import expit, logit, ndtr
+
+__all__ = [
+    "DEMO_FILES",
+    "WARNING_LEVEL_M",
+    "line_marking_history",
+    "river_history",
+    "history_csv_bytes",
+    "write_history_csv",
+    "write_demo_files",
+]
+
+DATA_FOLDER = Path(__file__).parent / "data"
+
+DEMO_FILES = {
+    "scenario": "line_marking.toml",  # copied verbatim from simulator/data/
+    "history": "line_marking_history.csv",  # written by line_marking_history()
+}
+
+WARNING_LEVEL_M = 3.2  # Pellisford Weir gauge warning level, metres
+
+_YEAR_DAYS = 365.25
+
+
+def _seasonal_wave(day_of_year: np.ndarray, peak_day: float) -> np.ndarray:
+    """cos of the season, +1 on ``peak_day`` of the year and -1 half a year later."""
+    return np.cos(2.0 * np.pi * (day_of_year - peak_day) / _YEAR_DAYS)
+
+
+def _wet_dry_chain(p_dry_to_wet: np.ndarray, p_wet_to_wet: np.ndarray, rng) -> np.ndarray:
+    """A two-state (dry/wet) Markov chain with day-varying transition probabilities.
+
+    Day 0 is drawn from the stationary wet share of day 0's transition probabilities,
+    p01 / (1 - p11 + p01). Returns a bool array, True on wet days. The loop is the one truly
+    sequential step; it is a few thousand cheap iterations.
+    """
+    n_days = p_dry_to_wet.size
+    u = rng.random(n_days)
+    wet = np.zeros(n_days, dtype=bool)
+    stationary = p_dry_to_wet[0] / (1.0 - p_wet_to_wet[0] + p_dry_to_wet[0])
+    state = bool(u[0] < stationary)
+    wet[0] = state
+    for t in range(1, n_days):
+        state = bool(u[t] < (p_wet_to_wet[t] if state else p_dry_to_wet[t]))
+        wet[t] = state
+    return wet
+
+
+def line_marking_history(seed: int = 20270101) -> pd.DataFrame:
+    """Ten years of invented daily rain forecasts and outcomes, Ferrowby Stripe Works, Gannetholm.
+
+    One row a day, 2017-01-01 to 2026-12-31 (3652 rows). Columns: ``date`` (ISO yyyy-mm-dd),
+    ``rain_probability`` (the supplier's probability of a wet day on that date, 2 decimals),
+    ``rain`` (1 on a wet day: at least 1.0 mm, else 0) and ``rain_mm`` (1 decimal, 0.0 on dry days).
+
+    Generator, in the order the random numbers are drawn from ``numpy.random.default_rng(seed)``:
+
+    1. Occurrence: a dry/wet Markov chain with, on day of year d and seasonal wave
+       s = cos(2 pi (d - 10) / 365.25) (wettest around 10 January), P(wet | dry yesterday)
+       p01 = 0.235 + 0.085 s and P(wet | wet yesterday) p11 = 0.56 + 0.10 s. The stationary
+       wet share p01/(1 - p11 + p01) is 0.48 in midwinter and 0.22 in midsummer; persistence
+       p11 - p01 is 0.34 (winter) and 0.31 (summer), a lag-one correlation in the range usual
+       for daily rain occurrence (common practice, no single source).
+    2. Amounts on wet days: 1.0 mm plus a gamma excess with shape 0.8 and mean 4.0 + 1.5 s mm,
+       rounded to 0.1 mm.
+    3. Forecast: the forecaster knows the seasonal chain and yesterday's state, so the prior is
+       q = p11 or p01 (the stationary share on day 0), and sees a signal z ~ N(+d/2, 1) on wet days,
+       N(-d/2, 1) on dry days, with d = 1.1. The likelihood ratio of z is exp(d z), so the
+       calibrated posterior has log-odds logit(q) + d z (Bayes' rule for two equal-variance
+       normals). The supplier then overstates its confidence: the log-odds are multiplied by 1.3,
+       the probability is clipped to [0.01, 0.99] and rounded to 0.01.
+
+    With the default seed: ROC area 0.83, Brier skill score 0.28 against the monthly climatology
+    (0.31 against the overall wet share), wet share 0.44-0.54 in Nov-Feb and 0.20-0.28 in Jun-Aug;
+    forecasts of 0.90 and above (mean 0.94) verify 0.89, those of 0.10 and below (mean 0.05)
+    verify 0.09.
+    Invented data: these numbers check the design of the demo, nothing else.
+    """
+    rng = np.random.default_rng(seed)
+    dates = pd.date_range("2017-01-01", "2026-12-31", freq="D")
+    season = _seasonal_wave(dates.day_of_year.to_numpy(), peak_day=10.0)
+    p_dry_to_wet = 0.235 + 0.085 * season
+    p_wet_to_wet = 0.56 + 0.10 * season
+    wet = _wet_dry_chain(p_dry_to_wet, p_wet_to_wet, rng)
+
+    excess_mean_mm = 4.0 + 1.5 * season
+    shape = 0.8
+    excess_mm = rng.gamma(shape, excess_mean_mm / shape)
+    rain_mm = np.where(wet, np.round(1.0 + excess_mm, 1), 0.0)
+
+    separation = 1.1  # d: distance between the signal means on wet and dry days, in sd units
+    overconfidence = 1.3  # factor on the calibrated log-odds
+    prior = np.where(np.r_[False, wet[:-1]], p_wet_to_wet, p_dry_to_wet)
+    prior[0] = p_dry_to_wet[0] / (1.0 - p_wet_to_wet[0] + p_dry_to_wet[0])
+    signal = np.where(wet, separation / 2.0, -separation / 2.0) + rng.standard_normal(wet.size)
+    calibrated_log_odds = logit(prior) + separation * signal
+    probability = np.clip(expit(overconfidence * calibrated_log_odds), 0.01, 0.99)
+
+    return pd.DataFrame(
+        {
+            "date": dates.strftime("%Y-%m-%d"),
+            "rain_probability": np.round(probability, 2),
+            "rain": wet.astype(np.int64),
+            "rain_mm": rain_mm,
+        }
+    )
+
+
+def river_history(seed: int = 20270202) -> pd.DataFrame:
+    """Twelve years of invented daily peak levels and forecasts, River Vantle at Pellisford Weir.
+
+    One row a day, 2014-10-01 to 2026-09-30 (4383 rows; twelve October-March flood seasons,
+    2014 to 2025, each named by the year it starts). Columns: ``date`` (ISO yyyy-mm-dd),
+    ``prob_above_warning`` (the forecast probability that the day's peak level exceeds the 3.2 m
+    warning level, 2 decimals) and ``peak_level_m`` (observed daily peak, metres, 2 decimals).
+
+    Generator, in the order the random numbers are drawn from ``numpy.random.default_rng(seed)``:
+
+    1. Catchment rain: a dry/wet Markov chain, s = cos(2 pi d / 365.25) for day of year d,
+       p01 = 0.25 + 0.10 s, p11 = 0.60 + 0.10 s; wet-day amounts 1.0 mm plus a gamma excess
+       (shape 0.7, mean 5.0 + 1.5 s mm); on 0 to 3 % of wet days (most in summer, weight
+       (1 - s)/2) a thunderstorm adds a gamma(2, 30 mm) burst.
+    2. Flow: a share 0.5 + 0.4 s of the rain (wet soils in winter) feeds two linear stores, 70 %
+       a quick store that keeps 0.55 of its water each day, 30 % a slow store that keeps 0.975;
+       flow = quick + 0.25 slow. Stage: level = 0.45 + 0.43 flow^0.6 m, plus N(0, 0.03 m) gauge
+       noise, rounded to 1 cm. The slow store makes the level persistent (lag-one correlation
+       about 0.9) and high from December to February.
+    3. Forecast: the forecast level is the observed level plus N(0, sigma) error, where sigma =
+       0.12 m + 0.3 x (the day's rise, if any): rises are harder to foresee than recessions. The
+       probability is Phi((forecast level - 3.2) / 0.22), rounded to 0.01. It ignores how rare high
+       water is, so its middle and high probabilities verify below their face value.
+
+    With the default seed: 5.6 % of October-March days exceed 3.2 m (123 days, most in
+    December-February), 3 days in April-September; ROC area 0.97 and Brier skill score 0.55
+    against the overall exceedance share. Invented data: these
+    numbers check the design of the demo, nothing else.
+    """
+    rng = np.random.default_rng(seed)
+    dates = pd.date_range("2014-10-01", "2026-09-30", freq="D")
+    season = _seasonal_wave(dates.day_of_year.to_numpy(), peak_day=0.0)
+    wet = _wet_dry_chain(0.25 + 0.10 * season, 0.60 + 0.10 * season, rng)
+
+    shape = 0.7
+    excess_mm = rng.gamma(shape, (5.0 + 1.5 * season) / shape)
+    storm = wet & (rng.random(wet.size) < 0.03 * (1.0 - season) / 2.0)
+    storm_mm = rng.gamma(2.0, 30.0, wet.size)
+    rain_mm = np.where(wet, 1.0 + excess_mm, 0.0) + np.where(storm, storm_mm, 0.0)
+
+    effective_mm = (0.5 + 0.4 * season) * rain_mm
+    quick = lfilter([1.0], [1.0, -0.55], 0.7 * effective_mm)  # q_t = 0.55 q_(t-1) + input_t
+    slow = lfilter([1.0], [1.0, -0.975], 0.3 * effective_mm)
+    flow = quick + 0.25 * slow
+    level = 0.45 + 0.43 * flow**0.6 + 0.03 * rng.standard_normal(wet.size)
+    level = np.round(level, 2)
+
+    rise = np.maximum(np.diff(level, prepend=level[0]), 0.0)
+    forecast_level = level + (0.12 + 0.3 * rise) * rng.standard_normal(wet.size)
+    probability = ndtr((forecast_level - WARNING_LEVEL_M) / 0.22)
+
+    return pd.DataFrame(
+        {
+            "date": dates.strftime("%Y-%m-%d"),
+            "prob_above_warning": np.round(probability, 2),
+            "peak_level_m": level,
+        }
+    )
+
+
+def _replace_atomically(path: Path, data: bytes) -> None:
+    """Write ``data`` to a temporary file beside ``path``, then rename it onto ``path``."""
+    temporary = path.with_name(f".{path.name}.{os.getpid()}.tmp")
+    try:
+        with open(temporary, "wb") as out:  # plain open: permissions follow the umask
+            out.write(data)
+        os.replace(temporary, path)
+    except BaseException:
+        temporary.unlink(missing_ok=True)
+        raise
+
+
+def history_csv_bytes(history: pd.DataFrame) -> bytes:
+    """The CSV text of a demo history: header row, no index, "\\n" line ends, UTF-8.
+
+    Floats are already rounded by the generators, so pandas' shortest round-trip repr gives
+    fixed text (0.3, not 0.30000000000000004) and the files are byte-for-byte reproducible.
+    """
+    return history.to_csv(index=False, lineterminator="\n").encode("utf-8")
+
+
+def write_history_csv(history: pd.DataFrame, path: Path) -> Path:
+    """Write a demo history as CSV (see ``history_csv_bytes``) to ``path``; return the path."""
+    path = Path(path)
+    _replace_atomically(path, history_csv_bytes(history))
+    return path
+
+
+def write_demo_files(folder: Path) -> Path:
+    """Write the line-marking scenario and its history into ``folder``; return the scenario path.
+
+    The scenario is copied byte for byte from the package's ``data/line_marking.toml``; its
+    ``[history] path`` names ``line_marking_history.csv`` beside it, which is generated here by
+    ``line_marking_history()``. Existing files of those names are replaced.
+    """
+    folder = Path(folder)
+    folder.mkdir(parents=True, exist_ok=True)
+    write_history_csv(line_marking_history(), folder / DEMO_FILES["history"])
+    scenario = folder / DEMO_FILES["scenario"]
+    _replace_atomically(scenario, (DATA_FOLDER / DEMO_FILES["scenario"]).read_bytes())
+    return scenario

@@ -1,0 +1,196 @@
+"""The invented demo data: golden files, the scenario symlink, and the design of the generators.
+
+The skill and seasonality checks below test that the demo data look the way
+``simulator/demo.py`` says they were designed to look. The data are invented; passing these
+tests says nothing about any real forecast. Reference values for the scores come from
+scikit-learn (``roc_auc_score``, ``brier_score_loss``), not from our own code.
+"""
+
+from __future__ import annotations
+
+import tomllib
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pytest
+from sklearn.metrics import brier_score_loss, roc_auc_score
+
+from simulator import demo
+
+REPO = Path(__file__).resolve().parent.parent
+SCENARIOS = REPO / "scenarios"
+PACKAGE_DATA = REPO / "simulator" / "data"
+
+WET_MONTHS = [11, 12, 1, 2]
+DRY_MONTHS = [6, 7, 8]
+FLOOD_SEASON = [10, 11, 12, 1, 2, 3]
+
+
+@pytest.fixture(scope="module")
+def line_marking():
+    return demo.line_marking_history()
+
+
+@pytest.fixture(scope="module")
+def river():
+    return demo.river_history()
+
+
+def _month(history: pd.DataFrame) -> np.ndarray:
+    return pd.to_datetime(history["date"], format="%Y-%m-%d").dt.month.to_numpy()
+
+
+def _brier_skill(y: np.ndarray, p: np.ndarray, reference: np.ndarray) -> float:
+    # BSS = 1 - BS / BS_reference (Wilks, Statistical Methods in the Atmospheric Sciences,
+    # ch. "Forecast verification", skill scores; from memory, check edition and section)
+    return 1.0 - brier_score_loss(y, p) / brier_score_loss(y, reference)
+
+
+# ---- golden files and package data --------------------------------------------------------
+
+
+@pytest.mark.parametrize(
+    ("file_name", "generator"),
+    [
+        ("line_marking_history.csv", demo.line_marking_history),
+        ("river_pumps_history.csv", demo.river_history),
+    ],
+)
+def test_committed_history_equals_generator_byte_for_byte(file_name, generator):
+    committed = (SCENARIOS / file_name).read_bytes()
+    assert committed == demo.history_csv_bytes(generator()), (
+        f"scenarios/{file_name} differs from simulator.demo; if the change is intended, run "
+        "scenarios/regenerate.py and review the diff"
+    )
+
+
+def test_generators_are_deterministic_and_seed_dependent():
+    first = demo.line_marking_history()
+    assert first.equals(demo.line_marking_history())
+    assert not first.equals(demo.line_marking_history(seed=1))
+    assert demo.river_history().equals(demo.river_history())
+
+
+def test_scenario_symlink_is_relative_and_resolves_to_package_data():
+    link = SCENARIOS / "line_marking.toml"
+    assert link.is_symlink()
+    assert not Path(link.readlink()).is_absolute()
+    assert link.resolve() == (PACKAGE_DATA / "line_marking.toml").resolve()
+
+
+def test_write_demo_files_writes_scenario_and_history_it_names(tmp_path, line_marking):
+    scenario_path = demo.write_demo_files(tmp_path / "demo")
+    assert scenario_path.read_bytes() == (PACKAGE_DATA / "line_marking.toml").read_bytes()
+    scenario = tomllib.loads(scenario_path.read_text(encoding="utf-8"))
+    history_path = scenario_path.parent / scenario["history"]["path"]
+    assert history_path.read_bytes() == demo.history_csv_bytes(line_marking)
+    expected = sorted(demo.DEMO_FILES.values())
+    assert sorted(p.name for p in scenario_path.parent.iterdir()) == expected
+    demo.write_demo_files(tmp_path / "demo")  # writing again replaces, leaves no temporary files
+    assert sorted(p.name for p in scenario_path.parent.iterdir()) == expected
+
+
+@pytest.mark.parametrize("file_name", ["line_marking.toml", "river_pumps.toml"])
+def test_scenario_names_existing_columns_and_stated_break_even(file_name):
+    scenario_path = SCENARIOS / file_name
+    scenario = tomllib.loads(scenario_path.read_text(encoding="utf-8"))
+    history = pd.read_csv(scenario_path.parent / scenario["history"]["path"], nrows=5)
+    section = scenario["history"]
+    named = [section[k] for k in ("date_column", "probability_column", "outcome_column",
+                                  "value_column") if k in section]
+    assert set(named) <= set(history.columns)
+    c = scenario["costs"]
+    # break-even p* = (c_fa - c_cn) / ((c_fa - c_cn) + (c_m - c_h)): Elkan (2001), "The
+    # Foundations of Cost-Sensitive Learning", IJCAI-01; the comment in each file states it.
+    cost = c["false_alarm"] - c["correct_negative"]
+    loss = c["miss"] - c["hit"]
+    assert cost > 0 and loss > 0  # Elkan's "reasonableness": neither action always best
+    p_star = cost / (cost + loss)
+    assert f"= {p_star:.2f}" in scenario_path.read_text(encoding="utf-8") or (
+        f"= {p_star:.3f}" in scenario_path.read_text(encoding="utf-8")
+    )
+
+
+# ---- the line-marking design: seasonality, skill, overconfidence ---------------------------
+
+
+def test_line_marking_covers_ten_years_daily_with_consistent_amounts(line_marking):
+    assert list(line_marking.columns) == ["date", "rain_probability", "rain", "rain_mm"]
+    assert line_marking["date"].iloc[0] == "2017-01-01"
+    assert line_marking["date"].iloc[-1] == "2026-12-31"
+    assert len(line_marking) == 3652  # 365 x 10 + two leap days (2020, 2024)
+    wet = line_marking["rain"] == 1
+    assert (line_marking.loc[wet, "rain_mm"] >= 1.0).all()  # wet day = at least 1.0 mm
+    assert (line_marking.loc[~wet, "rain_mm"] == 0.0).all()
+    p = line_marking["rain_probability"]
+    assert p.between(0.01, 0.99).all()
+
+
+def test_line_marking_is_wetter_in_winter_than_in_summer(line_marking):
+    rate = line_marking.groupby(_month(line_marking))["rain"].mean()
+    assert 0.40 <= rate[WET_MONTHS].mean() <= 0.56  # designed ~0.45-0.55 in winter
+    assert 0.18 <= rate[DRY_MONTHS].mean() <= 0.30  # designed ~0.20-0.30 in summer
+    assert rate[WET_MONTHS].min() > rate[DRY_MONTHS].max()
+
+
+def test_line_marking_wet_days_persist(line_marking):
+    y = line_marking["rain"].to_numpy()
+    wet_after_wet = y[1:][y[:-1] == 1].mean()
+    wet_after_dry = y[1:][y[:-1] == 0].mean()
+    assert 0.2 <= wet_after_wet - wet_after_dry <= 0.45  # designed p11 - p01 ~ 0.31-0.34
+
+
+def test_line_marking_forecast_has_designed_skill(line_marking):
+    y = line_marking["rain"].to_numpy()
+    p = line_marking["rain_probability"].to_numpy()
+    monthly_climate = line_marking.groupby(_month(line_marking))["rain"].transform("mean")
+    assert 0.80 <= roc_auc_score(y, p) <= 0.88
+    assert 0.20 <= _brier_skill(y, p, monthly_climate.to_numpy()) <= 0.35
+
+
+def test_line_marking_forecast_is_overconfident_at_both_ends(line_marking):
+    # Reliability-diagram reading (Wilks, Statistical Methods in the Atmospheric Sciences,
+    # reliability diagrams; from memory): overconfident forecasts verify below their face value
+    # at the top and above it at the bottom.
+    y = line_marking["rain"].to_numpy()
+    p = line_marking["rain_probability"].to_numpy()
+    top, bottom = p >= 0.9, p <= 0.1
+    assert top.sum() > 100 and bottom.sum() > 100
+    assert y[top].mean() < p[top].mean() - 0.02
+    assert y[bottom].mean() > p[bottom].mean() + 0.02
+
+
+# ---- the river design: seasonal, persistent, rare exceedances, skilful forecast -------------
+
+
+def test_river_covers_twelve_flood_seasons(river):
+    assert list(river.columns) == ["date", "prob_above_warning", "peak_level_m"]
+    assert river["date"].iloc[0] == "2014-10-01"
+    assert river["date"].iloc[-1] == "2026-09-30"
+    assert river["prob_above_warning"].between(0.0, 1.0).all()
+
+
+def test_river_exceedances_are_rare_and_in_the_flood_season(river):
+    above = (river["peak_level_m"] > demo.WARNING_LEVEL_M).to_numpy()
+    in_season = np.isin(_month(river), FLOOD_SEASON)
+    assert above[in_season].sum() >= 40
+    assert 0.03 <= above[in_season].mean() <= 0.08
+    assert 1 <= above[~in_season].sum() <= 15  # near zero outside the season, but a few
+
+
+def test_river_level_is_persistent_and_high_in_winter(river):
+    level = river["peak_level_m"].to_numpy()
+    assert np.corrcoef(level[1:], level[:-1])[0, 1] > 0.8
+    mean_by_month = river.groupby(_month(river))["peak_level_m"].mean()
+    assert mean_by_month[[12, 1, 2]].mean() > mean_by_month[[6, 7, 8]].mean() + 0.5
+
+
+def test_river_forecast_is_skilful_but_imperfect(river):
+    y = (river["peak_level_m"] > demo.WARNING_LEVEL_M).to_numpy().astype(int)
+    p = river["prob_above_warning"].to_numpy()
+    climate = np.full(y.size, y.mean())
+    assert 0.90 <= roc_auc_score(y, p) < 0.99
+    assert 0.35 <= _brier_skill(y, p, climate) <= 0.75
+    high = p >= 0.7
+    assert y[high].mean() < p[high].mean()  # high probabilities verify below face value
