@@ -1,0 +1,333 @@
+"""Figures for the report: pure functions from a run's numbers to PNG bytes.
+
+Each function draws on its own :class:`~matplotlib.figure.Figure` with the Agg canvas (no pyplot,
+no global figure state) and returns a :class:`Chart`. Colours are the Okabe and Ito (2008)
+colour-blind-safe set ("Color Universal Design", J*Fly), and every line also differs in dash or
+marker, so the charts survive colour-blind eyes and grey printers. Money axes carry the scenario's
+currency; probabilities and rates are labelled as such. PNG metadata is left empty, so the same
+run gives byte-identical files.
+"""
+
+from __future__ import annotations
+
+import io
+import textwrap
+from collections.abc import Sequence
+from dataclasses import dataclass, field
+
+import matplotlib as mpl
+import numpy as np
+from matplotlib.backends.backend_agg import FigureCanvasAgg
+from matplotlib.figure import Figure
+from matplotlib.ticker import FuncFormatter
+
+__all__ = ["Chart", "Words", "OKABE_ITO", "cost_chart", "savings_chart", "reliability_chart",
+           "roc_chart", "value_chart", "stress_chart", "components_chart", "completion_chart"]
+
+OKABE_ITO = {"black": "#000000", "orange": "#E69F00", "sky_blue": "#56B4E9", "green": "#009E73",
+             "yellow": "#F0E442", "blue": "#0072B2", "vermillion": "#D55E00", "purple": "#CC79A7"}
+_GREY = "#6b6b6b"
+_DPI = 150
+_STYLE = {"font.size": 10, "axes.titlesize": 11, "axes.titleweight": "bold", "axes.titlelocation": "left",
+          "axes.spines.top": False, "axes.spines.right": False, "axes.grid": True, "grid.color": "#dddddd",
+          "grid.linewidth": 0.6, "axes.edgecolor": "#444444", "legend.frameon": False,
+          "legend.fontsize": 9}
+
+# colour, dash and marker of each baseline line (the model is always solid blue)
+_BASELINE_STYLE = {
+    "never_act": {"color": OKABE_ITO["vermillion"], "linestyle": (0, (6, 3))},
+    "always_act": {"color": OKABE_ITO["orange"], "linestyle": (0, (2, 2))},
+    "persistence": {"color": OKABE_ITO["purple"], "linestyle": (0, (6, 2, 1, 2))},
+    "seasonal_rate": {"color": OKABE_ITO["green"], "linestyle": (0, (1, 1.5))},
+    "perfect": {"color": _GREY, "linestyle": (0, (8, 2, 1, 2, 1, 2))},
+}
+
+
+@dataclass(frozen=True)
+class Words:
+    """The scenario's own words, used on every axis and legend."""
+
+    event: str  # "dry day"
+    action: str  # "send the crews out"
+    currency: str  # "EUR"
+    occasion: str = "day"  # "day", or "occasion" when the history is not daily
+    labels: dict[str, str] = field(default_factory=dict)  # strategy name -> short legend label
+    reference: str = "never_act"
+    decimals: int = 2  # decimals of a cutoff on this grid
+
+
+@dataclass(frozen=True)
+class Chart:
+    """A figure as PNG bytes; ``geometry`` places data on the image (cost chart only).
+
+    geometry: the axes' left, right, top and bottom edges as fractions of the image width and height
+    (top-left origin, as a web page lays it out) and the data limits ``xmin, xmax, ymin, ymax``.
+    """
+
+    png: bytes
+    geometry: dict[str, float] | None = None
+
+
+def _wrap(text: str, width: int = 100) -> str:
+    return "\n".join(textwrap.wrap(text, width))
+
+
+def _money_axis(axis) -> None:
+    axis.set_major_formatter(FuncFormatter(lambda v, _: f"{v:,.0f}"))
+
+
+def _figure(width: float, height: float, **kw) -> Figure:
+    fig = Figure(figsize=(width, height), dpi=_DPI, layout="constrained", **kw)
+    FigureCanvasAgg(fig)
+    return fig
+
+
+def _png(fig: Figure) -> bytes:
+    buffer = io.BytesIO()
+    fig.savefig(buffer, format="png", dpi=_DPI, metadata={"Software": None}, facecolor="white")
+    return buffer.getvalue()
+
+
+def _label_above(ax, marks: list[tuple[float, str, dict]], span: float) -> None:
+    """Short labels just above the axes at vertical lines; a label too close to the one before it
+    moves up a row. Labels stay out of the layout, which is fixed by the axes."""
+    row, last = 0, None
+    for x, text, style in sorted(marks, key=lambda m: m[0]):
+        row = row + 1 if last is not None and x - last < 0.07 * span else 0
+        last = x
+        label = ax.annotate(text, (x, 1.0), xycoords=("data", "axes fraction"), xytext=(0, 3 + 12 * row),
+                            textcoords="offset points", va="bottom", ha="center", fontsize=9,
+                            annotation_clip=False, **style)
+        label.set_in_layout(False)
+
+
+def _geometry(ax) -> dict[str, float]:
+    """Where the axes sit in the saved image (call after the figure was saved)."""
+    box = ax.get_position()
+    (xmin, xmax), (ymin, ymax) = ax.get_xlim(), ax.get_ylim()
+    return {"left": box.x0, "right": box.x1, "top": 1.0 - box.y1, "bottom": 1.0 - box.y0,
+            "xmin": xmin, "xmax": xmax, "ymin": ymin, "ymax": ymax}
+
+
+def cost_chart(cutoffs: np.ndarray, mean_cost: np.ndarray, p05_cost: np.ndarray, p95_cost: np.ndarray,
+               baselines: dict[str, float], recommended: float, theoretical: float,
+               crossings: Sequence[float], words: Words) -> Chart:
+    """Mean season cost against the cutoff with its 5-95% band, the baselines as horizontal lines,
+    the recommended cutoff, the break-even probability of the costs and the break-even points."""
+    with mpl.rc_context(_STYLE):
+        fig = _figure(8.0, 4.8)
+        ax = fig.add_subplot()
+        blue = OKABE_ITO["blue"]
+        ax.fill_between(cutoffs, p05_cost, p95_cost, color=OKABE_ITO["sky_blue"], alpha=0.35, lw=0,
+                        label="Forecast: 90% of seasons (5th to 95th percentile)")
+        ax.plot(cutoffs, mean_cost, color=blue, lw=2.2, label="Forecast: expected season cost")
+        for name, value in baselines.items():
+            style = _BASELINE_STYLE.get(name, {"color": _GREY, "linestyle": "--"})
+            is_ref = name == words.reference
+            label = words.labels.get(name, name) + (" (reference)" if is_ref else "")
+            ax.axhline(value, lw=2.0 if is_ref else 1.3, label=label, **style)
+        ref_cost = baselines.get(words.reference)
+        if ref_cost is not None and len(crossings):
+            ax.plot(crossings, [ref_cost] * len(crossings), "D", color=OKABE_ITO["black"], ms=6,
+                    mfc="white", mew=1.5, zorder=5, label="Where the forecast stops beating the reference")
+        ax.axvline(recommended, color=OKABE_ITO["black"], lw=1.6, zorder=4,
+                   label=f"Recommended cutoff {recommended:.{words.decimals}f}")
+        marks = [(recommended, f"{recommended:.{words.decimals}f}", {"fontweight": "bold"})]
+        if np.isfinite(theoretical):
+            ax.axvline(theoretical, color=_GREY, lw=1.2, linestyle=(0, (1, 2)), zorder=3,
+                       label=f"Break-even probability of the costs {theoretical:.{words.decimals}f}")
+            marks.append((theoretical, f"{theoretical:.{words.decimals}f}", {"color": "#444444"}))
+        _label_above(ax, marks, float(cutoffs[-1] - cutoffs[0]))
+        ax.set_xlim(cutoffs[0], cutoffs[-1])
+        ax.set_xlabel(_wrap(f"Cutoff (probability, 0 to 1): {words.action} when the forecast probability "
+                            f"of \u201c{words.event}\u201d is at least this"))
+        ax.set_ylabel(f"Season cost ({words.currency})")
+        _money_axis(ax.yaxis)
+        ax.set_title(f"Season cost at each cutoff ({words.currency} per season; lower is better)", pad=30)
+        fig.legend(loc="outside lower center", ncol=2)
+        png = _png(fig)  # the last draw fixes the layout; read the geometry after it
+        return Chart(png, _geometry(ax))
+
+
+def _bin_edges(values: np.ndarray) -> np.ndarray:
+    """Histogram edges that include 0 as an edge, so no bar straddles gain and loss."""
+    lo, hi = float(values.min()), float(values.max())
+    width = np.diff(np.histogram_bin_edges(values, bins="auto"))[0] if hi > lo else 0.0
+    width = max(width, (hi - lo) / 60, 1e-9)
+    if hi == lo:
+        return np.array([lo - 0.5, lo + 0.5]) if lo != 0 else np.array([-0.5, 0.5])
+    first, last = int(np.floor(lo / width)), int(np.ceil(hi / width))
+    last = max(last, first + 1)
+    return width * np.arange(first, last + 1)
+
+
+def savings_chart(savings: np.ndarray, reference_label: str, words: Words) -> Chart:
+    """Histogram of season savings against the reference; losing seasons in vermillion."""
+    with mpl.rc_context(_STYLE):
+        fig = _figure(8.0, 3.8)
+        ax = fig.add_subplot()
+        edges = _bin_edges(savings)
+        counts, _ = np.histogram(savings, bins=edges)
+        left, widths = edges[:-1], np.diff(edges)
+        losing = edges[1:] <= 0
+        ax.bar(left[~losing], counts[~losing], widths[~losing], align="edge", color=OKABE_ITO["blue"],
+               edgecolor="white", lw=0.4, label="Seasons that save money")
+        if losing.any():
+            ax.bar(left[losing], counts[losing], widths[losing], align="edge", color=OKABE_ITO["vermillion"],
+                   edgecolor="white", lw=0.4, hatch="///", label="Seasons that lose money")
+        ax.axvline(0, color=OKABE_ITO["black"], lw=1.2)
+        mean = float(savings.mean())
+        ax.axvline(mean, color=OKABE_ITO["black"], lw=1.2, linestyle=(0, (4, 2)), label="Expected saving")
+        ax.set_xlabel(_wrap(f"Saving in a season against the reference rule, {reference_label} "
+                            f"({words.currency}; below 0: the forecast costs more)"))
+        ax.set_ylabel("Simulated seasons (count)")
+        _money_axis(ax.xaxis)
+        ax.set_title(f"Savings at the recommended cutoff ({words.currency} per season)")
+        ax.legend(loc="upper left")
+        return Chart(_png(fig))
+
+
+def reliability_chart(forecast_mean: np.ndarray, observed: np.ndarray, n: np.ndarray,
+                      bin_lower: np.ndarray, bin_upper: np.ndarray, event_rate: float,
+                      words: Words) -> Chart:
+    """Observed frequency against forecast probability per bin, with the count of each bin below."""
+    with mpl.rc_context(_STYLE):
+        fig = _figure(5.2, 5.2)
+        top, bottom = fig.subplots(2, 1, sharex=True, height_ratios=[3, 1.2])
+        seen = n > 0
+        top.plot([0, 1], [0, 1], color=_GREY, lw=1, linestyle=(0, (4, 2)), label="Perfectly reliable")
+        top.axhline(event_rate, color=OKABE_ITO["green"], lw=1, linestyle=(0, (1, 1.5)),
+                    label=f"Event rate {event_rate:.2f}")
+        top.plot(forecast_mean[seen], observed[seen], "o-", color=OKABE_ITO["blue"], lw=1.8, ms=5,
+                 label="This forecast")
+        top.set_xlim(0, 1)
+        top.set_ylim(0, 1)
+        top.set_ylabel(f"Observed share of \u201c{words.event}\u201d\n(0 to 1)")
+        top.set_title("Reliability: does 70% mean 70%?")
+        top.legend(loc="upper left")
+        centres = (bin_lower + bin_upper) / 2
+        bottom.bar(centres, n, bin_upper - bin_lower, color=OKABE_ITO["sky_blue"], edgecolor="white")
+        for x, count in zip(centres, n):
+            bottom.annotate(f"{int(count)}", (x, count), xytext=(0, 1), textcoords="offset points",
+                            ha="center", va="bottom", fontsize=7)
+        bottom.set_ylim(0, max(1, int(n.max())) * 1.35)
+        bottom.set_ylabel(f"{words.occasion.capitalize()}s\n(count)")
+        bottom.set_xlabel(f"Forecast probability of \u201c{words.event}\u201d (0 to 1)")
+        return Chart(_png(fig))
+
+
+def roc_chart(false_alarm_rate: np.ndarray, hit_rate: np.ndarray, point: tuple[float, float],
+              cutoff: float, auc: float, words: Words) -> Chart:
+    """ROC curve over the cutoff grid with the recommended cutoff's point."""
+    with mpl.rc_context(_STYLE):
+        fig = _figure(5.2, 5.2)
+        ax = fig.add_subplot()
+        ok = np.isfinite(false_alarm_rate) & np.isfinite(hit_rate)
+        order = np.argsort(false_alarm_rate[ok], kind="stable")
+        x = np.concatenate([[0.0], false_alarm_rate[ok][order], [1.0]])
+        y = np.concatenate([[0.0], hit_rate[ok][order], [1.0]])
+        ax.plot([0, 1], [0, 1], color=_GREY, lw=1, linestyle=(0, (4, 2)), label="No skill")
+        ax.plot(x, y, color=OKABE_ITO["blue"], lw=2, label=f"This forecast (area {auc:.2f})")
+        ax.plot(*point, "o", color=OKABE_ITO["vermillion"], ms=8, mec="black", zorder=5,
+                label=f"Recommended cutoff {cutoff:.{words.decimals}f}")
+        ax.set_xlim(0, 1)
+        ax.set_ylim(0, 1.01)
+        ax.set_aspect("equal")
+        ax.set_xlabel(f"False alarm rate (share of {words.occasion}s without\n\u201c{words.event}\u201d "
+                      "on which we act, 0 to 1)")
+        ax.set_ylabel(f"Hit rate (share of \u201c{words.event}\u201d {words.occasion}s\non which we act, 0 to 1)")
+        ax.set_title("ROC: hits against false alarms")
+        ax.legend(loc="lower right")
+        return Chart(_png(fig))
+
+
+def value_chart(ratios: np.ndarray, potential: np.ndarray, at_ratio: np.ndarray, scenario_ratio: float,
+                scenario_value: float, words: Words) -> Chart:
+    """Relative value across cost-loss ratios (Richardson 2000), the scenario's ratio marked."""
+    with mpl.rc_context(_STYLE):
+        fig = _figure(8.0, 4.0)
+        ax = fig.add_subplot()
+        ax.axhline(0, color=OKABE_ITO["black"], lw=0.8)
+        ax.plot(ratios, potential, color=OKABE_ITO["blue"], lw=2, label="Best cutoff for each ratio")
+        ax.plot(ratios, at_ratio, color=OKABE_ITO["orange"], lw=1.5, linestyle=(0, (4, 2)),
+                label="Cutoff equal to the ratio")
+        if np.isfinite(scenario_ratio):
+            ax.axvline(scenario_ratio, color=_GREY, lw=1.2, linestyle=(0, (1, 2)))
+            ax.plot([scenario_ratio], [scenario_value], "o", color=OKABE_ITO["vermillion"], mec="black",
+                    ms=8, zorder=5, label=f"This scenario ({scenario_ratio:.{words.decimals}f}) at the recommended cutoff")
+        finite = np.concatenate([potential[np.isfinite(potential)], at_ratio[np.isfinite(at_ratio)], [0.0]])
+        ax.set_ylim(max(-0.5, float(finite.min()) - 0.05), 1.02)
+        ax.set_xlim(0, 1)
+        ax.set_xlabel("Cost-loss ratio: what acting costs / what it saves when the event comes (0 to 1)")
+        ax.set_ylabel("Relative value\n(1 = perfect, 0 = best fixed rule)")
+        ax.set_title("Relative value: what the forecast is worth at other costs")
+        ax.legend(loc="lower center")
+        return Chart(_png(fig))
+
+
+def stress_chart(names: Sequence[str], mean: Sequence[float], p05: Sequence[float], p95: Sequence[float],
+                 best: Sequence[float], words: Words) -> Chart:
+    """Season cost at the recommended cutoff per stress case (mean and 5-95% range), and the
+    expected cost at each case's own best cutoff."""
+    with mpl.rc_context(_STYLE):
+        fig = _figure(8.0, 1.6 + 0.45 * len(names))
+        ax = fig.add_subplot()
+        y = np.arange(len(names))[::-1]
+        mean, p05, p95, best = (np.asarray(v, dtype=float) for v in (mean, p05, p95, best))
+        ax.hlines(y, p05, p95, color=OKABE_ITO["sky_blue"], lw=7, label="90% of seasons at the recommended cutoff")
+        ax.plot(mean, y, "o", color=OKABE_ITO["blue"], ms=8, label="Expected, at the recommended cutoff")
+        ax.plot(best, y, "D", color=OKABE_ITO["vermillion"], mfc="white", mew=1.6, ms=7,
+                label="Expected, at the case's own best cutoff")
+        ax.set_yticks(y, [_wrap(n, 34) for n in names])
+        ax.grid(axis="y", visible=False)
+        ax.set_xlabel(f"Season cost ({words.currency})")
+        _money_axis(ax.xaxis)
+        ax.set_title(f"What if next season is different? ({words.currency} per season)")
+        fig.legend(loc="outside lower center", ncol=2)
+        return Chart(_png(fig))
+
+
+def components_chart(names: Sequence[str], values: Sequence[float], reference: Sequence[float] | None,
+                     words: Words) -> Chart:
+    """Expected season cost split into its parts under the operating rules, at the recommended
+    cutoff and (when given) under the reference rule."""
+    with mpl.rc_context(_STYLE):
+        fig = _figure(8.0, 1.6 + 0.5 * len(names))
+        ax = fig.add_subplot()
+        y = np.arange(len(names))[::-1].astype(float)
+        height = 0.38 if reference is not None else 0.6
+        ax.barh(y + (height / 2 if reference is not None else 0), values, height=height,
+                color=OKABE_ITO["blue"], label="Following the forecast at the recommended cutoff")
+        if reference is not None:
+            ax.barh(y - height / 2, reference, height=height, color=OKABE_ITO["vermillion"], hatch="///",
+                    edgecolor="white", label="The reference rule")
+        ax.set_yticks(y, list(names))
+        ax.grid(axis="y", visible=False)
+        ax.set_xlabel(f"Expected cost in a season ({words.currency})")
+        _money_axis(ax.xaxis)
+        ax.set_title(f"Where the money goes under the operating rules ({words.currency} per season)")
+        fig.legend(loc="outside lower center", ncol=2)
+        return Chart(_png(fig))
+
+
+def completion_chart(weeks: Sequence[str], shares: Sequence[float], deadline: str | None,
+                     words: Words) -> Chart:
+    """Share of simulated seasons with the work finished by the end of each week (a step curve)."""
+    with mpl.rc_context(_STYLE):
+        fig = _figure(8.0, 3.6)
+        ax = fig.add_subplot()
+        start = np.array(weeks, dtype="datetime64[D]")
+        end = start + 7  # finished during the week: counted from its end
+        done = 100 * np.cumsum(np.asarray(shares, dtype=float))
+        ax.step(np.concatenate([[start[0]], end]), np.concatenate([[0.0], done]), where="post",
+                color=OKABE_ITO["blue"], lw=2, label="Seasons with the work finished")
+        if deadline:
+            ax.axvline(np.datetime64(deadline, "D"), color=OKABE_ITO["vermillion"], lw=1.5,
+                       linestyle=(0, (4, 2)), label=f"Deadline {deadline}")
+        ax.set_ylim(0, 102)
+        ax.set_ylabel("Seasons finished (% of\nsimulated seasons)")
+        ax.set_xlabel("Date (end of the week the work was finished)")
+        ax.set_title("When the work gets done at the recommended cutoff")
+        ax.legend(loc="upper left")
+        fig.autofmt_xdate()
+        return Chart(_png(fig))

@@ -1,0 +1,201 @@
+"""The report in a real browser: headless Chromium driven through the Chrome DevTools protocol.
+
+The test opens report.html from a file, moves the cutoff slider, and checks the numbers the page
+then shows against that row of cutoffs.csv; it also checks that the browser logged no error, made
+no network request, and drew a page that is not blank. It needs Debian's ``chromium`` package and
+``websocket-client`` (the test extra). Without a browser it is skipped, except in CI (``CI`` set),
+where a missing browser is a failure.
+"""
+
+from __future__ import annotations
+
+import base64
+import io
+import json
+import os
+import re
+import shutil
+import subprocess
+import time
+import urllib.request
+from pathlib import Path
+
+import matplotlib.image as mpimg
+import pandas as pd
+import pytest
+from typer.testing import CliRunner
+
+from simulator.cli import app
+from simulator.report import FIELD_FORMATS, format_value
+
+CHROMIUM = shutil.which("chromium") or ("/usr/bin/chromium" if Path("/usr/bin/chromium").exists() else None)
+FLAGS = ["--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
+         "--disable-background-networking", "--disable-component-update", "--disable-sync",
+         "--remote-debugging-port=0", "--window-size=1200,2000", "--hide-scrollbars"]
+
+
+def _need(condition: bool, reason: str) -> None:
+    if not condition:
+        if os.environ.get("CI"):
+            pytest.fail(f"{reason}; CI must run the browser test")
+        pytest.skip(reason)
+
+
+class DevTools:
+    """A minimal Chrome DevTools protocol client over one page's websocket."""
+
+    def __init__(self, url: str):
+        import websocket
+
+        self.ws = websocket.create_connection(url, timeout=15, suppress_origin=True)
+        self.next_id = 0
+        self.events: list[dict] = []
+
+    def call(self, method: str, **params) -> dict:
+        self.next_id += 1
+        self.ws.send(json.dumps({"id": self.next_id, "method": method, "params": params}))
+        while True:
+            message = json.loads(self.ws.recv())
+            if message.get("id") == self.next_id:
+                if "error" in message:
+                    raise RuntimeError(f"{method}: {message['error']}")
+                return message.get("result", {})
+            self.events.append(message)
+
+    def wait_for(self, event: str, timeout: float = 15.0) -> dict:
+        deadline = time.monotonic() + timeout
+        while time.monotonic() < deadline:
+            found = next((e for e in self.events if e.get("method") == event), None)
+            if found:
+                return found
+            self.events.append(json.loads(self.ws.recv()))
+        raise TimeoutError(event)
+
+    def evaluate(self, expression: str):
+        result = self.call("Runtime.evaluate", expression=expression, returnByValue=True, awaitPromise=True)
+        if "exceptionDetails" in result:
+            raise RuntimeError(result["exceptionDetails"])
+        return result["result"].get("value")
+
+    def close(self) -> None:
+        self.ws.close()
+
+
+@pytest.fixture(scope="module")
+def demo_report(tmp_path_factory) -> Path:
+    out = tmp_path_factory.mktemp("browser") / "demo"
+    result = CliRunner().invoke(app, ["demo", "--out", str(out), "--replicates", "200", "--quiet"])
+    assert result.exit_code == 0, result.output
+    return out
+
+
+@pytest.fixture
+def page(tmp_path):
+    _need(CHROMIUM is not None, "the chromium browser is not installed (apt-get install chromium)")
+    try:
+        import websocket  # noqa: F401
+    except ImportError:
+        _need(False, "websocket-client is not installed (pip install -e '.[test]')")
+    profile = tmp_path / "profile"
+    browser = subprocess.Popen([CHROMIUM, *FLAGS, f"--user-data-dir={profile}", "about:blank"],
+                               stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
+    client = None
+    try:
+        port_file = profile / "DevToolsActivePort"
+        deadline = time.monotonic() + 15
+        while not (port_file.exists() and port_file.read_text().strip()):
+            assert browser.poll() is None, "chromium exited before it opened its DevTools port"
+            assert time.monotonic() < deadline, "chromium did not open its DevTools port within 15 s"
+            time.sleep(0.05)
+        port = int(port_file.read_text().split()[0])
+        with urllib.request.urlopen(f"http://127.0.0.1:{port}/json/list", timeout=10) as response:
+            targets = json.load(response)
+        target = next(t for t in targets if t["type"] == "page")
+        client = DevTools(target["webSocketDebuggerUrl"])
+        for domain in ("Page", "Runtime", "Log", "Network"):
+            client.call(f"{domain}.enable")
+        yield client
+    finally:
+        if client is not None:
+            client.close()
+        browser.terminate()
+        try:
+            browser.wait(timeout=5)
+        except subprocess.TimeoutExpired:
+            browser.kill()
+            browser.wait(timeout=5)
+
+
+def _number(text: str) -> float:
+    """The number in a displayed value: "391,743 EUR" -> 391743, "72.7%" -> 72.7."""
+    found = re.search(r"-?[\d,]+(\.\d+)?", text)
+    assert found, text
+    return float(found.group(0).replace(",", ""))
+
+
+def _shown(page) -> list[list[str]]:
+    return page.evaluate("""Array.from(document.querySelectorAll('#explorer [data-field]'))
+        .map(el => [el.getAttribute('data-field'), el.textContent])""")
+
+
+def _open(page, path: Path) -> None:
+    page.events.clear()
+    page.call("Page.navigate", url=path.resolve().as_uri())
+    page.wait_for("Page.loadEventFired")
+
+
+def test_slider_shows_the_chosen_row_of_cutoffs_csv(demo_report, page):
+    table = pd.read_csv(demo_report / "cutoffs.csv")
+    s = json.loads((demo_report / "summary.json").read_text())
+    currency = s["currency"]
+
+    # without JavaScript: no slider on screen, everything at the recommended cutoff
+    page.call("Emulation.setScriptExecutionDisabled", value=True)
+    _open(page, demo_report / "report.html")
+    assert page.evaluate("getComputedStyle(document.getElementById('explorer-controls')).display") == "none"
+    best = table.index[table["cutoff"] == s["recommended_cutoff"]][0]
+    for field, text in _shown(page):
+        assert text == format_value(FIELD_FORMATS[field], table[field][best], currency), field
+    page.call("Emulation.setScriptExecutionDisabled", value=False)
+
+    _open(page, demo_report / "report.html")
+
+    assert page.evaluate("getComputedStyle(document.getElementById('explorer-controls')).display") != "none"
+    recommended = page.evaluate("Number(document.getElementById('cutoff-slider').value)")
+    marker_before = page.evaluate("document.getElementById('cost-marker').style.left")
+    chosen = 30 if abs(recommended - 30) > 5 else 60
+    page.evaluate(f"""(() => {{
+        const slider = document.getElementById('cutoff-slider');
+        slider.value = '{chosen}';
+        slider.dispatchEvent(new Event('input', {{bubbles: true}}));
+    }})()""")
+    shown = _shown(page)
+
+    row = table.iloc[chosen]
+    assert {field for field, _ in shown} == set(FIELD_FORMATS)
+    for field, text in shown:
+        value = row[field]
+        assert text == format_value(FIELD_FORMATS[field], value, currency), (field, text, value)
+        kind = FIELD_FORMATS[field]
+        if kind == "money":
+            assert abs(_number(text) - value) <= 0.5, (field, text, value)
+        elif kind == "rate":
+            assert abs(_number(text) / 100 - value) <= 0.0005, (field, text, value)
+        elif kind == "share" and "%" in text and "over" not in text and "under" not in text:
+            assert abs(_number(text) / 100 - value) <= 0.005, (field, text, value)
+        elif kind in ("count", "cutoff"):
+            assert _number(text) == pytest.approx(value), (field, text, value)
+    assert page.evaluate("document.getElementById('cost-marker').style.left") != marker_before
+    assert page.evaluate("document.getElementById('is-recommended').hidden") is True
+
+    shot = base64.b64decode(page.call("Page.captureScreenshot", format="png")["data"])
+    pixels = mpimg.imread(io.BytesIO(shot), format="png")
+    assert pixels.std() > 0.05, "the screenshot is blank"
+
+    errors = [e for e in page.events if e.get("method") == "Runtime.exceptionThrown"
+              or (e.get("method") == "Runtime.consoleAPICalled" and e["params"]["type"] in ("error", "assert"))
+              or (e.get("method") == "Log.entryAdded" and e["params"]["entry"]["level"] == "error")]
+    assert not errors, errors
+    requests = [e["params"]["request"]["url"] for e in page.events
+                if e.get("method") == "Network.requestWillBeSent"]
+    assert all(url.startswith(("file:", "data:")) for url in requests), requests
