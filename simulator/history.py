@@ -125,7 +125,12 @@ def read_history(scenario: Scenario, path: str | Path | None = None) -> History:
             frame = pd.read_parquet(path)
             first_row = 1
         elif suffix in (".csv", ".txt", ""):
-            frame = pd.read_csv(path, dtype=str, keep_default_na=False, skipinitialspace=True)
+            # blank lines are kept as rows so that row numbers match the spreadsheet's; only
+            # blank lines at the end of the file are dropped
+            frame = pd.read_csv(path, dtype=str, keep_default_na=False, skipinitialspace=True,
+                                skip_blank_lines=False)
+            filled = frame.apply(lambda column: column.str.strip().ne("")).any(axis=1).to_numpy()
+            frame = frame.iloc[: int(np.flatnonzero(filled)[-1]) + 1 if filled.any() else 0]
             first_row = 2
         else:
             raise InputError(f"{label}: unknown format {suffix!r}; give a .csv or .parquet file")
@@ -326,7 +331,7 @@ def _season_labels(dates: np.ndarray, rule: SeasonSection) -> tuple[np.ndarray, 
     stamps = pd.DatetimeIndex(dates)
     month = stamps.month.to_numpy()
     year = stamps.year.to_numpy()
-    weekday = stamps.weekday.to_numpy()
+    weekday = stamps.day_of_week.to_numpy()
     start = season_start_month(rule.months)
     in_season = np.isin(month, rule.months) & np.isin(weekday, rule.weekday_numbers)
     season_year = np.where(month >= start, year, year - 1)
@@ -354,7 +359,8 @@ def _gap_warnings(dates, evaluated, season, rule, step, label) -> list[str]:
     first, last = dates[evaluated][0], dates[evaluated][-1]
     calendar = np.arange(first, last + 1, dtype="datetime64[D]")
     stamps = pd.DatetimeIndex(calendar)
-    expected = calendar[np.isin(stamps.month, rule.months) & np.isin(stamps.weekday, rule.weekday_numbers)]
+    in_season = np.isin(stamps.month, rule.months) & np.isin(stamps.day_of_week, rule.weekday_numbers)
+    expected = calendar[in_season]
     missing = np.setdiff1d(expected, dates[evaluated])
     if missing.size == 0:
         return []

@@ -19,6 +19,7 @@ many replicates are asked for or how the work is split between chunks or workers
 
 from __future__ import annotations
 
+import copy
 from collections.abc import Iterator
 from dataclasses import dataclass
 from datetime import date
@@ -59,7 +60,7 @@ def season_calendar(history: History, rule: SeasonSection) -> Calendar:
     following = np.datetime64(date(year + 1, start_month, 1), "D")
     days = np.arange(first, following, history.step_days, dtype="datetime64[D]")
     stamps = pd.DatetimeIndex(days)
-    keep = np.isin(stamps.month, rule.months) & np.isin(stamps.weekday, rule.weekday_numbers)
+    keep = np.isin(stamps.month, rule.months) & np.isin(stamps.day_of_week, rule.weekday_numbers)
     dates = days[keep]
     return Calendar(year=year, dates=dates, day_of_season=(dates - first).astype(np.int64))
 
@@ -81,9 +82,15 @@ class Resampler:
         Mean run length, in occasions (>= 1).
     window_days : int
         How far, in days, a run may start from the calendar date it fills.
+    start_weights : (n_rows,) positive floats, optional
+        Tilts which past season a run starts from: among the seasons eligible on a day, season k is
+        chosen with probability proportional to the weight of the history row the run would start
+        at (uniformly when None). Stress tests use it to draw more or fewer runs that contain
+        events; with all weights equal the draws are exactly the untilted ones.
     """
 
-    def __init__(self, history: History, calendar: Calendar, mean_block: float, window_days: int):
+    def __init__(self, history: History, calendar: Calendar, mean_block: float, window_days: int,
+                 start_weights: np.ndarray | None = None):
         if mean_block < 1:
             raise ValueError(f"mean_block must be at least 1, got {mean_block}")
         self.history = history
@@ -119,6 +126,29 @@ class Resampler:
         self._eligible = order.T  # (n_days, n_seasons)
         self._nearest = nearest
         self._n_days = n_days
+        self._first_day = int(calendar.day_of_season.min())
+        self._last_day = int(calendar.day_of_season.max())
+        # occasions left in the same season after each compressed position
+        last_of_season = np.flatnonzero(np.append(self._season_k[1:] != self._season_k[:-1], True))
+        season_last = last_of_season[np.searchsorted(last_of_season, np.arange(rows.size))]
+        self._remaining = season_last - np.arange(rows.size)
+        self._cum_weight = None if start_weights is None else self._cumulative_weights(start_weights)
+
+    def tilted(self, start_weights: np.ndarray | None) -> "Resampler":
+        """This resampler with other start weights (see the class docstring); cheap to make."""
+        out = copy.copy(self)
+        out._cum_weight = None if start_weights is None else self._cumulative_weights(start_weights)
+        return out
+
+    def _cumulative_weights(self, start_weights: np.ndarray) -> np.ndarray:
+        """(n_days, n_seasons) running sums of the start weights over each day's eligible seasons."""
+        w = np.asarray(start_weights, dtype=np.float64)
+        if w.shape != (self.history.n_rows,) or not (np.all(np.isfinite(w)) and np.all(w > 0)):
+            raise ValueError(f"start_weights must be {self.history.n_rows} positive finite numbers")
+        days = np.arange(self._n_days)[:, None]
+        start_row = self._rows[self._nearest[self._eligible, days]]  # (n_days, n_seasons)
+        in_window = np.arange(self._eligible.shape[1])[None, :] < self._n_eligible[:, None]
+        return np.cumsum(np.where(in_window, w[start_row], 0.0), axis=1)
 
     @property
     def n_occasions(self) -> int:
@@ -129,30 +159,63 @@ class Resampler:
         return self.draw(block_rng(seed, block, *stream), BLOCK)
 
     def draw(self, rng: np.random.Generator, n_replicates: int) -> np.ndarray:
-        """Row indices of ``n_replicates`` replicate seasons, (n_replicates, n_occasions), int64."""
+        """Row indices of ``n_replicates`` replicate seasons, (n_replicates, n_occasions), int64.
+
+        Work is done on the run starts only (about one occasion in ``mean_block``): two uniform
+        draws per occasion decide where runs start and, at a start, the day offset within the
+        window and the past season to copy.
+        """
         n_occ = self.n_occasions
-        shape = (n_replicates, n_occ)
-        new_run = rng.random(shape) < 1.0 / self.mean_block
-        new_run[:, 0] = True
-        jitter = rng.integers(-self.window_days, self.window_days + 1, size=shape)
-        day = np.clip(self.calendar.day_of_season[None, :] + jitter, 0, self._n_days - 1)
-        choice = (rng.random(shape) * self._n_eligible[day]).astype(np.int64)
-        season_k = self._eligible[day, choice]
-        start = self._nearest[season_k, day]  # compressed position a run would start from
-        position = np.arange(n_occ)
-        n_rows = self._rows.size
-        while True:
-            run_start = np.maximum.accumulate(np.where(new_run, position, 0), axis=1)
-            first = np.take_along_axis(start, run_start, axis=1)
-            at = first + (position - run_start)
-            clipped = np.minimum(at, n_rows - 1)
-            broken = (at >= n_rows) | (self._season_k[clipped] != self._season_k[first])
-            if not broken.any():
-                break
-            # a run that leaves its season restarts where it first leaves it
-            first_break = broken & ~np.concatenate([np.zeros((n_replicates, 1), bool), broken[:, :-1]], axis=1)
-            new_run |= first_break
-        return self._rows[at]
+        size = n_replicates * n_occ
+        is_start = rng.random(size) < 1.0 / self.mean_block
+        is_start[::n_occ] = True  # every replicate starts a run on its first occasion
+        u = rng.random(size)
+        width = 2 * self.window_days + 1
+        starts = np.flatnonzero(is_start)
+        value = np.zeros(size, dtype=np.int64)  # at a run start: the compressed position copied
+        value[starts] = self._start_values(starts, u, width)
+        row_end = np.arange(1, n_replicates + 1, dtype=np.int64) * n_occ
+        # a run that would leave its season restarts where it would leave it; only the runs just
+        # started need checking again (rarely more than twice)
+        check, following = starts, np.append(starts[1:], size)
+        while check.size:
+            following = np.minimum(following, row_end[check // n_occ])
+            allowed = self._remaining[value[check]] + 1
+            over = following - check > allowed
+            check = check[over] + allowed[over]
+            if check.size:
+                is_start[check] = True
+                value[check] = self._start_values(check, u, width)
+                starts = np.flatnonzero(is_start)
+                following = starts[np.minimum(np.searchsorted(starts, check, side="right"), starts.size - 1)]
+                following = np.where(following > check, following, size)
+        length = np.diff(np.append(starts, size))
+        at = np.repeat(value[starts] - starts, length) + np.arange(size, dtype=np.int64)
+        return self._rows[at].reshape(n_replicates, n_occ)
+
+    def _start_values(self, starts: np.ndarray, u: np.ndarray, width: int) -> np.ndarray:
+        """Compressed history position each run starting at flat position ``starts`` copies from.
+
+        One uniform number gives both the day offset (its integer part after scaling by the window
+        width) and the past season (its fractional part scaled by the number of eligible seasons).
+        """
+        scaled = u[starts] * width
+        offset = np.floor(scaled)
+        fraction = scaled - offset
+        day = self.calendar.day_of_season[starts % self.n_occasions] + offset.astype(np.int64) - self.window_days
+        # reflect at the season's first and last day, so that every day of the season is drawn
+        # equally often (a symmetric kernel); clipping would pile draws on the edge days
+        lo, hi = self._first_day, self._last_day
+        day = np.where(day < lo, 2 * lo - 1 - day, day)
+        day = np.where(day > hi, 2 * hi + 1 - day, day)
+        day = np.clip(day, lo, hi)  # only for a window wider than the season
+        if self._cum_weight is None:
+            choice = (fraction * self._n_eligible[day]).astype(np.int64)
+        else:  # the first eligible season whose running weight exceeds fraction * total weight
+            cum = self._cum_weight[day]
+            choice = (cum <= (fraction * cum[:, -1])[:, None]).sum(axis=1)
+        choice = np.minimum(choice, self._n_eligible[day] - 1)
+        return self._nearest[self._eligible[day, choice], day]
 
     def blocks(self, seed: int, n_replicates: int, *stream: int) -> Iterator[np.ndarray]:
         """The replicates 0..n_replicates-1 block by block (the last block cut to size)."""
