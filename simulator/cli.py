@@ -16,6 +16,7 @@ import typer
 from rich.console import Console
 from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeRemainingColumn
 from rich.table import Table
+from rich.text import Text
 
 from . import __version__
 from .errors import InputError
@@ -103,6 +104,120 @@ def _headline(result: RunResult) -> Table:
     return table
 
 
+def _fitted_table(title: str, headers: list[tuple[str, str]], rows: list[list[str]]) -> Text:
+    """A plain table: two-line headers, the first column left-aligned, the others right-aligned,
+    each column as wide as its widest entry (rich tables squeeze numbers on an 80-column screen)."""
+    widths = [max(len(h[0]), len(h[1]), *(len(row[i]) for row in rows)) for i, h in enumerate(headers)]
+
+    def line(cells) -> str:
+        return "  ".join(c.ljust(w) if i == 0 else c.rjust(w)
+                         for i, (c, w) in enumerate(zip(cells, widths))).rstrip()
+
+    rule = "  ".join("-" * w for w in widths)
+    body = [line([h[0] for h in headers]), line([h[1] for h in headers]), rule, *map(line, rows)]
+    text = Text(title + "\n", style="italic")
+    text.append("\n".join(body))
+    return text
+
+
+def _stress_tables(result: RunResult) -> list:
+    """The stress cases as one table, then each case's headline sentence."""
+    if not result.stress:
+        return []
+    cur = result.scenario.currency
+    base_cutoff = result.decision.recommended_cutoff
+    ref = result.reference
+    base = result.strategies["model"]
+    savings = result.baseline_cost[ref] - result.model_cost[:, result.decision.recommended_index]
+    rows = [["base case", f"{result.quality['event_rate']:.3f}", f"{base.mean:,.0f}", "",
+             f"{base_cutoff:.2f}", "", f"{savings.mean():,.0f} ({(savings > 0).mean():.0%})"]]
+    sentences = []
+    for case in result.stress:
+        rate = case.event_rate
+        for v in case.views:
+            shown = ""
+            if rate is not None:
+                shown = f"{rate.achieved:.3f}" + ("" if rate.reached else f" (aim {rate.target:.3f})")
+            label = case.name if v.probabilities == "as_forecast" else "  adapted"
+            rows.append([label, shown, f"{v.strategies['model'].mean:,.0f}", f"{v.extra_cost:+,.0f}",
+                         f"{v.best_cutoff:.2f}", f"{v.saved_by_moving:,.0f}",
+                         f"{v.savings.mean:,.0f} ({v.prob_saving:.0%})"])
+            sentences.append(f"- {v.headline}")
+    table = _fitted_table(f"Stress tests, {cur} a season (means over replicate seasons)",
+                          [("", "Case"), ("Event", "rate"), ("Cost at", f"{base_cutoff:.2f}"), ("", "Change"),
+                           ("Best", "cutoff"), ("Saved by", "moving"), ("Saving", "(share)")], rows)
+    note = (f"Saving: against {ref} at {base_cutoff:.2f}, mean and the share of seasons that save. "
+            "\"Adapted\": probabilities moved to the new event rate by Bayes' rule. Ranges: stress.csv.")
+    return [table, note, *sentences]
+
+
+def _selection_tables(result: RunResult) -> list:
+    """The validation check and the walk-forward, when run."""
+    sel = result.selection
+    if sel is None:
+        return []
+    cur = result.scenario.currency
+    out: list = []
+    if sel.validation is not None:
+        v = sel.validation
+        t, val = v.training, v.validation
+        table = Table(title=f"Chosen on the training period, priced on the validation period: cutoff "
+                            f"{v.chosen_cutoff:.2f}", title_justify="left")
+        table.add_column("")
+        table.add_column(f"training {t.start[:4]}-{t.end[:4]}", justify="right")
+        table.add_column(f"validation {val.start[:4]}-{val.end[:4]}", justify="right")
+        for key, label in (("hits", "hits"), ("false_alarms", "false alarms"), ("misses", "misses"),
+                           ("correct_negatives", "correct negatives")):
+            table.add_row(label, str(getattr(t, key)), str(getattr(val, key)))
+        for key, label in (("hit_rate", "hit rate"), ("specificity", "specificity"),
+                           ("miss_rate", "miss rate (events)"),
+                           ("false_alarm_rate", "false alarm rate (non-events)")):
+            table.add_row(label, f"{getattr(t, key):.3f}", f"{getattr(val, key):.3f}")
+        table.add_row("cost per occasion", _money(t.cost_per_occasion, cur), _money(val.cost_per_occasion, cur))
+        out.append(table)
+        lo, hi = v.expected_range
+        verdict = (f"[bold]worse than the training range ({_money(lo, cur)} to {_money(hi, cur)} per "
+                   "occasion): overfitted, or the world changed[/bold]" if v.flag else
+                   f"within what training leads one to expect (up to {_money(hi, cur)} per occasion)")
+        out.append(f"Validation cost at {v.chosen_cutoff:.2f}: {_money(val.cost, cur)}, {verdict}. With "
+                   f"hindsight the validation period's best cutoff, {v.validation_best_cutoff:.2f}, costs "
+                   f"{_money(v.validation_best_cost, cur)}: the optimism of choosing on the past is "
+                   f"{_money(v.optimism, cur)}.")
+    if sel.walk_forward is not None:
+        w = sel.walk_forward
+        rows = []
+        for s in w.steps:
+            lo, hi = s.expected_range
+            rows.append([str(s.season), f"{s.priced.cutoff:.2f}", f"{s.priced.cost_per_occasion:,.0f}",
+                         f"{s.training.cost_per_occasion:,.0f}", f"{lo:,.0f}-{hi:,.0f}",
+                         "worse" if s.flag else "", f"{s.best_cutoff:.2f}",
+                         f"{s.reference_cost / s.priced.n_occasions:,.0f}"])
+        table = _fitted_table(f"Walk-forward: each season priced at the cutoff chosen on the seasons "
+                              f"before it ({cur} per occasion)",
+                              [("", "Season"), ("", "Cutoff"), ("", "Cost"), ("", "Training"),
+                               ("Training", "90% range"), ("", "Flag"), ("Hindsight", "cutoff"),
+                               ("", result.reference)], rows)
+        out.append(table)
+        flagged = ", ".join(str(x) for x in w.flagged_seasons) or "none"
+        out.append(f"Walk-forward total {_money(w.total_cost, cur)} against {_money(w.in_sample_cost, cur)} "
+                   f"with one cutoff chosen in hindsight ({w.in_sample_cutoff:.2f}): optimism "
+                   f"{_money(w.optimism, cur)}; saving against {result.reference} "
+                   f"{_money(w.savings, cur)}. Seasons dearer than their training range: {flagged}.")
+    return out
+
+
+def _calibration_lines(result: RunResult) -> list:
+    c = result.calibration
+    if c is None:
+        return []
+    line = (f"Calibrated mode: outcomes drawn afresh from the probabilities recalibrated (isotonic "
+            f"regression) on {c.training_rows} training occasions, {c.training_start} to {c.training_end}. "
+            f"Brier score on training {c.brier_training:.4f} -> {c.brier_training_recalibrated:.4f} (in-sample)")
+    if c.brier_validation == c.brier_validation:  # not NaN
+        line += f", on validation {c.brier_validation:.4f} -> {c.brier_validation_recalibrated:.4f}"
+    return [line + "."]
+
+
 def _report_run(result: RunResult, out: Path, written: list[Path], quiet: bool, as_json: bool) -> None:
     for warning in result.warnings:
         err_console.print(f"warning: {warning}", markup=False, highlight=False, soft_wrap=True)
@@ -112,19 +227,23 @@ def _report_run(result: RunResult, out: Path, written: list[Path], quiet: bool, 
     if quiet:
         return
     out_console.print(_headline(result))
+    for part in _stress_tables(result) + _selection_tables(result) + _calibration_lines(result):
+        out_console.print(part)
     caution = CAUTION
     if result.scenario.event.hazard:
         caution = f"\"{result.scenario.event.name}\" is a hazard to people. " + CAUTION
     out_console.print(f"[bold]Caution:[/bold] {caution}")
-    out_console.print(f"Wrote {len(written)} files to {out}/")
+    out_console.print(f"Wrote {len(written)} files to {out}/; open {out / 'report.html'} to read the report")
 
 
 def _execute(scenario: Scenario, history: Path | None, out: Path | None, replicates: int | None,
-             seed: int | None, force: bool, quiet: bool, as_json: bool) -> None:
+             seed: int | None, force: bool, quiet: bool, as_json: bool,
+             walk_forward: bool | None = None) -> None:
     out = out if out is not None else Path("outputs") / scenario.slug
     check_out_folder(out, force)  # before any work, so a refusal costs nothing
     with _progress_bar(not (quiet or as_json)) as progress:
-        result = run(scenario, history, replicates=replicates, seed=seed, progress=progress)
+        result = run(scenario, history, replicates=replicates, seed=seed, progress=progress,
+                     walk_forward=walk_forward)
     written = write_files(render_files(result), out, force)
     _report_run(result, out, written, quiet, as_json)
 
@@ -152,14 +271,21 @@ def run_command(
     force: Force = False,
     quiet: Quiet = False,
     as_json: AsJson = False,
+    walk_forward: Annotated[bool, typer.Option("--walk-forward", help="Also check the choice season by "
+                                               "season: choose the cutoff on all earlier seasons, price "
+                                               "the next (as [simulation] walk_forward = true).")] = False,
 ) -> None:
     """Replay the history under every cutoff, price each replicate season, and recommend a cutoff.
 
-    Writes summary.json and cutoffs.csv (one row per cutoff) with the tables beside them into the
-    output folder, and prints a short headline.
+    Writes report.html (one self-contained page to read and print, its figures also under
+    figures/), summary.json and cutoffs.csv (one row per cutoff) with the tables beside them into
+    the output folder, and prints a short headline. [[stress]] cases in the scenario are priced too
+    (stress.csv), and a validation period or walk-forward checks the cutoff on seasons it was not
+    chosen on (selection.csv).
     """
     with _user_errors():
-        _execute(read_scenario(scenario), history, out, replicates, seed, force, quiet, as_json)
+        _execute(read_scenario(scenario), history, out, replicates, seed, force, quiet, as_json,
+                 walk_forward=True if walk_forward else None)
 
 
 @app.command("demo")

@@ -7,6 +7,7 @@ written into with ``force``.
 
 from __future__ import annotations
 
+import dataclasses
 import json
 import math
 import os
@@ -15,10 +16,13 @@ from pathlib import Path
 from typing import Any
 
 import numpy as np
+import pandas as pd
 
 from . import __version__
 from .errors import InputError
 from .run import RunResult
+from .selection import Calibration, Selection
+from .stress import StressResult
 
 __all__ = ["summary", "render_files", "write_files", "check_out_folder", "SCHEMA"]
 
@@ -81,17 +85,35 @@ def summary(result: RunResult) -> dict[str, Any]:
         "recommended": recommended,
         "warnings": list(result.warnings),
     }
+    if result.operations is not None:  # only with [operations]: components, completion, safety stop
+        out["operations"] = result.operations.summary(decision.recommended_index)
+    if result.stress is not None:  # [[stress]] cases, in scenario order
+        out["stress"] = [_stress_entry(case) for case in result.stress]
+    if result.calibration is not None:  # [simulation] mode = "calibrated"
+        out["calibration"] = _calibration_entry(result.calibration)
+    if result.selection is not None:  # a validation split or walk-forward
+        out["selection"] = _selection_entry(result.selection)
     return _clean(out)
 
 
 def render_files(result: RunResult) -> dict[str, bytes]:
-    """Every output file's name and bytes, rendered in memory."""
+    """Every output file's name and bytes, rendered in memory (the report and its figures too)."""
+    from .report import render_report  # matplotlib and jinja2 load only when files are rendered
+
+    contents = summary(result)
     files = {
-        "summary.json": (json.dumps(summary(result), indent=2) + "\n").encode(),
+        "summary.json": (json.dumps(contents, indent=2) + "\n").encode(),
         "cutoffs.csv": result.table.to_csv(index=False, lineterminator="\n").encode(),
         "value_curve.csv": result.value_curve.to_csv(index=False, lineterminator="\n").encode(),
         "reliability.csv": result.reliability.to_csv(index=False, lineterminator="\n").encode(),
     }
+    if result.stress is not None:
+        files["stress.csv"] = _csv(_stress_frame(result))
+    if result.calibration is not None:
+        files["calibration.csv"] = _csv(result.calibration.table)
+    if result.selection is not None:
+        files["selection.csv"] = _csv(_selection_frame(result.selection))
+    files.update(render_report(result, contents))
     return files
 
 
@@ -117,3 +139,121 @@ def write_files(files: Mapping[str, bytes], out: Path, force: bool) -> list[Path
         os.replace(temporary, target)
         written.append(target)
     return written
+
+
+# ------------------------------------------------------------------------------------------------
+# stress cases, calibration and honest selection
+
+def _csv(frame: pd.DataFrame) -> bytes:
+    return frame.to_csv(index=False, lineterminator="\n").encode()
+
+
+def _stress_entry(case: StressResult) -> dict[str, Any]:
+    views = []
+    for v in case.views:
+        d = v.decision
+        views.append({
+            "probabilities": v.probabilities, "headline": v.headline, "base_cutoff": v.base_cutoff,
+            "strategies": {name: dist.as_dict() for name, dist in v.strategies.items()},
+            "extra_cost": v.extra_cost,
+            "savings": {**v.savings.as_dict(), "prob_saving": v.prob_saving},
+            "best_cutoff": v.best_cutoff, "best_cutoff_interval": d.recommended_cutoff_interval,
+            "best_cost": v.best_cost.as_dict(), "saved_by_moving": v.saved_by_moving,
+            "prob_moving_saves": v.prob_moving_saves, "near_optimal_band": d.near_optimal_band,
+            "break_even": d.break_even, "confident_break_even": d.confident_break_even,
+            "best_savings": {**d.savings.as_dict(), "prob_saving": d.prob_saving},
+        })
+    return {"name": case.name, "changes": case.changes, "costs": case.costs.model_dump(),
+            "theoretical_cutoff": case.theoretical_cutoff, "mean_block_days": case.mean_block_days,
+            "seasons_used": case.seasons_used,
+            "event_rate": None if case.event_rate is None else dataclasses.asdict(case.event_rate),
+            "views": views}
+
+
+def _stress_frame(result: RunResult) -> pd.DataFrame:
+    """One row for the base case, then one per stress case and view."""
+    base = result.strategies
+    d = result.decision
+    reference = result.reference
+    savings = result.baseline_cost[reference] - result.model_cost[:, d.recommended_index]
+    rows = [{"case": "base case", "probabilities": "as_forecast", "target_event_rate": None,
+             "achieved_event_rate": None, "event_rate_reached": None, "base_cutoff": d.recommended_cutoff,
+             **_strategy_columns(base), "extra_cost": 0.0, "best_cutoff": d.recommended_cutoff,
+             "best_mean_cost": base["model"].mean, "saved_by_moving": 0.0, "prob_moving_saves": 0.0,
+             "mean_savings": float(savings.mean()), "prob_saving": float((savings > 0).mean()),
+             "break_even": _ranges(d.break_even)}]
+    for case in result.stress or ():
+        rate = case.event_rate
+        for v in case.views:
+            rows.append({"case": case.name, "probabilities": v.probabilities,
+                         "target_event_rate": None if rate is None else rate.target,
+                         "achieved_event_rate": None if rate is None else rate.achieved,
+                         "event_rate_reached": None if rate is None else rate.reached,
+                         "base_cutoff": v.base_cutoff, **_strategy_columns(v.strategies),
+                         "extra_cost": v.extra_cost, "best_cutoff": v.best_cutoff,
+                         "best_mean_cost": v.best_cost.mean, "saved_by_moving": v.saved_by_moving,
+                         "prob_moving_saves": v.prob_moving_saves, "mean_savings": v.savings.mean,
+                         "prob_saving": v.prob_saving, "break_even": _ranges(v.decision.break_even)})
+    return pd.DataFrame(rows)
+
+
+def _strategy_columns(strategies: Mapping[str, Any]) -> dict[str, float]:
+    out = {}
+    for name, dist in strategies.items():
+        out.update({f"{name}_mean_cost": dist.mean, f"{name}_p05_cost": dist.p05,
+                    f"{name}_p50_cost": dist.p50, f"{name}_p95_cost": dist.p95})
+    return out
+
+
+def _ranges(ranges) -> str:
+    return "; ".join(f"{lo:g} to {hi:g}" for lo, hi in ranges)
+
+
+def _calibration_entry(c: Calibration) -> dict[str, Any]:
+    return {"mode": "calibrated", "fitted_on": "training period", "training_rows": c.training_rows,
+            "training_start": c.training_start, "training_end": c.training_end,
+            "brier_training": c.brier_training, "brier_training_recalibrated": c.brier_training_recalibrated,
+            "brier_validation": c.brier_validation,
+            "brier_validation_recalibrated": c.brier_validation_recalibrated,
+            "curve": c.table.to_dict(orient="records")}
+
+
+def _selection_entry(sel: Selection) -> dict[str, Any]:
+    out: dict[str, Any] = {}
+    if sel.validation is not None:
+        v = sel.validation
+        out["validation"] = {
+            "chosen_on": "training period", "chosen_cutoff": v.chosen_cutoff,
+            "training": dataclasses.asdict(v.training), "validation": dataclasses.asdict(v.validation),
+            "validation_best_cutoff": v.validation_best_cutoff, "validation_best_cost": v.validation_best_cost,
+            "optimism": v.optimism, "reference_cost": v.reference_cost,
+            "expected_range_per_occasion": v.expected_range, "flag": v.flag}
+    if sel.walk_forward is not None:
+        w = sel.walk_forward
+        out["walk_forward"] = {
+            "total_cost": w.total_cost, "in_sample_cutoff": w.in_sample_cutoff,
+            "in_sample_cost": w.in_sample_cost, "optimism": w.optimism, "reference_cost": w.reference_cost,
+            "savings": w.savings, "flagged_seasons": w.flagged_seasons,
+            "seasons": [{"season": s.season, "chosen_cutoff": s.priced.cutoff, "cost": s.priced.cost,
+                         "cost_per_occasion": s.priced.cost_per_occasion,
+                         "training_cost_per_occasion": s.training.cost_per_occasion,
+                         "expected_range_per_occasion": s.expected_range, "flag": s.flag,
+                         "best_cutoff": s.best_cutoff, "best_cost": s.best_cost,
+                         "reference_cost": s.reference_cost,
+                         "priced": dataclasses.asdict(s.priced), "training": dataclasses.asdict(s.training)}
+                        for s in w.steps]}
+    return out
+
+
+def _selection_frame(sel: Selection) -> pd.DataFrame:
+    """The classification matrix of every period at its chosen cutoff, one row per period."""
+    rows = []
+    if sel.validation is not None:
+        v = sel.validation
+        rows += [{"check": "validation split", **dataclasses.asdict(v.training), "flag": None},
+                 {"check": "validation split", **dataclasses.asdict(v.validation), "flag": v.flag}]
+    if sel.walk_forward is not None:
+        for s in sel.walk_forward.steps:
+            rows += [{"check": "walk-forward", **dataclasses.asdict(s.training), "flag": None},
+                     {"check": "walk-forward", **dataclasses.asdict(s.priced), "flag": s.flag}]
+    return pd.DataFrame(rows)

@@ -7,7 +7,7 @@ returns a :class:`RunResult` holding numbers only (no files are written here; se
 from __future__ import annotations
 
 import dataclasses
-from collections.abc import Callable
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -16,12 +16,17 @@ import pandas as pd
 
 from . import scoring
 from .blocklength import optimal_block_length
-from .costs import SeasonPricer, price
+from .costs import SeasonPricer, occasion_costs, price
 from .decision import Decision, Distribution, decide, distribution, per_cutoff
+from .errors import InputError
 from .history import History, read_history
+from .operations import OperationsResult, UserProcess
+from .operations_fast import OperationsPricer
 from .resample import Calendar, Resampler, block_rng, season_calendar
 from .scenario import BASELINES, Scenario, break_even_probability, cost_warnings
 from .scoring import Contingency
+from .selection import Calibration, Selection, calibrate, select_honestly
+from .stress import ReplicatePricer, StressResult, run_stress
 
 __all__ = ["run", "RunResult", "Progress"]
 
@@ -51,6 +56,12 @@ class RunResult:
     value_curve: pd.DataFrame
     reliability: pd.DataFrame
     warnings: tuple[str, ...] = field(default=())
+    # with [operations]: cost components, completion days and day counts of every replicate
+    operations: OperationsResult | None = None
+    # [[stress]] cases in scenario order; the calibrated mode's recalibration; honest selection
+    stress: tuple[StressResult, ...] | None = None
+    calibration: Calibration | None = None
+    selection: Selection | None = None
 
     @property
     def reference(self) -> str:
@@ -69,7 +80,8 @@ class RunResult:
 
 
 def run(scenario: Scenario, history_path: str | Path | None = None, *, replicates: int | None = None,
-        seed: int | None = None, progress: Progress | None = None) -> RunResult:
+        seed: int | None = None, progress: Progress | None = None,
+        processes: Sequence[UserProcess] = (), walk_forward: bool | None = None) -> RunResult:
     """Replay the history under every cutoff and price each replicate season.
 
     Parameters
@@ -78,13 +90,19 @@ def run(scenario: Scenario, history_path: str | Path | None = None, *, replicate
     history_path : overrides the scenario's ``[history] path``.
     replicates, seed : override ``[simulation]``.
     progress : optional callback ``progress(step, done, total)``.
+    processes : user-written simpy processes added to the ``[operations]`` rules (see
+        :class:`simulator.operations.Site`); every season is then played by the simpy model (slow).
+    walk_forward : choose the cutoff season by season on earlier seasons and price the next
+        (default: the scenario's ``[simulation] walk_forward``).
     """
     history = read_history(scenario, history_path)
-    return run_history(scenario, history, replicates=replicates, seed=seed, progress=progress)
+    return run_history(scenario, history, replicates=replicates, seed=seed, progress=progress,
+                       processes=processes, walk_forward=walk_forward)
 
 
 def run_history(scenario: Scenario, history: History, *, replicates: int | None = None,
-                seed: int | None = None, progress: Progress | None = None) -> RunResult:
+                seed: int | None = None, progress: Progress | None = None,
+                processes: Sequence[UserProcess] = (), walk_forward: bool | None = None) -> RunResult:
     """As :func:`run`, on a history already read."""
     sim = scenario.simulation
     replicates = sim.replicates if replicates is None else int(replicates)
@@ -96,45 +114,74 @@ def run_history(scenario: Scenario, history: History, *, replicates: int | None 
 
     mean_block = _mean_block(history, scenario, p_star)
     resampler = Resampler(history, calendar, mean_block, sim.window_days)
-    pricer = SeasonPricer(history, cutoffs, costs)
-    model_parts, baseline_parts = [], []
+    calibration = calibrate(history) if sim.mode == "calibrated" else None
+    if calibration is not None and scenario.operations is not None:
+        raise InputError(f"{_label(scenario)} [simulation] mode: \"calibrated\" does not work with "
+                         '[operations] yet; use mode = "replay"')
+    if calibration is not None:  # outcomes drawn afresh from the recalibrated probabilities
+        pricer = ReplicatePricer(history, cutoffs, costs, seed=seed,
+                                 outcome_probability=calibration.probability)
+    elif scenario.operations is not None:  # the rules played day by day
+        pricer = OperationsPricer(history, calendar, cutoffs, scenario, processes)
+    else:
+        pricer = SeasonPricer(history, cutoffs, costs)
+    model_parts, baseline_parts, extras_parts = [], [], []
     done = 0
-    for rows in resampler.blocks(seed, replicates):
-        block = pricer(rows)
+    for b, rows in enumerate(resampler.blocks(seed, replicates)):
+        block = pricer(rows, b) if calibration is not None else pricer(rows)
         model_parts.append(block.model)
         baseline_parts.append(block.baselines)
+        extras_parts.append(block.extras)
         done += rows.shape[0]
         if progress is not None:
             progress("replicate seasons", done, replicates)
     model_cost = np.concatenate(model_parts)
     baseline_matrix = np.concatenate(baseline_parts)
     baseline_cost = {name: baseline_matrix[:, i] for i, name in enumerate(BASELINES)}
+    extras = {key: np.concatenate([part[key] for part in extras_parts]) for key in extras_parts[0]}
+    operations = None
+    if scenario.operations is not None:
+        operations = OperationsResult(rules=pricer.rules, n_cutoffs=cutoffs.size, extras=extras,
+                                      section=scenario.operations)
 
     seasons_per_history = max(1, round(history.n_evaluated / calendar.n_occasions))
     decision = decide(model_cost, baseline_cost[sim.reference], cutoffs, seasons_per_history,
                       block_rng(seed, 0, _INTERVAL_STREAM))
     table = _cutoff_table(history, scenario, cutoffs, p_star, model_cost, baseline_cost[sim.reference])
+    if operations is not None:
+        table = pd.concat([table, pd.DataFrame(operations.per_cutoff())], axis=1)
     quality = _quality(history)
     value_curve = _value_curve(history, cutoffs)
     reliability = _frame(scoring.reliability_table(history.p[history.evaluated],
                                                    history.event[history.evaluated]))
     warnings = tuple(history.warnings) + tuple(cost_warnings(costs, scenario.decision.action))
+    stress = None
+    if scenario.stress and scenario.operations is not None:
+        warnings += (f"{_label(scenario)} [[stress]]: stress cases are not priced with [operations] "
+                     "yet; they were skipped",)
+    elif scenario.stress:
+        stress = run_stress(scenario, history, calendar=calendar, resampler=resampler, cutoffs=cutoffs,
+                            seed=seed, replicates=replicates, decision=decision, model_cost=model_cost,
+                            seasons_per_history=seasons_per_history,
+                            interval_rng=lambda: block_rng(seed, 0, _INTERVAL_STREAM),
+                            outcome_probability=None if calibration is None else calibration.probability,
+                            progress=progress)
+        warnings += tuple(w for case in stress for w in case.warnings)
+    selection = select_honestly(history, calendar, cutoffs, costs, sim.reference, mean_block,
+                                sim.window_days, seed, replicates,
+                                sim.walk_forward if walk_forward is None else walk_forward,
+                                label=_label(scenario))
     return RunResult(scenario=scenario, history=history, calendar=calendar, cutoffs=cutoffs,
                      replicates=replicates, seed=seed, mean_block_days=mean_block * history.step_days,
                      theoretical_cutoff=p_star, decision=decision, model_cost=model_cost,
                      baseline_cost=baseline_cost, table=table, quality=quality,
-                     value_curve=value_curve, reliability=reliability, warnings=warnings)
+                     value_curve=value_curve, reliability=reliability, warnings=warnings,
+                     operations=operations, stress=stress, calibration=calibration,
+                     selection=selection)
 
 
-def _occasion_costs(history: History, scenario: Scenario, cutoff: float) -> np.ndarray:
-    """Cost of each evaluated occasion when acting at ``cutoff`` (priced by the one cost function)."""
-    rows = history.evaluated
-    act = history.p[rows] >= cutoff
-    event = history.event[rows]
-    one = np.ones_like(act, dtype=np.int64)
-    cells = Contingency(hits=one * (act & event), false_alarms=one * (act & ~event),
-                        misses=one * (~act & event), correct_negatives=one * (~act & ~event))
-    return price(cells, scenario.costs)
+def _label(scenario: Scenario) -> str:
+    return str(scenario.source) if scenario.source else "scenario"
 
 
 def _mean_block(history: History, scenario: Scenario, p_star: float) -> float:
@@ -150,7 +197,8 @@ def _mean_block(history: History, scenario: Scenario, p_star: float) -> float:
     if np.isnan(p_star):
         series = history.event[history.evaluated].astype(float)
     else:
-        series = _occasion_costs(history, scenario, p_star)
+        rows = history.evaluated
+        series = occasion_costs(history.p[rows] >= p_star, history.event[rows], scenario.costs)
     return max(1.0, float(optimal_block_length(series)))
 
 

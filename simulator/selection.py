@@ -1,0 +1,367 @@
+"""What was learnt on the past, checked on what came after it.
+
+Two things are fitted on a training period and then used forward:
+
+- the cutoff. Chosen and priced on the same history it looks better than it will be. With a
+  validation split the cutoff is chosen on the training period only and priced on the validation
+  period, beside the validation period's own (in-sample) optimum; walk-forward does the same season
+  by season, each chosen on all earlier seasons. The gap between the two is the optimism of choosing
+  on the past: actual against potential value (Atger 2001, as discussed by Richardson 2000).
+- the probabilities' calibration, for the ``calibrated`` pricing mode: an isotonic regression of the
+  outcome on the forecast probability over the training period (the pool-adjacent-violators
+  algorithm, ``scipy.optimize.isotonic_regression``; Zadrozny and Elkan 2002 use it to calibrate
+  classifier scores), from which replicate outcomes are drawn afresh.
+
+A cutoff is chosen as the core chooses it: the lowest mean season cost over replicate seasons drawn
+(:class:`~simulator.resample.Resampler`) from the training period alone. The same replicates give the
+spread of the cost per occasion over a period as long as the one checked, so a period that does much
+worse than its training can be flagged.
+
+References
+----------
+Atger, F. (2001). Verification of intense precipitation forecasts from single models and ensemble
+prediction systems. Nonlin. Processes Geophys. 8, 401-417.
+Richardson, D. S. (2000). Skill and relative economic value of the ECMWF ensemble prediction system.
+Q. J. R. Meteorol. Soc. 126, 649-667.
+Zadrozny, B. and Elkan, C. (2002). Transforming classifier scores into accurate multiclass
+probability estimates. KDD 2002 (pages from memory, check).
+"""
+
+from __future__ import annotations
+
+import dataclasses
+from dataclasses import dataclass
+
+import numpy as np
+import pandas as pd
+from scipy.optimize import isotonic_regression
+
+from . import scoring
+from .costs import SeasonPricer, baseline_actions, occasion_costs, price
+from .errors import InputError
+from .history import History
+from .resample import Calendar, Resampler
+from .scenario import Costs
+
+__all__ = ["Recalibration", "fit_recalibration", "Calibration", "calibrate", "PeriodRecord",
+           "ValidationCheck", "WalkForwardStep", "WalkForward", "Selection", "select_honestly",
+           "SELECTION_REPLICATES", "SELECTION_STREAM"]
+
+SELECTION_REPLICATES = 1000  # replicate seasons per training period (choice and spread)
+SELECTION_STREAM = 45  # seed stream of those replicates (other streams: resample.py, run.py, stress.py)
+FLAG_QUANTILE = 0.95  # flag a period dearer than this quantile of its training's spread (90% range)
+
+
+# ------------------------------------------------------------------------------------------------
+# recalibration for the calibrated pricing mode
+
+@dataclass(frozen=True)
+class Recalibration:
+    """A non-decreasing map from forecast probability to observed frequency.
+
+    ``knots`` are the distinct training probabilities (ascending), ``values`` the fitted frequency
+    at each; between knots the map is linear, outside them constant (as scikit-learn's
+    ``IsotonicRegression(out_of_bounds="clip")`` predicts).
+    """
+
+    knots: np.ndarray
+    values: np.ndarray
+
+    def __call__(self, p: np.ndarray) -> np.ndarray:
+        return np.interp(np.asarray(p, dtype=float), self.knots, self.values)
+
+
+def fit_recalibration(p: np.ndarray, event: np.ndarray) -> Recalibration:
+    """Isotonic regression of ``event`` (0/1) on ``p``, each (n_occasions,).
+
+    Equal probabilities are pooled first (their mean outcome, weighted by their count), then the
+    pool-adjacent-violators solution is found over the distinct values. The fit keeps the sum:
+    over the training occasions the recalibrated probabilities add up to the number of events.
+    """
+    p = np.asarray(p, dtype=float)
+    event = np.asarray(event, dtype=float)
+    knots, inverse, counts = np.unique(p, return_inverse=True, return_counts=True)
+    means = np.bincount(inverse, weights=event, minlength=knots.size) / counts
+    fitted = isotonic_regression(means, weights=counts.astype(float), increasing=True).x
+    return Recalibration(knots=knots, values=np.clip(fitted, 0.0, 1.0))
+
+
+@dataclass(frozen=True)
+class Calibration:
+    """The recalibration behind the ``calibrated`` mode and how it changes the record.
+
+    ``probability`` is the recalibrated probability of every history row (n_rows,), from which
+    replicate outcomes are drawn. ``table`` is a reliability diagram of the training period
+    (Broecker and Smith 2007): bins of the forecast probability with their count, mean forecast,
+    observed frequency, and the mean recalibrated probability. Brier scores before and after
+    recalibration: on the training period (in-sample, so "after" is flattering) and on the
+    validation period when there is one (NaN otherwise). Where the fit pools neighbouring
+    probabilities it is flat across the pool, so a cutoff inside a pool sees the same outcome rate on
+    both sides of it; the replay does not smooth so.
+    """
+
+    recalibration: Recalibration
+    probability: np.ndarray
+    table: pd.DataFrame
+    training_rows: int
+    training_start: str
+    training_end: str
+    brier_training: float
+    brier_training_recalibrated: float
+    brier_validation: float
+    brier_validation_recalibrated: float
+
+
+def calibrate(history: History, n_bins: int = 10) -> Calibration:
+    """Fit the recalibration on the training period and tabulate the calibration curve."""
+    train = history.training
+    p, event = history.p[train], history.event[train]
+    fit = fit_recalibration(p, event)
+    probability = fit(history.p)
+    table = scoring.reliability_table(p, event, n_bins)
+    bins = np.clip((p * n_bins).astype(np.int64), 0, n_bins - 1)  # as scoring bins: edges go up
+    recal_sum = np.bincount(bins, weights=probability[train], minlength=n_bins)
+    frame = pd.DataFrame(dataclasses.asdict(table))
+    with np.errstate(invalid="ignore", divide="ignore"):
+        frame["recalibrated_mean"] = np.where(table.n > 0, recal_sum / np.maximum(table.n, 1), np.nan)
+    val = history.validation
+    nan = float("nan")
+    dates = history.dates[train]
+    return Calibration(
+        recalibration=fit, probability=probability, table=frame, training_rows=int(train.sum()),
+        training_start=str(dates[0]), training_end=str(dates[-1]),
+        brier_training=float(scoring.brier_score(p, event)),
+        brier_training_recalibrated=float(scoring.brier_score(probability[train], event)),
+        brier_validation=(float(scoring.brier_score(history.p[val], history.event[val]))
+                          if val.any() else nan),
+        brier_validation_recalibrated=(float(scoring.brier_score(probability[val], history.event[val]))
+                                       if val.any() else nan))
+
+
+# ------------------------------------------------------------------------------------------------
+# honest selection
+
+@dataclass(frozen=True)
+class PeriodRecord:
+    """A period's classification matrix and cost at one cutoff.
+
+    ``miss_rate`` and ``false_alarm_rate`` are the error rates of each class (events not acted on,
+    non-events acted on); ``cost`` is the period's total, in the scenario's currency.
+    """
+
+    period: str
+    start: str
+    end: str
+    n_occasions: int
+    cutoff: float
+    hits: int
+    false_alarms: int
+    misses: int
+    correct_negatives: int
+    hit_rate: float
+    specificity: float
+    miss_rate: float
+    false_alarm_rate: float
+    cost: float
+    cost_per_occasion: float
+
+
+@dataclass(frozen=True)
+class ValidationCheck:
+    """Cutoff chosen on the training period, priced on the validation period.
+
+    ``expected_range`` is the 5th to 95th percentile of the cost per occasion, at the chosen cutoff,
+    of a period as long as the validation period built from training replicate seasons; ``flag`` is
+    set when the validation period's cost per occasion lies above it. ``optimism`` is the validation
+    cost at the chosen cutoff minus the validation period's own lowest cost (never negative).
+    """
+
+    chosen_cutoff: float
+    training: PeriodRecord
+    validation: PeriodRecord
+    validation_best_cutoff: float
+    validation_best_cost: float
+    optimism: float
+    reference_cost: float
+    expected_range: tuple[float, float]
+    flag: bool
+
+
+@dataclass(frozen=True)
+class WalkForwardStep:
+    """One season priced at the cutoff chosen on all seasons before it."""
+
+    season: int
+    training: PeriodRecord  # the earlier seasons, at the chosen cutoff
+    priced: PeriodRecord  # this season, at the chosen cutoff
+    best_cutoff: float  # this season's own lowest-cost cutoff (hindsight)
+    best_cost: float
+    reference_cost: float
+    expected_range: tuple[float, float]
+    flag: bool
+
+
+@dataclass(frozen=True)
+class WalkForward:
+    """The walk-forward procedure over seasons 2..n against hindsight and the reference.
+
+    ``in_sample_cutoff`` is the single cutoff with the lowest total cost over the same seasons,
+    chosen knowing them (the potential value); ``optimism`` = ``total_cost - in_sample_cost``.
+    """
+
+    steps: tuple[WalkForwardStep, ...]
+    total_cost: float
+    in_sample_cutoff: float
+    in_sample_cost: float
+    optimism: float
+    reference_cost: float
+    savings: float
+    flagged_seasons: tuple[int, ...]
+
+
+@dataclass(frozen=True)
+class Selection:
+    validation: ValidationCheck | None
+    walk_forward: WalkForward | None
+
+
+def select_honestly(history: History, calendar: Calendar, cutoffs: np.ndarray, costs: Costs,
+                    reference: str, mean_block: float, window_days: int, seed: int,
+                    replicates: int, walk_forward: bool, label: str = "scenario") -> Selection | None:
+    """The validation check (when the history has a validation period) and the walk-forward.
+
+    Parameters
+    ----------
+    history, calendar, cutoffs, costs, reference : as in the base run.
+    mean_block, window_days : the resampling of the base run, reused for each training period.
+    seed : replicates for training period ``key`` come from ``SeedSequence(seed, spawn_key=
+        (SELECTION_STREAM, key, block))``; key 0 is the validation split, a season's label its step.
+    replicates : how many replicate seasons per training period (at most
+        :data:`SELECTION_REPLICATES`).
+    walk_forward : run the walk-forward; needs at least two seasons.
+
+    Periods are priced with the ``[costs]`` matrix on their historical occasions (with
+    ``[operations]`` too: the operating rules are not replayed here).
+    """
+    n_rep = max(20, min(int(replicates), SELECTION_REPLICATES))
+    context = _Context(history, calendar, cutoffs, costs, reference, mean_block, window_days, seed, n_rep)
+    validation = _validation_check(context) if history.has_validation else None
+    forward = None
+    if walk_forward:
+        if history.seasons.size < 2:
+            raise InputError(f"{label}: walk-forward needs at least two seasons in the history, which "
+                             f"has {history.seasons.size}; use a longer history or leave walk-forward off")
+        forward = _walk_forward(context)
+    if validation is None and forward is None:
+        return None
+    return Selection(validation=validation, walk_forward=forward)
+
+
+@dataclass(frozen=True)
+class _Context:
+    history: History
+    calendar: Calendar
+    cutoffs: np.ndarray
+    costs: Costs
+    reference: str
+    mean_block: float
+    window_days: int
+    seed: int
+    n_rep: int
+
+
+def _validation_check(c: _Context) -> ValidationCheck:
+    h = c.history
+    train, val = h.training, h.validation
+    index, spread = _choose_on(c, train, key=0, target_occasions=int(val.sum()))
+    cutoff = float(c.cutoffs[index])
+    val_costs = _historical_costs(h, val, c.cutoffs, c.costs)
+    best = int(np.argmin(val_costs))
+    training = _record("training", h, train, cutoff, c.costs)
+    validation = _record("validation", h, val, cutoff, c.costs)
+    actions = baseline_actions(h, c.costs)[c.reference]
+    reference_cost = float(occasion_costs(actions[val], h.event[val], c.costs).sum())
+    return ValidationCheck(chosen_cutoff=cutoff, training=training, validation=validation,
+                           validation_best_cutoff=float(c.cutoffs[best]),
+                           validation_best_cost=float(val_costs[best]),
+                           optimism=float(validation.cost - val_costs[best]),
+                           reference_cost=reference_cost, expected_range=spread,
+                           flag=bool(validation.cost_per_occasion > spread[1]))
+
+
+def _walk_forward(c: _Context) -> WalkForward:
+    h = c.history
+    steps = []
+    for season in h.seasons[1:]:
+        train = h.evaluated & (h.season < season) & (h.season >= 0)
+        priced = h.evaluated & (h.season == season)
+        index, spread = _choose_on(c, train, key=int(season), target_occasions=int(priced.sum()))
+        cutoff = float(c.cutoffs[index])
+        season_costs = _historical_costs(h, priced, c.cutoffs, c.costs)
+        best = int(np.argmin(season_costs))
+        record = _record(f"season {season}", h, priced, cutoff, c.costs)
+        # the reference knows only the earlier seasons too (it matters for seasonal_rate)
+        earlier = dataclasses.replace(h, evaluated=train, validation=np.zeros_like(train))
+        actions = baseline_actions(earlier, c.costs)[c.reference]
+        steps.append(WalkForwardStep(
+            season=int(season), training=_record(f"seasons before {season}", h, train, cutoff, c.costs),
+            priced=record, best_cutoff=float(c.cutoffs[best]), best_cost=float(season_costs[best]),
+            reference_cost=float(occasion_costs(actions[priced], h.event[priced], c.costs).sum()),
+            expected_range=spread, flag=bool(record.cost_per_occasion > spread[1])))
+    later = h.evaluated & (h.season > h.seasons[0])
+    pooled = _historical_costs(h, later, c.cutoffs, c.costs)
+    best = int(np.argmin(pooled))
+    total = float(sum(s.priced.cost for s in steps))
+    reference = float(sum(s.reference_cost for s in steps))
+    return WalkForward(steps=tuple(steps), total_cost=total, in_sample_cutoff=float(c.cutoffs[best]),
+                       in_sample_cost=float(pooled[best]), optimism=total - float(pooled[best]),
+                       reference_cost=reference, savings=reference - total,
+                       flagged_seasons=tuple(s.season for s in steps if s.flag))
+
+
+def _choose_on(c: _Context, mask: np.ndarray, key: int,
+               target_occasions: int) -> tuple[int, tuple[float, float]]:
+    """Cutoff index with the lowest mean season cost over replicates of the ``mask`` period, and
+    the 90% range of the cost per occasion at it over a period of ``target_occasions`` occasions.
+
+    For a period longer than a season, whole replicate seasons are joined (the nearest whole
+    number of them); for a shorter one the spread of one season about its mean is widened by
+    sqrt(season length / period length), as for the mean of independent blocks (an approximation).
+    """
+    h = dataclasses.replace(c.history, evaluated=mask, validation=np.zeros_like(mask))
+    resampler = Resampler(h, c.calendar, c.mean_block, c.window_days)
+    pricer = SeasonPricer(h, c.cutoffs, c.costs)
+    model = np.concatenate([pricer(rows).model
+                            for rows in resampler.blocks(c.seed, c.n_rep, SELECTION_STREAM, key)])
+    index = int(np.argmin(model.mean(axis=0)))
+    per_occasion = model[:, index] / c.calendar.n_occasions
+    ratio = target_occasions / c.calendar.n_occasions
+    if ratio >= 1:
+        k = int(round(ratio))
+        groups = per_occasion[: per_occasion.size // k * k].reshape(-1, k).mean(axis=1)
+        lo, hi = np.quantile(groups, [1 - FLAG_QUANTILE, FLAG_QUANTILE])
+    else:
+        centre = per_occasion.mean()
+        spread = np.quantile(per_occasion, [1 - FLAG_QUANTILE, FLAG_QUANTILE]) - centre
+        lo, hi = centre + spread / np.sqrt(ratio)
+    return index, (float(lo), float(hi))
+
+
+def _historical_costs(history: History, mask: np.ndarray, cutoffs: np.ndarray,
+                      costs: Costs) -> np.ndarray:
+    """Total cost of the ``mask`` occasions at every cutoff, (n_cutoffs,)."""
+    return price(scoring.count_at_cutoffs(history.p[mask], history.event[mask], cutoffs), costs)
+
+
+def _record(period: str, history: History, mask: np.ndarray, cutoff: float, costs: Costs) -> PeriodRecord:
+    counts = scoring.count_at_cutoffs(history.p[mask], history.event[mask], np.array([cutoff]))[0]
+    r = scoring.rates(counts)
+    cost = float(price(counts, costs))
+    n = int(mask.sum())
+    dates = history.dates[mask]
+    return PeriodRecord(period=period, start=str(dates[0]), end=str(dates[-1]), n_occasions=n,
+                        cutoff=cutoff, hits=int(counts.hits), false_alarms=int(counts.false_alarms),
+                        misses=int(counts.misses), correct_negatives=int(counts.correct_negatives),
+                        hit_rate=float(r.hit_rate), specificity=float(r.specificity),
+                        miss_rate=float(r.miss_rate), false_alarm_rate=float(r.false_alarm_rate),
+                        cost=cost, cost_per_occasion=cost / n)

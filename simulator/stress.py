@@ -1,0 +1,550 @@
+"""Stress tests: the coming season priced again in a changed world.
+
+Each ``[[stress]]`` case of the scenario changes one or more things, and the season is priced again
+for every strategy and cutoff:
+
+- ``event_rate``: the event happens that many times as often. The replay is tilted towards (or
+  away from) runs of history that contain events, so replicates stay real stretches of history
+  (:func:`tilt_to_rate`); selecting runs by their outcomes leaves the forecast's distribution given
+  the outcome as it was, a pure change of base rate. In the calibrated mode the base replicates are
+  kept and their outcomes drawn with the odds rescaled (:func:`odds_shift_to_rate`), the same kind
+  of change. Two views are priced: the forecast's probabilities as issued (it keeps its
+  discrimination but is no longer calibrated, as when the world changes under a model), and the
+  probabilities adapted to the new rate by Bayes' rule (:func:`prior_shift`).
+- ``costs`` / ``cost_multipliers``: new values or factors for cost keys.
+- ``skill``: probabilities pulled towards the base rate (:func:`degrade`); ``noise``: normal noise
+  of that standard deviation added on the log-odds scale, fresh for every replicate occasion.
+- ``block_days``: a longer mean run of consecutive occasions (more persistent weather).
+- ``worst_seasons``: replicates built only from the k historical seasons with the highest cost per
+  occasion at the base case's recommended cutoff.
+
+Common random numbers: every case draws its replicates from the base case's seeds, so a case that
+changes only costs or the forecast is priced on exactly the base replicates (its differences from
+the base are paired), and ``event_rate = 1`` reproduces the base case exactly. Cases that change how
+replicates are built (tilt, block length, seasons) reuse the same random numbers, which keeps them
+close to the base without making them identical.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import hashlib
+from collections.abc import Callable
+from dataclasses import dataclass, field
+
+import numpy as np
+from scipy.optimize import brentq
+from scipy.signal import lfilter
+from scipy.special import expit, logit
+
+from .costs import PricedBlock, SeasonPricer, baseline_actions, occasion_costs, price
+from .decision import Decision, Distribution, decide, distribution
+from .history import History
+from .resample import Calendar, Resampler, block_rng
+from .scenario import BASELINES, Costs, Scenario, StressCase, break_even_probability
+from .scoring import counts_from_slots, cutoff_slots
+
+__all__ = ["prior_shift", "degrade", "log_odds_noise", "run_event_share", "Tilt", "tilt_to_rate",
+           "shift_odds", "odds_shift_to_rate",
+           "ReplicatePricer", "EventRateCheck", "StressView", "StressResult", "run_stress",
+           "OUTCOME_STREAM", "PILOT_REPLICATES"]
+
+# seed streams (spawn_key prefixes); run.py uses 1, selection.py 45
+TILT_STREAM = 41  # pilot replicates that set the tilt
+NOISE_STREAM = 42  # log-odds noise, with a key made from the case's name
+OUTCOME_STREAM = 43  # outcomes drawn in the calibrated mode (shared by the base and every case)
+PILOT_REPLICATES = 1000
+TILT_LIMIT = 200.0  # |theta| searched; weights exp(theta * (share - 0.5)) stay finite and positive
+REACHED_SE = 3.0  # a target counts as reached within this many standard errors
+
+
+# ------------------------------------------------------------------------------------------------
+# changing the forecast
+
+def prior_shift(p: np.ndarray, base_rate: float, new_rate: float) -> np.ndarray:
+    """Probabilities calibrated at ``base_rate`` moved to a world whose event rate is ``new_rate``.
+
+    p' = b'(p - p b) / (b - p b + b' p - b b'), which is Bayes' rule with the prior odds rescaled
+    by [b'/(1-b')] / [b/(1-b)], assuming the class-conditional distributions of the forecast stay
+    as they were (Elkan 2001, Theorem 2; Saerens, Latinne and Decaestecker
+    2002, section 2; equation numbers from memory, check).
+    Returns ``p`` itself when the rates are equal.
+
+    References
+    ----------
+    Elkan, C. (2001). The foundations of cost-sensitive learning. IJCAI 2001, 973-978.
+    Saerens, M., Latinne, P. and Decaestecker, C. (2002). Adjusting the outputs of a classifier to
+    new a priori probabilities: a simple procedure. Neural Computation 14(1), 21-41.
+    """
+    p = np.asarray(p, dtype=float)
+    b, b2 = float(base_rate), float(new_rate)
+    if not (0 < b < 1 and 0 < b2 < 1):
+        raise ValueError(f"base rates must lie strictly between 0 and 1, got {b} and {b2}")
+    if b == b2:
+        return p
+    return b2 * (p - p * b) / (b - p * b + b2 * p - b * b2)
+
+
+def degrade(p: np.ndarray, base_rate: float, skill: float) -> np.ndarray:
+    """Probabilities keeping ``skill`` of their distance from the base rate: b + skill (p - b).
+
+    ``skill = 1`` leaves them as they are, ``skill = 0`` turns them into the base rate (a
+    climatological forecast with no discrimination). A linear shrinkage towards climatology;
+    common practice, no single source.
+    """
+    p = np.asarray(p, dtype=float)
+    if skill == 1:
+        return p
+    return base_rate + skill * (p - base_rate)
+
+
+def log_odds_noise(p: np.ndarray, sd: float, rng: np.random.Generator) -> np.ndarray:
+    """``p`` with independent normal noise of standard deviation ``sd`` added to its log-odds.
+
+    Probabilities of exactly 0 or 1 are first moved to 0.001 or 0.999, so noise can reach them.
+    """
+    p = np.clip(np.asarray(p, dtype=float), 1e-3, 1 - 1e-3)
+    return expit(logit(p) + sd * rng.standard_normal(p.shape))
+
+
+# ------------------------------------------------------------------------------------------------
+# tilting the replay towards a target event rate
+
+def run_event_share(expected_event: np.ndarray, history: History, mean_block: float) -> np.ndarray:
+    """Expected share of events in a run that starts at each history row, (n_rows,) in [0, 1].
+
+    With run lengths geometric of mean m (stopping at the season's end), a run from row r covers
+    r + j with probability (1 - 1/m)^j, so the share is sum_j a^j e_{r+j} / sum_j a^j, a = 1 - 1/m,
+    over the evaluated rows of r's season. Rows outside the evaluated history get 0.
+    """
+    out = np.zeros(history.n_rows)
+    rows = np.flatnonzero(history.evaluated)
+    a = 1.0 - 1.0 / mean_block
+    season = history.season[rows]
+    cuts = np.flatnonzero(np.diff(season)) + 1
+    for part in np.split(rows, cuts):
+        # backward recursion s_r = e_r + a s_{r+1}: a first-order filter run on the reversed season
+        ahead = lfilter([1.0], [1.0, -a], np.asarray(expected_event, dtype=float)[part][::-1])[::-1]
+        length = lfilter([1.0], [1.0, -a], np.ones(part.size))[::-1]
+        out[part] = ahead / length
+    return out
+
+
+@dataclass(frozen=True)
+class Tilt:
+    """Start weights that bring the replicates' event rate to ``target`` (when it can be reached).
+
+    ``lowest`` and ``highest`` are the event rates the pilot replicates reach at the strongest tilt
+    either way; ``rate`` and ``standard_error`` the pilot's rate at the chosen tilt.
+    """
+
+    theta: float
+    weights: np.ndarray | None
+    target: float
+    lowest: float
+    highest: float
+    reachable: bool
+    rate: float
+    standard_error: float
+
+
+def tilt_to_rate(resampler: Resampler, expected_event: np.ndarray, target: float, seed: int,
+                 pilot_replicates: int = PILOT_REPLICATES) -> Tilt:
+    """Find the tilt of ``resampler`` under which replicates have mean event rate ``target``.
+
+    Runs are started from history rows with weight exp(theta (s_r - 1/2)), s_r the expected event
+    share of a run from row r (:func:`run_event_share`): an exponential tilt of the run choice, the
+    device of importance sampling (theta > 0 favours runs with events). theta is found by Brent's
+    method on the mean event rate of ``pilot_replicates`` replicates drawn on their own seed stream
+    with common random numbers across theta. When the target lies outside what the strongest tilt
+    reaches, the nearest extreme is returned with ``reachable`` False.
+
+    ``expected_event`` is the event (0/1) of each history row in the replay, or its recalibrated
+    probability in the calibrated mode.
+    """
+    expected_event = np.asarray(expected_event, dtype=float)
+    share = run_event_share(expected_event, resampler.history, resampler.mean_block) - 0.5
+
+    def weights(theta: float) -> np.ndarray:
+        return np.exp(theta * share)
+
+    def pilot(theta: float) -> np.ndarray:
+        tilted = resampler.tilted(weights(theta))
+        return np.concatenate([expected_event[rows].mean(axis=1)
+                               for rows in tilted.blocks(seed, pilot_replicates, TILT_STREAM)])
+
+    def gap(theta: float) -> float:
+        return float(pilot(theta).mean() - target)
+
+    lowest, highest = gap(-TILT_LIMIT) + target, gap(TILT_LIMIT) + target
+    reachable = lowest <= target <= highest
+    if target <= lowest:
+        theta = -TILT_LIMIT
+    elif target >= highest:
+        theta = TILT_LIMIT
+    else:
+        theta = float(brentq(gap, -TILT_LIMIT, TILT_LIMIT, xtol=1e-4))
+    rates = pilot(theta)
+    return Tilt(theta=theta, weights=weights(theta), target=float(target), lowest=float(lowest),
+                highest=float(highest), reachable=bool(reachable), rate=float(rates.mean()),
+                standard_error=float(rates.std(ddof=1) / np.sqrt(rates.size)))
+
+
+def shift_odds(p: np.ndarray, log_factor: float) -> np.ndarray:
+    """Probabilities with their odds multiplied by exp(``log_factor``): Bayes' rule for a change of
+    base rate (see :func:`prior_shift`, which names the factor by the two base rates)."""
+    p = np.asarray(p, dtype=float)
+    factor = np.exp(log_factor)
+    return factor * p / (factor * p + 1.0 - p)
+
+
+def odds_shift_to_rate(expected: np.ndarray, target: float) -> Tilt:
+    """The odds factor that moves outcome probabilities ``expected`` (any shape) to mean ``target``.
+
+    The calibrated mode's event-rate change: outcomes are drawn from the recalibrated probabilities
+    with their odds rescaled (a pure change of base rate, the assumption of Saerens et al. 2002), on
+    the base replicates themselves. ``theta`` of the returned :class:`Tilt` is the log factor; the
+    reachable range runs from the share of occasions certain to have the event to the share that
+    may have it.
+    """
+    expected = np.asarray(expected, dtype=float).ravel()
+    lowest, highest = float((expected >= 1).mean()), float((expected > 0).mean())
+    reachable = lowest < target < highest
+    if reachable:
+        theta = float(brentq(lambda t: shift_odds(expected, t).mean() - target, -TILT_LIMIT, TILT_LIMIT,
+                             xtol=1e-10))
+    else:
+        theta = TILT_LIMIT if target >= highest else -TILT_LIMIT
+    rate = float(shift_odds(expected, theta).mean())
+    return Tilt(theta=theta, weights=None, target=float(target), lowest=lowest, highest=highest,
+                reachable=bool(reachable), rate=rate, standard_error=0.0)
+
+
+# ------------------------------------------------------------------------------------------------
+# pricing replicates with the forecast or the outcomes changed
+
+class ReplicatePricer:
+    """Prices replicate seasons like :class:`~simulator.costs.SeasonPricer`, with changes.
+
+    Parameters
+    ----------
+    history, cutoffs, costs : as for ``SeasonPricer``.
+    seed : the run's seed; noise and drawn outcomes of block ``b`` come from ``SeedSequence(seed,
+        spawn_key=(stream, ..., b))``, so they depend only on the replicate's number.
+    forecast : (n_rows,) probabilities to act on instead of the history's.
+    outcome_probability : (n_rows,) when given, outcomes are drawn afresh, Bernoulli with these
+        probabilities, for every replicate occasion (the calibrated mode); persistence then acts
+        on the previous drawn outcome and the perfect forecast knows the drawn outcome.
+    noise_sd, noise_key : log-odds noise (:func:`log_odds_noise`), seeded with ``noise_key``.
+
+    With none of these changes it is exactly ``SeasonPricer``.
+    """
+
+    def __init__(self, history: History, cutoffs: np.ndarray, costs: Costs, *, seed: int,
+                 forecast: np.ndarray | None = None, outcome_probability: np.ndarray | None = None,
+                 noise_sd: float = 0.0, noise_key: int = 0):
+        forecast = history.p if forecast is None else np.asarray(forecast, dtype=float)
+        self._season_pricer = SeasonPricer(dataclasses.replace(history, p=forecast), cutoffs, costs)
+        self._simple = outcome_probability is None and noise_sd == 0
+        self._history, self._forecast, self._costs = history, forecast, costs
+        self._cutoffs = cutoffs
+        self._outcome_probability = outcome_probability
+        self._noise_sd, self._noise_key, self._seed = float(noise_sd), int(noise_key), int(seed)
+        actions = baseline_actions(history, costs)
+        self._actions = np.stack([actions[name] for name in BASELINES], axis=1)  # (n_rows, n_baselines)
+
+    def __call__(self, rows: np.ndarray, block: int) -> PricedBlock:
+        if self._simple:
+            return self._season_pricer(rows)
+        p = self._forecast[rows]
+        if self._noise_sd > 0:
+            rng = block_rng(self._seed, block, NOISE_STREAM, self._noise_key)
+            p = log_odds_noise(p, self._noise_sd, rng)
+        acts = self._actions[rows]  # (n_rep, n_occ, n_baselines)
+        if self._outcome_probability is None:
+            event = self._history.event[rows]
+        else:
+            u = block_rng(self._seed, block, OUTCOME_STREAM).random(rows.shape)
+            event = u < self._outcome_probability[rows]
+            previous = np.concatenate([self._history.prev_event[rows[:, :1]], event[:, :-1]], axis=1)
+            acts[..., BASELINES.index("persistence")] = previous
+            acts[..., BASELINES.index("perfect")] = event
+        n_cut = self._cutoffs.size
+        model = price(counts_from_slots(cutoff_slots(p, self._cutoffs), event, n_cut), self._costs)
+        baselines = occasion_costs(acts, event[..., None], self._costs).sum(axis=1)
+        return PricedBlock(model=model, baselines=baselines, n_events=event.sum(axis=1))
+
+
+# ------------------------------------------------------------------------------------------------
+# results
+
+@dataclass(frozen=True)
+class EventRateCheck:
+    """How far the tilt took the replicates' event rate.
+
+    ``base_rate`` is the event rate of the case's untilted replicates (the same seeds), ``target``
+    ``multiplier`` times it, ``achieved`` the rate of the case's replicates with its standard error
+    over replicates; ``lowest``/``highest`` what the history can supply; ``note`` says in words when
+    the target was not reached.
+    """
+
+    multiplier: float
+    base_rate: float
+    target: float
+    achieved: float
+    standard_error: float
+    lowest: float
+    highest: float
+    reached: bool
+    note: str
+
+
+@dataclass(frozen=True)
+class StressView:
+    """One way of pricing a case: the strategies' season costs and the cutoff re-optimised.
+
+    ``probabilities`` is "as_forecast" or "adapted" (moved to the new event rate). ``strategies``
+    holds the model at the base case's recommended cutoff (``model``) and every baseline.
+    ``extra_cost`` is the mean season cost at the base cutoff minus the base case's; ``saved_by_moving``
+    what moving to the case's own best cutoff saves on average, and ``prob_moving_saves`` in how many
+    replicate seasons it does. ``savings`` and ``prob_saving`` are against the reference, at the base
+    cutoff. ``decision`` is the core's decision for the case (best cutoff, its interval, bands,
+    break-even ranges). Arrays are over replicates, ``mean_cost`` over cutoffs.
+    """
+
+    probabilities: str
+    base_cutoff: float
+    strategies: dict[str, Distribution]
+    extra_cost: float
+    best_cutoff: float
+    best_cost: Distribution
+    saved_by_moving: float
+    prob_moving_saves: float
+    savings: Distribution
+    prob_saving: float
+    decision: Decision
+    headline: str
+    mean_cost: np.ndarray
+    model_cost_at_base: np.ndarray
+    model_cost_at_best: np.ndarray
+    baseline_cost: dict[str, np.ndarray]
+
+
+@dataclass(frozen=True)
+class StressResult:
+    name: str
+    changes: dict
+    costs: Costs
+    theoretical_cutoff: float
+    mean_block_days: float
+    seasons_used: tuple[int, ...] | None
+    event_rate: EventRateCheck | None
+    views: tuple[StressView, ...]
+    warnings: tuple[str, ...] = field(default=())
+
+
+# ------------------------------------------------------------------------------------------------
+# running the cases
+
+def run_stress(scenario: Scenario, history: History, *, calendar: Calendar, resampler: Resampler,
+               cutoffs: np.ndarray, seed: int, replicates: int, decision: Decision,
+               model_cost: np.ndarray, seasons_per_history: int,
+               interval_rng: Callable[[], np.random.Generator],
+               outcome_probability: np.ndarray | None = None,
+               progress: Callable[[str, int, int], None] | None = None) -> tuple[StressResult, ...]:
+    """Price every ``[[stress]]`` case of ``scenario``, in order.
+
+    ``resampler``, ``seed``, ``replicates``, ``decision`` and ``model_cost`` are the base run's;
+    ``interval_rng()`` gives the generator the base run used for the interval of its cutoff (so the
+    cases' intervals share its random numbers). ``outcome_probability`` is set in the calibrated mode.
+    """
+    base = _Base(scenario, history, calendar, resampler, cutoffs, seed, replicates, decision,
+                 float(model_cost[:, decision.recommended_index].mean()), seasons_per_history,
+                 interval_rng, outcome_probability, progress)
+    return tuple(_run_case(case, base) for case in scenario.stress)
+
+
+@dataclass(frozen=True)
+class _Base:
+    scenario: Scenario
+    history: History
+    calendar: Calendar
+    resampler: Resampler
+    cutoffs: np.ndarray
+    seed: int
+    replicates: int
+    decision: Decision
+    mean_cost: float  # the base case's mean season cost at its recommended cutoff
+    seasons_per_history: int
+    interval_rng: Callable[[], np.random.Generator]
+    outcome_probability: np.ndarray | None
+    progress: Callable[[str, int, int], None] | None
+
+    @property
+    def expected_event(self) -> np.ndarray:
+        """Each row's event (replay) or its recalibrated probability (calibrated mode)."""
+        if self.outcome_probability is None:
+            return self.history.event.astype(float)
+        return np.asarray(self.outcome_probability, dtype=float)
+
+
+def _run_case(case: StressCase, base: _Base) -> StressResult:
+    history, seed, replicates = base.history, base.seed, base.replicates
+    costs = case.changed_costs(base.scenario.costs)
+    warnings: list[str] = []
+    sampler, seasons_used = _case_resampler(case, base, warnings)
+
+    tilt, base_rate, new_rate = None, None, None
+    outcome_probability = base.outcome_probability
+    if case.event_rate is not None:
+        expected = np.concatenate([base.expected_event[rows] for rows in sampler.blocks(seed, replicates)])
+        base_rate = float(expected.mean())
+        new_rate = case.event_rate * base_rate
+        if case.event_rate != 1 and outcome_probability is None:  # replay: draw other runs
+            tilt = tilt_to_rate(sampler, base.expected_event, min(new_rate, 1.0), seed)
+            sampler = sampler.tilted(tilt.weights)
+        elif case.event_rate != 1:  # calibrated: the same runs, outcomes drawn at shifted odds
+            tilt = odds_shift_to_rate(expected, min(new_rate, 1.0))
+            outcome_probability = shift_odds(outcome_probability, tilt.theta)
+        if tilt is not None and not tilt.reachable:
+            new_rate = tilt.rate
+
+    # the probabilities of each view: as forecast (perhaps degraded), and adapted to the new rate
+    training_rate = float(history.event[history.training].mean())
+    forecast = history.p if case.skill is None else degrade(history.p, training_rate, case.skill)
+    views = [("as_forecast", forecast)]
+    if case.event_rate is not None:
+        views.append(("adapted", prior_shift(forecast, base_rate, min(max(new_rate, 1e-6), 1 - 1e-6))))
+    noise_key = int.from_bytes(hashlib.sha256(case.name.encode()).digest()[:4], "big")
+    pricers = [ReplicatePricer(history, base.cutoffs, costs, seed=seed, forecast=p,
+                               noise_sd=case.noise or 0.0, noise_key=noise_key,
+                               outcome_probability=outcome_probability) for _, p in views]
+
+    parts: list[list[PricedBlock]] = [[] for _ in views]
+    done = 0
+    for b, rows in enumerate(sampler.blocks(seed, replicates)):
+        for pricer, store in zip(pricers, parts):
+            store.append(pricer(rows, b))
+        done += rows.shape[0]
+        if base.progress is not None:
+            base.progress(f"stress: {case.name}", done, replicates)
+
+    rate_check = None
+    if case.event_rate is not None:
+        n_events = np.concatenate([blk.n_events for blk in parts[0]])
+        rate_check = _rate_check(case, base_rate, tilt, n_events / base.calendar.n_occasions)
+        if rate_check.note:
+            warnings.append(rate_check.note)
+
+    out_views = []
+    for (name, _), store in zip(views, parts):
+        baselines = np.concatenate([blk.baselines for blk in store])
+        out_views.append(_view(name, case, base, np.concatenate([blk.model for blk in store]),
+                               {n: baselines[:, i] for i, n in enumerate(BASELINES)}, rate_check))
+    return StressResult(name=case.name, changes=case.model_dump(exclude_none=True, exclude={"name"}),
+                        costs=costs, theoretical_cutoff=break_even_probability(costs),
+                        mean_block_days=sampler.mean_block * history.step_days,
+                        seasons_used=seasons_used, event_rate=rate_check, views=tuple(out_views),
+                        warnings=tuple(warnings))
+
+
+def _case_resampler(case: StressCase, base: _Base, warnings: list[str]) -> tuple[Resampler, tuple | None]:
+    """The base resampler, or one with the case's mean run length and/or its worst seasons only."""
+    if case.worst_seasons is None and case.block_days is None:
+        return base.resampler, None
+    history = base.history
+    mean_block = (max(1.0, case.block_days / history.step_days) if case.block_days is not None
+                  else base.resampler.mean_block)
+    seasons_used = None
+    if case.worst_seasons is not None:
+        seasons_used = _worst_seasons(history, base.scenario.costs, base.decision.recommended_cutoff,
+                                      case.worst_seasons)
+        if len(seasons_used) < case.worst_seasons:
+            warnings.append(f'stress "{case.name}": worst_seasons = {case.worst_seasons} but the history '
+                            f"has {len(seasons_used)} seasons; all of them are used")
+        keep = history.evaluated & np.isin(history.season, seasons_used)
+        history = dataclasses.replace(history, evaluated=keep)
+    return Resampler(history, base.calendar, mean_block, base.resampler.window_days), seasons_used
+
+
+def _rate_check(case: StressCase, base_rate: float, tilt: Tilt | None, rates: np.ndarray) -> EventRateCheck:
+    """Compare the replicates' event rates, (n_replicates,), with the case's target."""
+    target = case.event_rate * base_rate
+    achieved = float(rates.mean())
+    se = float(rates.std(ddof=1) / np.sqrt(rates.size))
+    if tilt is None:  # event_rate = 1: the base replicates themselves
+        return EventRateCheck(multiplier=1.0, base_rate=base_rate, target=target, achieved=achieved,
+                              standard_error=se, lowest=achieved, highest=achieved, reached=True, note="")
+    label = f'stress "{case.name}"'
+    tolerance = REACHED_SE * float(np.hypot(se, tilt.standard_error))
+    reached = tilt.reachable and abs(achieved - target) <= tolerance
+    wanted = (f"an event rate of {target:.3f} ({case.event_rate:g} times the {base_rate:.3f} of the "
+              "replicate seasons)")
+    note = ""
+    if not tilt.reachable:
+        limit = f"at most {tilt.highest:.3f}" if target > achieved else f"at least {tilt.lowest:.3f}"
+        how = "redrawing runs of the history" if tilt.weights is not None else "shifting the odds"
+        note = (f"{label}: {wanted} cannot be reached by {how}, which supplies {limit}; the case is "
+                f"priced at {achieved:.3f}")
+    elif not reached:
+        note = (f"{label}: {wanted} was missed: the replicates reach {achieved:.3f} (Monte Carlo error "
+                f"{se:.3f}); use more replicates")
+    return EventRateCheck(multiplier=float(case.event_rate), base_rate=base_rate, target=target,
+                          achieved=achieved, standard_error=se, lowest=tilt.lowest, highest=tilt.highest,
+                          reached=bool(reached), note=note)
+
+
+def _view(name: str, case: StressCase, base: _Base, model: np.ndarray, baseline_cost: dict[str, np.ndarray],
+          rate_check: EventRateCheck | None) -> StressView:
+    reference = baseline_cost[base.scenario.simulation.reference]
+    cutoffs = base.cutoffs
+    decision = decide(model, reference, cutoffs, base.seasons_per_history, base.interval_rng())
+    base_index, best = base.decision.recommended_index, decision.recommended_index
+    at_base, at_best = model[:, base_index], model[:, best]
+    strategies = {"model": distribution(at_base)}
+    strategies.update({n: distribution(c) for n, c in baseline_cost.items()})
+    extra = float(at_base.mean() - base.mean_cost)
+    saved = float(at_base.mean() - at_best.mean())
+    moving = float((at_best < at_base).mean())
+    savings = reference - at_base
+    headline = _headline(case.name, name, float(cutoffs[base_index]), float(cutoffs[best]), extra, saved,
+                         moving, decision.near_optimal_band, base.scenario.currency)
+    if rate_check is not None and not rate_check.reached:
+        headline += f" (Event rate aimed at {rate_check.target:.3f}, reached {rate_check.achieved:.3f}.)"
+    return StressView(probabilities=name, base_cutoff=float(cutoffs[base_index]), strategies=strategies,
+                      extra_cost=extra, best_cutoff=float(cutoffs[best]), best_cost=distribution(at_best),
+                      saved_by_moving=saved, prob_moving_saves=moving, savings=distribution(savings),
+                      prob_saving=float((savings > 0).mean()), decision=decision, headline=headline,
+                      mean_cost=model.mean(axis=0), model_cost_at_base=at_base,
+                      model_cost_at_best=at_best, baseline_cost=baseline_cost)
+
+
+def _money(value: float, currency: str) -> str:
+    return f"{value:,.0f} {currency}"
+
+
+def _headline(case: str, view: str, base: float, best: float, extra: float, saved: float,
+              moving: float, band: tuple[float, float], currency: str) -> str:
+    """The sentence a budget holder needs, for one view of one case."""
+    what = f'"{case}"' + (" (forecast adapted to the new event rate)" if view == "adapted" else "")
+    direction = "more" if extra >= 0 else "less"
+    text = (f"Keep the cutoff at {base:.2f} and {what} costs {_money(abs(extra), currency)} {direction} "
+            f"a season on average")
+    if best == base:
+        return text + f"; {base:.2f} stays the cheapest cutoff."
+    if band[0] <= base <= band[1]:
+        return text + (f"; {base:.2f} stays within 1% of the lowest cost (moving to {best:.2f} would "
+                       f"save only {_money(saved, currency)}).")
+    share = "of that" if 0 < saved <= extra else "a season"
+    return text + (f"; moving to {best:.2f} would save {_money(saved, currency)} {share} "
+                   f"(cheaper in {moving:.0%} of seasons).")
+
+
+def _worst_seasons(history: History, costs: Costs, cutoff: float, k: int) -> tuple[int, ...]:
+    """The k seasons with the highest historical cost per occasion when acting at ``cutoff``."""
+    rows = history.evaluated
+    cost = occasion_costs(history.p[rows] >= cutoff, history.event[rows], costs)
+    labels, index = np.unique(history.season[rows], return_inverse=True)
+    per_occasion = np.bincount(index, weights=cost) / np.bincount(index)
+    order = np.argsort(-per_occasion, kind="stable")[:k]
+    return tuple(int(s) for s in np.sort(labels[order]))
