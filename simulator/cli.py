@@ -97,6 +97,16 @@ def _headline(result: RunResult) -> Table:
                   + _ranges(s["confident_break_even"]) + " (in 95% of seasons)")
     table.add_row("Season", f"{s['season_occasions']} occasions, {s['replicates']} replicate seasons, "
                             f"mean run {s['mean_block_days']:.1f} days")
+    operations = s.get("operations")
+    if operations:
+        at = operations["at_recommended_cutoff"]
+        done = at.get("completion_date") or {}
+        finish = (f"work done by {done['p50']} in half the seasons (90%: {done['p05']} to {done['p95']}); "
+                  if done.get("p50") else "")
+        table.add_row("Under the operating rules",
+                      f"{finish}late in {at['share_late']:.0%} of seasons "
+                      f"(mean {at['days_late']['mean']:.1f} days late); safety stop decided "
+                      f"{at['safety_stop_days']['mean']:.1f} days a season")
     for name, d in s["strategies"].items():
         if name != "model":
             table.add_row(f"  {name}", f"{_money(d['mean'], cur)}  ({_money(d['p05'], cur)} to "
@@ -161,8 +171,10 @@ def _selection_tables(result: RunResult) -> list:
     if sel.validation is not None:
         v = sel.validation
         t, val = v.training, v.validation
+        fixed = (" (with the fixed costs per occasion; the operating rules are not replayed here)"
+                 if result.scenario.operations is not None else "")
         table = Table(title=f"Chosen on the training period, priced on the validation period: cutoff "
-                            f"{v.chosen_cutoff:.2f}", title_justify="left")
+                            f"{v.chosen_cutoff:.2f}{fixed}", title_justify="left")
         table.add_column("")
         table.add_column(f"training {t.start[:4]}-{t.end[:4]}", justify="right")
         table.add_column(f"validation {val.start[:4]}-{val.end[:4]}", justify="right")
