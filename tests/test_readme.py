@@ -1,0 +1,43 @@
+"""What the README shows, a test runs: the demo's headline and the operating-rules cutoff.
+
+The README's numbers are the demo's own output (invented data, demo only); these tests fail when a
+change moves them, so the README is updated in the same commit.
+"""
+
+from __future__ import annotations
+
+import re
+from pathlib import Path
+
+import pytest
+from rich.console import Console
+
+from simulator import read_scenario, run
+from simulator.cli import _headline
+from simulator.demo import write_demo_files
+
+ROOT = Path(__file__).resolve().parents[1]
+README = (ROOT / "README.md").read_text(encoding="utf-8")
+
+
+def _readme_block(after: str) -> list[str]:
+    start = README.index(after)
+    block = README[start:].split("```text\n", 1)[1].split("```", 1)[0]
+    return [line.rstrip() for line in block.splitlines()]
+
+
+def test_readme_shows_the_demo_headline_as_the_demo_prints_it(tmp_path):
+    result = run(read_scenario(write_demo_files(tmp_path)))
+    console = Console(width=100, record=True, file=open(tmp_path / "out.txt", "w"))
+    console.print(_headline(result))
+    printed = [line.rstrip() for line in console.export_text().splitlines()]
+    shown = _readme_block("`make demo` (or `gonogo demo`) prints:")
+    table = [line for line in printed if line.strip()]
+    assert shown[: len(table)] == table
+
+
+@pytest.mark.parametrize("scenario, quoted", [("line_marking_rules.toml", "0.38")])
+def test_readme_quotes_the_operating_rules_cutoff(scenario, quoted):
+    assert re.search(rf"falls from 0\.80 to about \*\*{re.escape(quoted)}\*\*", README)
+    result = run(read_scenario(ROOT / "scenarios" / scenario))
+    assert f"{result.decision.recommended_cutoff:.2f}" == quoted
