@@ -26,6 +26,7 @@ from .run import RunResult, run
 from .scenario import Costs, Scenario, read_scenario
 
 app = typer.Typer(add_completion=False, no_args_is_help=True, pretty_exceptions_enable=False,
+                  rich_markup_mode=None,
                   help="gonogo: choose the probability cutoff at which to act on a yes/no forecast, "
                        "and price what a season will cost at it.")
 out_console = Console()

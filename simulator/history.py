@@ -166,8 +166,8 @@ def history_from_frame(frame: pd.DataFrame, scenario: Scenario, *, label: str = 
     where = _Where(label, first_row)
     for role, name in _required_columns(spec):
         if name not in columns:
-            raise InputError(f'{label}: no column "{name}" (the {role}){did_you_mean(name, columns)}; '
-                             f"name it in the scenario's [history] {role}_column")
+            raise InputError(f'{label}: no column "{name}" (the {role}){did_you_mean(name, columns)} '
+                             f"(the scenario's [history] {role}_column names the column to use)")
 
     dates = _parse_dates(frame[spec.date_column], where, spec.date_column)
     _check_order(dates, where, spec.date_column)
