@@ -395,6 +395,7 @@ def render_report(result, summary: Mapping[str, Any]) -> dict[str, bytes]:
         "auto_block": scenario.simulation.block_days == "auto",
         "n_cutoffs": len(table), "recommended_index": best,
         "honest": (summary.get("selection") or {}).get("validation"),
+        "forward": (summary.get("selection") or {}).get("walk_forward"),
     }
     html = _ENV.get_template("report.html.j2").render(context)
     files = {"report.html": html.encode("utf-8")}

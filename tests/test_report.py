@@ -280,3 +280,18 @@ def test_money_and_share_are_written_for_a_reader():
     assert share(1.0) == "100%" and share(0.0) == "0%"
     assert share(0.996) == "over 99%" and share(0.004) == "under 1%"
     assert share(0.954) == "95%"
+
+
+def test_walk_forward_section_shows_each_season_and_the_total(tmp_path):
+    folder = tmp_path / "walk"
+    folder.mkdir()
+    path = write_minimal(folder)
+    result = run(read_scenario(path), replicates=100, walk_forward=True)
+    s = summary(result)
+    html = render_report(result, s)["report.html"].decode()
+    forward = s["selection"]["walk_forward"]
+    assert 'id="walk-forward"' in html
+    assert money(forward["total_cost"], "EUR") in html
+    assert all(f"<td>{row['season']}</td>" in html for row in forward["seasons"])
+    without = run(read_scenario(path), replicates=100)
+    assert b'id="walk-forward"' not in render_report(without, summary(without))["report.html"]
