@@ -396,6 +396,7 @@ def render_report(result, summary: Mapping[str, Any]) -> dict[str, bytes]:
         "n_cutoffs": len(table), "recommended_index": best,
         "honest": (summary.get("selection") or {}).get("validation"),
         "forward": (summary.get("selection") or {}).get("walk_forward"),
+        "calibration": summary.get("calibration"),
     }
     html = _ENV.get_template("report.html.j2").render(context)
     files = {"report.html": html.encode("utf-8")}

@@ -295,3 +295,12 @@ def test_walk_forward_section_shows_each_season_and_the_total(tmp_path):
     assert all(f"<td>{row['season']}</td>" in html for row in forward["seasons"])
     without = run(read_scenario(path), replicates=100)
     assert b'id="walk-forward"' not in render_report(without, summary(without))["report.html"]
+
+
+def test_calibrated_mode_is_said_in_the_report(tmp_path):
+    text = MINIMAL_TOML.replace("[costs]", '[simulation]\nmode = "calibrated"\n\n[costs]', 1)
+    assert 'mode = "calibrated"' in text
+    s, files = _run_variant(tmp_path / "calibrated", text)
+    html = files["report.html"].decode()
+    assert 'id="calibrated-mode"' in html
+    assert f'{s["calibration"]["brier_training_recalibrated"]:.4f}' in html
