@@ -156,10 +156,7 @@ def run_history(scenario: Scenario, history: History, *, replicates: int | None 
                                                    history.event[history.evaluated]))
     warnings = tuple(history.warnings) + tuple(cost_warnings(costs, scenario.decision.action))
     stress = None
-    if scenario.stress and scenario.operations is not None:
-        warnings += (f"{_label(scenario)} [[stress]]: stress cases are not priced with [operations] "
-                     "yet; they were skipped",)
-    elif scenario.stress:
+    if scenario.stress:
         stress = run_stress(scenario, history, calendar=calendar, resampler=resampler, cutoffs=cutoffs,
                             seed=seed, replicates=replicates, decision=decision, model_cost=model_cost,
                             seasons_per_history=seasons_per_history,

@@ -22,7 +22,7 @@ from .errors import InputError, did_you_mean
 
 __all__ = ["Scenario", "Costs", "read_scenario", "scenario_from_text", "cutoff_grid",
            "break_even_probability", "cost_warnings", "WEEKDAYS", "BASELINES",
-           "OperationsSection", "StressCase", "CostChanges", "STRESS_CHANGES"]
+           "OperationsSection", "StressCase", "CostChanges", "OperationsChanges", "STRESS_CHANGES"]
 
 WEEKDAYS = ("mon", "tue", "wed", "thu", "fri", "sat", "sun")
 BASELINES = ("never_act", "always_act", "persistence", "seasonal_rate", "perfect")
@@ -221,8 +221,23 @@ class CostChanges(_Section):
         return {k: v for k, v in self.model_dump().items() if v is not None}
 
 
-STRESS_CHANGES = ("event_rate", "costs", "cost_multipliers", "skill", "noise", "block_days",
-                  "worst_seasons")
+class OperationsChanges(_Section):
+    """Operating-rule prices (and the amount of work) a stress case replaces or multiplies."""
+
+    day_rate: Annotated[float, Field(ge=0)] | None = None
+    standby_rate: Annotated[float, Field(ge=0)] | None = None
+    spoilage_cost: Annotated[float, Field(ge=0)] | None = None
+    damages_per_day_late: Annotated[float, Field(ge=0)] | None = None
+    unfinished_cost: Annotated[float, Field(ge=0)] | None = None
+    overtime_multiple: Annotated[float, Field(ge=0)] | None = None
+    work: Annotated[float, Field(gt=0)] | None = None
+
+    def given(self) -> dict[str, float]:
+        return {k: v for k, v in self.model_dump().items() if v is not None}
+
+
+STRESS_CHANGES = ("event_rate", "costs", "cost_multipliers", "operations", "operations_multipliers",
+                  "skill", "noise", "block_days", "worst_seasons")
 
 
 class StressCase(_Section):
@@ -232,6 +247,8 @@ class StressCase(_Section):
     event_rate: Annotated[float, Field(gt=0)] | None = None
     costs: CostChanges | None = None
     cost_multipliers: CostChanges | None = None
+    operations: OperationsChanges | None = None
+    operations_multipliers: OperationsChanges | None = None
     skill: Annotated[float, Field(ge=0, le=1)] | None = None
     noise: Annotated[float, Field(ge=0)] | None = None
     block_days: Annotated[float, Field(ge=1)] | None = None
@@ -249,7 +266,25 @@ class StressCase(_Section):
         if both:
             raise ValueError(f'"{both[0]}" has both a new value (costs) and a multiplier '
                              "(cost_multipliers); keep one")
+        new = self.operations.given() if self.operations else {}
+        factors = self.operations_multipliers.given() if self.operations_multipliers else {}
+        both = sorted(set(new) & set(factors))
+        if both:
+            raise ValueError(f'"{both[0]}" has both a new value (operations) and a multiplier '
+                             "(operations_multipliers); keep one")
         return self
+
+    def changed_operations(self, base: "OperationsSection") -> "OperationsSection":
+        """``base`` with this case's new operating-rule prices and multipliers applied."""
+        values = {}
+        values.update(self.operations.given() if self.operations else {})
+        for key, factor in (self.operations_multipliers.given() if self.operations_multipliers else {}).items():
+            current = getattr(base, key)
+            if current is None and key == "standby_rate":
+                current = base.day_rate
+            if current is not None:
+                values[key] = current * factor
+        return base.model_copy(update=values)
 
     def changed_costs(self, base: Costs) -> Costs:
         """``base`` with this case's new values and multipliers applied."""

@@ -39,7 +39,9 @@ from scipy.special import expit, logit
 
 from .costs import PricedBlock, SeasonPricer, baseline_actions, occasion_costs, price
 from .decision import Decision, Distribution, decide, distribution
+from .errors import InputError
 from .history import History
+from .operations_fast import OperationsPricer
 from .resample import Calendar, Resampler, block_rng
 from .scenario import BASELINES, Costs, Scenario, StressCase, break_even_probability
 from .scoring import counts_from_slots, cutoff_slots
@@ -358,10 +360,24 @@ def run_stress(scenario: Scenario, history: History, *, calendar: Calendar, resa
     ``interval_rng()`` gives the generator the base run used for the interval of its cutoff (so the
     cases' intervals share its random numbers). ``outcome_probability`` is set in the calibrated mode.
     """
+    _check_cases(scenario)
     base = _Base(scenario, history, calendar, resampler, cutoffs, seed, replicates, decision,
                  float(model_cost[:, decision.recommended_index].mean()), seasons_per_history,
                  interval_rng, outcome_probability, progress)
     return tuple(_run_case(case, base) for case in scenario.stress)
+
+
+def _check_cases(scenario: Scenario) -> None:
+    """Refuse the changes a scenario's cases cannot have, naming the case."""
+    label = str(scenario.source) if scenario.source else "scenario"
+    for case in scenario.stress:
+        where = f'{label} [[stress]] "{case.name}"'
+        if scenario.operations is None and (case.operations or case.operations_multipliers):
+            raise InputError(f"{where}: operations and operations_multipliers change operating-rule "
+                             "prices; add an [operations] section or remove them")
+        if scenario.operations is not None and case.noise is not None:
+            raise InputError(f"{where}: noise is not played under [operations] rules yet; use skill "
+                             "to make the forecast poorer")
 
 
 @dataclass(frozen=True)
@@ -416,9 +432,14 @@ def _run_case(case: StressCase, base: _Base) -> StressResult:
     if case.event_rate is not None:
         views.append(("adapted", prior_shift(forecast, base_rate, min(max(new_rate, 1e-6), 1 - 1e-6))))
     noise_key = int.from_bytes(hashlib.sha256(case.name.encode()).digest()[:4], "big")
-    pricers = [ReplicatePricer(history, base.cutoffs, costs, seed=seed, forecast=p,
-                               noise_sd=case.noise or 0.0, noise_key=noise_key,
-                               outcome_probability=outcome_probability) for _, p in views]
+    if base.scenario.operations is None:
+        pricers = [ReplicatePricer(history, base.cutoffs, costs, seed=seed, forecast=p,
+                                   noise_sd=case.noise or 0.0, noise_key=noise_key,
+                                   outcome_probability=outcome_probability) for _, p in views]
+    else:  # every season played under the rules, with the case's prices and forecast
+        rules = base.scenario.model_copy(update={
+            "costs": costs, "operations": case.changed_operations(base.scenario.operations)})
+        pricers = [_rules_pricer(dataclasses.replace(history, p=p), base, rules) for _, p in views]
 
     parts: list[list[PricedBlock]] = [[] for _ in views]
     done = 0
@@ -446,6 +467,12 @@ def _run_case(case: StressCase, base: _Base) -> StressResult:
                         mean_block_days=sampler.mean_block * history.step_days,
                         seasons_used=seasons_used, event_rate=rate_check, views=tuple(out_views),
                         warnings=tuple(warnings))
+
+
+def _rules_pricer(history: History, base: _Base, scenario: Scenario) -> Callable[[np.ndarray, int], PricedBlock]:
+    """The operating-rules pricer of a case, called like :class:`ReplicatePricer`."""
+    pricer = OperationsPricer(history, base.calendar, base.cutoffs, scenario)
+    return lambda rows, block: pricer(rows)
 
 
 def _case_resampler(case: StressCase, base: _Base, warnings: list[str]) -> tuple[Resampler, tuple | None]:

@@ -7,6 +7,7 @@ Histories here are invented test data (``tests/conftest.py``), calibrated by con
 from __future__ import annotations
 
 import json
+from pathlib import Path
 
 import numpy as np
 import pytest
@@ -16,8 +17,8 @@ from simulator.cli import app
 from simulator.errors import InputError
 from simulator.outputs import summary
 from simulator.resample import Resampler, season_calendar
-from simulator.run import run_history
-from simulator.scenario import scenario_from_text
+from simulator.run import run, run_history
+from simulator.scenario import read_scenario, scenario_from_text
 from simulator.history import history_from_frame
 from simulator.stress import degrade, prior_shift, shift_odds
 
@@ -233,3 +234,42 @@ def test_command_line_prints_the_stress_table_and_writes_stress_csv(tmp_path, wo
     table = (tmp_path / "out" / "stress.csv").read_text().splitlines()
     assert table[0].startswith("case,probabilities,target_event_rate")
     assert [line.split(",")[0] for line in table[1:]] == ["base case", "wetter", "wetter"]
+
+
+# ---- stress cases under [operations] rules -----------------------------------------------------
+
+RULES_CASES = """
+
+[[stress]]
+name = "dearer late damages"
+operations_multipliers = { damages_per_day_late = 2 }
+"""
+
+
+def test_doubling_late_damages_adds_the_mean_late_damages_at_the_base_cutoff(tmp_path):
+    # common practice, no source: a case that only changes a price is played on the same replicates
+    # with the same decisions, so doubling one cost component adds exactly its mean at that cutoff
+    root = Path(__file__).resolve().parents[1] / "scenarios"
+    text = (root / "line_marking_rules.toml").read_text()
+    text = text.replace('path = "line_marking_history.csv"', f'path = "{root / "line_marking_history.csv"}"')
+    (tmp_path / "rules.toml").write_text(text + RULES_CASES)
+    result = run(read_scenario(tmp_path / "rules.toml"), replicates=REPLICATES)
+    s = summary(result)
+    late = s["operations"]["at_recommended_cutoff"]["mean_components"]["late_damages_cost"]
+    case = s["stress"][0]["views"][0]
+    assert late > 0
+    assert case["strategies"]["model"]["mean"] == pytest.approx(s["strategies"]["model"]["mean"] + late,
+                                                                rel=1e-12)
+
+
+def test_operating_rule_changes_without_operations_are_refused(tmp_path):
+    root = Path(__file__).resolve().parents[1] / "scenarios"
+    text = (root / "line_marking.toml").read_text()
+    text = text.replace('path = "line_marking_history.csv"', f'path = "{root / "line_marking_history.csv"}"')
+    (tmp_path / "plain.toml").write_text(text + '\n[[stress]]\nname = "x"\noperations = { day_rate = 900 }\n')
+    out = tmp_path / "out"
+    result = CliRunner().invoke(app, ["run", str(tmp_path / "plain.toml"), "--out", str(out),
+                                      "--replicates", "40"])
+    assert result.exit_code == 2
+    assert '[[stress]] "x": operations and operations_multipliers' in result.output
+    assert not out.exists()
