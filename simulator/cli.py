@@ -257,7 +257,12 @@ def _execute(scenario: Scenario, history: Path | None, out: Path | None, replica
     with _progress_bar(not (quiet or as_json)) as progress:
         result = run(scenario, history, replicates=replicates, seed=seed, progress=progress,
                      walk_forward=walk_forward)
-    written = write_files(render_files(result), out, force)
+    if quiet or as_json:
+        files = render_files(result)
+    else:
+        with err_console.status("drawing the figures and writing the report"):
+            files = render_files(result)
+    written = write_files(files, out, force)
     _report_run(result, out, written, quiet, as_json)
 
 
