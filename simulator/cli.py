@@ -17,6 +17,7 @@ from rich.console import Console
 from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeRemainingColumn
 from rich.table import Table
 from rich.text import Text
+from rich.text import Text
 
 from . import __version__
 from .errors import InputError
@@ -239,13 +240,15 @@ def _report_run(result: RunResult, out: Path, written: list[Path], quiet: bool, 
         return
     if quiet:
         return
+    hazard = result.scenario.event.hazard
+    caution = Text.assemble(("Caution: ", "bold"), (f'"{result.scenario.event.name}" is a hazard to people. '
+                                                    if hazard else "", "bold"), CAUTION)
+    if hazard:  # said first, and again at the end
+        out_console.print(caution)
     out_console.print(_headline(result))
     for part in _stress_tables(result) + _selection_tables(result) + _calibration_lines(result):
         out_console.print(part)
-    caution = CAUTION
-    if result.scenario.event.hazard:
-        caution = f"\"{result.scenario.event.name}\" is a hazard to people. " + CAUTION
-    out_console.print(f"[bold]Caution:[/bold] {caution}")
+    out_console.print(caution)
     out_console.print(f"Wrote {len(written)} files to {out}/; open {out / 'report.html'} to read the report")
 
 
