@@ -8,7 +8,7 @@ run this only after changing a generator on purpose, and review the diff.
 
 from pathlib import Path
 
-from simulator.demo import line_marking_history, river_history, write_history_csv
+from simulator.demo import gritting_history, line_marking_history, river_history, write_history_csv
 
 HERE = Path(__file__).resolve().parent
 
@@ -16,5 +16,6 @@ if __name__ == "__main__":
     for name, history in [
         ("line_marking_history.csv", line_marking_history()),
         ("river_pumps_history.csv", river_history()),
+        ("gritting_depots_history.csv", gritting_history()),
     ]:
         print(write_history_csv(history, HERE / name))

@@ -23,6 +23,7 @@ from . import __version__
 from .errors import InputError
 from .history import read_history
 from .outputs import check_out_folder, render_files, summary, write_files
+from .parallel import CLUSTER_ENV
 from .run import RunResult, run
 from .scenario import Costs, Scenario, read_scenario
 
@@ -87,8 +88,10 @@ def _headline(result: RunResult) -> Table:
                   show_header=False, title_justify="left")
     table.add_column(style="bold")
     table.add_column()
+    p_star = s["theoretical_cutoff"]
+    p_star = "undefined" if p_star is None else f"{p_star:.2f}"
     table.add_row("Recommended cutoff", f"{s['recommended_cutoff']:.2f}  (90% interval {lo:.2f} to {hi:.2f}; "
-                                        f"break-even probability of the costs {s['theoretical_cutoff']:.2f})")
+                                        f"break-even probability of the costs {p_star})")
     table.add_row("Expected season cost", f"{_money(model['mean'], cur)}  (90% of seasons "
                                           f"{_money(model['p05'], cur)} to {_money(model['p95'], cur)})")
     sv = s["savings"]
@@ -99,6 +102,14 @@ def _headline(result: RunResult) -> Table:
                   + _ranges(s["confident_break_even"]) + " (in 95% of seasons)")
     table.add_row("Season", f"{s['season_occasions']} occasions, {s['replicates']} replicate seasons, "
                             f"mean run {s['mean_block_days']:.1f} days")
+    portfolio = s.get("portfolio")
+    if portfolio:  # the rows above are all sites together at one common cutoff
+        own = portfolio["total_cost"]["own_cutoffs"]
+        best = portfolio["ranking"][0]
+        table.add_row(f"{portfolio['sites']} sites", f"totals at one cutoff for all; each site at its own cutoff "
+                      f"{_money(own['mean'], cur)} (90% of seasons {_money(own['p05'], cur)} to "
+                      f"{_money(own['p95'], cur)}); forecast worth most at \"{best['site']}\" "
+                      f"({_money(best['forecast_value'], cur)} a season); per site: sites.csv")
     operations = s.get("operations")
     if operations:
         at = operations["at_recommended_cutoff"]
@@ -254,12 +265,12 @@ def _report_run(result: RunResult, out: Path, written: list[Path], quiet: bool, 
 
 def _execute(scenario: Scenario, history: Path | None, out: Path | None, replicates: int | None,
              seed: int | None, force: bool, quiet: bool, as_json: bool,
-             walk_forward: bool | None = None) -> None:
+             walk_forward: bool | None = None, workers: int | None = None, cluster: str | None = None) -> None:
     out = out if out is not None else Path("outputs") / scenario.slug
     check_out_folder(out, force)  # before any work, so a refusal costs nothing
     with _progress_bar(not (quiet or as_json)) as progress:
         result = run(scenario, history, replicates=replicates, seed=seed, progress=progress,
-                     walk_forward=walk_forward)
+                     walk_forward=walk_forward, workers=workers, cluster=cluster or None)
     if quiet or as_json:
         files = render_files(result)
     else:
@@ -275,6 +286,13 @@ Seed = Annotated[int | None, typer.Option(min=0, help="Random seed; the same see
                                           "(default: the scenario's [simulation] seed).")]
 Force = Annotated[bool, typer.Option("--force", help="Replace results already in the output folder.")]
 Quiet = Annotated[bool, typer.Option("--quiet", help="Print nothing but warnings and errors (for scripts).")]
+Workers = Annotated[int | None, typer.Option(min=1, help="Local worker processes for the replicate seasons "
+                                             "(default: every core). The results are the same whatever "
+                                             "the number.")]
+Cluster = Annotated[str | None, typer.Option(envvar=CLUSTER_ENV, show_envvar=True,
+                                             help="Address of a running Dask scheduler (tcp://host:8786) "
+                                             "to price the replicate seasons on, instead of this machine; "
+                                             "needs pip install \"dask[distributed]\".")]
 AsJson = Annotated[bool, typer.Option("--json", help="Print summary.json to standard output instead of "
                                       "the headline table.")]
 
@@ -295,6 +313,8 @@ def run_command(
     walk_forward: Annotated[bool, typer.Option("--walk-forward", help="Also check the choice season by "
                                                "season: choose the cutoff on all earlier seasons, price "
                                                "the next (as [simulation] walk_forward = true).")] = False,
+    workers: Workers = None,
+    cluster: Cluster = None,
 ) -> None:
     """Replay the history under every cutoff, price each replicate season, and recommend a cutoff.
 
@@ -302,11 +322,13 @@ def run_command(
     figures/), summary.json and cutoffs.csv (one row per cutoff) with the tables beside them into
     the output folder, and prints a short headline. [[stress]] cases in the scenario are priced too
     (stress.csv), and a validation period or walk-forward checks the cutoff on seasons it was not
-    chosen on (selection.csv).
+    chosen on (selection.csv). With a site column ([history] site_column) every site is priced on
+    the same simulated seasons and sites.csv gives each site's own cutoff; the headline is then for
+    all sites at one common cutoff.
     """
     with _user_errors():
         _execute(read_scenario(scenario), history, out, replicates, seed, force, quiet, as_json,
-                 walk_forward=True if walk_forward else None)
+                 walk_forward=True if walk_forward else None, workers=workers, cluster=cluster)
 
 
 @app.command("demo")
@@ -353,6 +375,9 @@ def check_command(
     table.add_column()
     table.add_row("Rows", f"{h.n_rows} ({h.n_evaluated} in the season, {len(h.seasons)} seasons)")
     table.add_row("Period", f"{h.start} to {h.end}")
+    if h.has_sites:
+        names = ", ".join(h.site_names[:5]) + (", ..." if h.n_sites > 5 else "")
+        table.add_row("Sites", f"{h.n_sites} (column \"{spec.history.site_column}\"): {names}")
     if h.has_validation:
         table.add_row("Training / validation", f"{int(h.training.sum())} / {int(h.validation.sum())} occasions")
     table.add_row(f"Event rate (\"{spec.event.name}\")", f"{event.mean():.3f} ({int(event.sum())} occasions)")

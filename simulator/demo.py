@@ -9,6 +9,9 @@ about any real weather, river or forecaster. The settings are fictional:
 - The Vantle Vale Water Board keeps mobile pumps at its Pellisford flood-defence depot and gets a
   daily probability that the River Vantle at Pellisford Weir gauge peaks above the 3.2 m warning
   level (``river_history``).
+- Skerrick Roads, the winter highway contractor for the same fictional coast, grits the roads from
+  five depots and gets each evening, per depot, a road-weather supplier's probability of ice on the
+  roads overnight (``gritting_history``: many sites that share their weather).
 
 Functions here are pure: they return data frames and never print. ``write_demo_files`` and
 ``write_history_csv`` are the only functions that touch files; they write to a temporary name in
@@ -30,6 +33,8 @@ __all__ = [
     "WARNING_LEVEL_M",
     "line_marking_history",
     "river_history",
+    "GRITTING_DEPOTS",
+    "gritting_history",
     "history_csv_bytes",
     "write_history_csv",
     "write_demo_files",
@@ -189,6 +194,81 @@ def river_history(seed: int = 20270202) -> pd.DataFrame:
             "peak_level_m": level,
         }
     )
+
+
+GRITTING_DEPOTS = {  # depot: (night road temperature offset from the region's, degC; wet share)
+    "Gannetholm Harbour": (1.6, 0.50),  # on the coast: the sea keeps the nights milder
+    "Ferrowby Moor": (-0.4, 0.45),
+    "Pellisford": (0.3, 0.55),  # in the Vantle valley: damp
+    "Scarth Top": (-1.8, 0.55),  # the high road over the fell
+    "Tarnbeck Lane": (0.0, 0.40),
+}
+GRITTING_OUTAGE = ("Tarnbeck Lane", "2022-01-10", "2022-01-18")  # the depot's forecast feed was down
+
+
+def gritting_history(seed: int = 20270303) -> pd.DataFrame:
+    """Eight winters of invented nightly ice forecasts and outcomes at five gritting depots.
+
+    Skerrick Roads grits the roads of a fictional coast from the depots of :data:`GRITTING_DEPOTS`.
+    One row per depot and night from November to March, winters 2018-19 to 2025-26 (1,210 nights
+    a depot), sorted by date then depot, except that Tarnbeck Lane has no rows from 10 to 18
+    January 2022 (:data:`GRITTING_OUTAGE`: its forecast feed was down). Columns: ``date`` (ISO, the
+    evening the decision is taken), ``depot``, ``ice_probability`` (the supplier's probability of
+    ice on the depot's routes overnight, 2 decimals), ``ice`` (1 when ice formed: the lowest road
+    surface temperature was below 0 degC on a damp road, else 0) and ``road_temp_c`` (the night's
+    lowest road surface temperature, 1 decimal).
+
+    Generator, in the order the random numbers are drawn from ``numpy.random.default_rng(seed)``:
+
+    1. The region's night road temperature: a seasonal mean 3.5 - 3.0 c degC, c =
+       cos(2 pi (d - 20) / 365.25) for day of year d (coldest around 20 January), plus an AR(1)
+       anomaly with lag-one correlation 0.75 and standard deviation 2.6 degC, one for all depots:
+       cold spells strike every depot together. Then one uniform number a night for the region's
+       showers.
+    2. Each depot: the region's temperature plus its offset, plus its own AR(1) anomaly
+       (correlation 0.5, standard deviation 0.9 degC); rounded to 0.1 degC.
+    3. Damp roads: on 80% of nights (a draw per depot and night) the depot takes the region's
+       shower number, else a number of its own; the road is damp when that number is below the
+       depot's wet share. Ice: damp and below 0 degC.
+    4. Forecast: the supplier forecasts the depot's temperature with a normal error of 1.1 degC and
+       gives P(ice) = P(temperature < 0 | forecast) x the wet share, the first factor being
+       Phi(-forecast / 1.1); clipped to [0.01, 0.99] and rounded to 0.01. It is calibrated by
+       construction, up to the rounding.
+
+    With the default seed: ice on 30% of nights at Scarth Top and 9% at Gannetholm Harbour; on a
+    night with ice at Ferrowby Moor, Pellisford has ice 64% of the time against 18% of all nights
+    (correlations of the depots' ice series 0.35 to 0.55); ROC areas 0.79 (Scarth Top) to 0.94
+    (Gannetholm Harbour). Invented data: these numbers check the design of the demo, nothing else.
+    """
+    rng = np.random.default_rng(seed)
+    days = pd.date_range("2018-07-01", "2026-06-30", freq="D")
+    wave = _seasonal_wave(days.day_of_year.to_numpy(), peak_day=20.0)
+    regional = 3.5 - 3.0 * wave + _ar1(rng, days.size, 0.75, 2.6)
+    shower = rng.random(days.size)  # the region's showers: one draw a night for every depot
+    in_season = np.isin(days.month, [11, 12, 1, 2, 3])
+    frames = []
+    for depot, (offset, wet_share) in GRITTING_DEPOTS.items():
+        temp = np.round(regional + offset + _ar1(rng, days.size, 0.5, 0.9), 1)
+        own = rng.random(days.size)
+        damp = np.where(rng.random(days.size) < 0.8, shower, own) < wet_share
+        ice = damp & (temp < 0.0)
+        forecast = temp + 1.1 * rng.standard_normal(days.size)
+        probability = np.clip(ndtr(-forecast / 1.1) * wet_share, 0.01, 0.99)
+        frames.append(pd.DataFrame({"date": days.strftime("%Y-%m-%d"), "depot": depot,
+                                    "ice_probability": np.round(probability, 2),
+                                    "ice": ice.astype(np.int64), "road_temp_c": temp})[in_season])
+    out = pd.concat(frames, ignore_index=True)
+    down, start, end = GRITTING_OUTAGE
+    out = out[~((out["depot"] == down) & out["date"].between(start, end))]
+    order = np.lexsort((out["depot"].map(list(GRITTING_DEPOTS).index), out["date"]))
+    return out.iloc[order].reset_index(drop=True)
+
+
+def _ar1(rng: np.random.Generator, n: int, rho: float, sd: float) -> np.ndarray:
+    """A stationary AR(1) series: x_t = rho x_(t-1) + e_t, standard deviation ``sd``."""
+    shocks = rng.standard_normal(n) * sd * np.sqrt(1.0 - rho**2)
+    shocks[0] = rng.standard_normal() * sd  # start in the stationary distribution
+    return lfilter([1.0], [1.0, -rho], shocks)
 
 
 def _replace_atomically(path: Path, data: bytes) -> None:

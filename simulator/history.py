@@ -10,6 +10,7 @@ rows: the header is row 1) and column.
 
 from __future__ import annotations
 
+import dataclasses
 import hashlib
 from dataclasses import dataclass, field
 from datetime import date
@@ -18,7 +19,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from .errors import InputError, did_you_mean
+from .errors import InputError, closest, did_you_mean
 from .scenario import HistorySection, Scenario, SeasonSection
 
 __all__ = ["History", "read_history", "history_from_frame", "season_start_month", "MIN_CLASS_COUNT"]
@@ -37,6 +38,12 @@ class History:
     ``validation_from`` on. ``season`` labels each row with the year its season starts in
     (-1 outside the season) and ``day_of_season`` counts days from the season's first day.
     ``prev_event`` is the outcome of the previous row (False for the first), for persistence.
+
+    A history of many sites (``[history] site_column``) holds every site's rows, grouped by site in
+    the order the sites first appear in the file and in date order within each: ``site`` gives each
+    row's site as an index into ``site_names``, and ``prev_event`` looks back within the site.
+    :meth:`for_site` gives one site's rows as a history of its own. Without a site column ``site``
+    is None and ``site_names`` empty.
     """
 
     label: str
@@ -51,10 +58,39 @@ class History:
     prev_event: np.ndarray  # bool
     step_days: int
     warnings: tuple[str, ...] = field(default=())
+    site: np.ndarray | None = None  # int64 (n_rows,), an index into site_names; None: one site
+    site_names: tuple[str, ...] = ()
 
     @property
     def n_rows(self) -> int:
         return int(self.dates.size)
+
+    @property
+    def has_sites(self) -> bool:
+        """Whether the history came with a site column (even if it names one site only)."""
+        return self.site is not None
+
+    @property
+    def n_sites(self) -> int:
+        return max(1, len(self.site_names))
+
+    def for_site(self, index: int) -> "History":
+        """Site ``index``'s rows (its position in ``site_names``) as a history of its own.
+
+        The result has no ``site`` array and ``site_names == (name,)``; its arrays are those of
+        this history at the site's rows, so it equals the history of a file holding that site only.
+        """
+        if self.site is None:
+            if index != 0:
+                raise IndexError(f"a history without sites has site 0 only, not {index}")
+            return self
+        # rows are grouped by site in site order, so a site's rows are one slice (views, no copies)
+        rows = slice(*np.searchsorted(self.site, [index, index + 1]))
+        return dataclasses.replace(
+            self, dates=self.dates[rows], p=self.p[rows], event=self.event[rows],
+            evaluated=self.evaluated[rows], validation=self.validation[rows], season=self.season[rows],
+            day_of_season=self.day_of_season[rows], prev_event=self.prev_event[rows], warnings=(),
+            site=None, site_names=(self.site_names[index],))
 
     @property
     def n_evaluated(self) -> int:
@@ -156,6 +192,8 @@ def history_from_frame(frame: pd.DataFrame, scenario: Scenario, *, label: str = 
     """Check a frame as read from a file and build a :class:`History`.
 
     ``first_row`` is the number a user sees for the frame's first row (2 for a CSV with a header).
+    With ``[history] site_column`` the rows of each site are checked as a history of their own
+    (dates in order, enough events in each period) and grouped by site.
     """
     spec = scenario.history
     if len(frame) == 0:
@@ -166,13 +204,23 @@ def history_from_frame(frame: pd.DataFrame, scenario: Scenario, *, label: str = 
     where = _Where(label, first_row)
     for role, name in _required_columns(spec):
         if name not in columns:
-            raise InputError(f'{label}: no column "{name}" (the {role}){did_you_mean(name, columns)} '
-                             f"(the scenario's [history] {role}_column names the column to use)")
+            raise InputError(f'{label}: no column "{name}" (the {role}){did_you_mean(name, columns)}; '
+                             f"name it in the scenario's [history] {role}_column")
 
+    codes, site_names = None, ()
+    if spec.site_column is not None:
+        codes, site_names = _parse_sites(frame[spec.site_column], where, spec.site_column)
+        _check_site_tables(scenario, site_names, label, spec.site_column)
     dates = _parse_dates(frame[spec.date_column], where, spec.date_column)
-    _check_order(dates, where, spec.date_column)
+    _check_order(dates, where, spec.date_column, codes, site_names)
     p = _parse_probability(frame[spec.probability_column], where, spec.probability_column)
-    event, defined = _parse_outcome(frame, spec, where)
+    event, defined = _parse_outcome(frame, spec, where, codes)
+    first_of_site = np.zeros(len(frame), dtype=bool)
+    first_of_site[0] = True
+    if codes is not None:  # group the rows by site, keeping each site's rows in file (= date) order
+        order = np.argsort(codes, kind="stable")
+        codes, dates, p, event, defined = codes[order], dates[order], p[order], event[order], defined[order]
+        first_of_site[1:] = codes[1:] != codes[:-1]
 
     if scenario.event.flip:
         p = 1.0 - p
@@ -187,31 +235,93 @@ def history_from_frame(frame: pd.DataFrame, scenario: Scenario, *, label: str = 
     validation = np.zeros_like(evaluated)
     if spec.validation_from is not None:
         cut = np.datetime64(spec.validation_from, "D")
-        first, last = dates[evaluated][0], dates[evaluated][-1]
+        first, last = dates[evaluated].min(), dates[evaluated].max()
         if not (first < cut <= last):
             raise InputError(f"{_scenario_label(scenario)} [history] validation_from: "
                              f"{spec.validation_from} is outside the evaluated history "
                              f"({_as_date(first)} to {_as_date(last)}); pick a date inside it")
         validation = evaluated & (dates >= cut)
 
+    site_of = (lambda k: f'{label} site "{site_names[k]}"') if codes is not None else (lambda k: label)
+    n_sites = max(1, len(site_names))
+    site_rows = [np.ones(len(dates), dtype=bool)] if codes is None else [codes == k for k in range(n_sites)]
     periods = [("evaluated period", evaluated)]
     if validation.any():
         periods = [("training period", evaluated & ~validation), ("validation period", validation)]
     name = scenario.event.name
-    for period, mask in periods:
-        n_event = int(event[mask].sum())
-        n_non = int(mask.sum()) - n_event
-        for count, what in ((n_event, f'"{name}" occasions'), (n_non, f'occasions without "{name}"')):
-            if count < MIN_CLASS_COUNT:
-                raise InputError(f"{label}: the {period} has {count} {what}, fewer than "
-                                 f"{MIN_CLASS_COUNT}; use a longer history or a wider season")
+    for k, rows in enumerate(site_rows):
+        for period, mask in periods:
+            n_event = int(event[mask & rows].sum())
+            n_non = int((mask & rows).sum()) - n_event
+            for count, what in ((n_event, f'"{name}" occasions'), (n_non, f'occasions without "{name}"')):
+                if count < MIN_CLASS_COUNT:
+                    fix = "; use a longer history or a wider season"
+                    if codes is not None:
+                        fix += ", or leave the site out"
+                    raise InputError(f"{site_of(k)}: the {period} has {count} {what}, fewer than "
+                                     f"{MIN_CLASS_COUNT}{fix}")
 
-    prev_event = np.concatenate([[False], event[:-1]])
-    step = _typical_step(dates[evaluated], season[evaluated])
-    warnings = _gap_warnings(dates, evaluated, season, season_rule, step, label)
+    prev_event = np.concatenate([[False], event[:-1]]) & ~first_of_site
+    steps = [_typical_step(dates[evaluated & rows], season[evaluated & rows]) for rows in site_rows]
+    if len(set(steps)) > 1:
+        a = int(np.argmin(steps))
+        b = int(np.argmax(steps))
+        raise InputError(f'{label}: site "{site_names[a]}" has a forecast every {steps[a]} days and site '
+                         f'"{site_names[b]}" every {steps[b]}; give every site forecasts at the same spacing')
+    step = steps[0]
+    if codes is None:
+        warnings = _gap_warnings(dates, evaluated, season, season_rule, step, label)
+    else:
+        union, first = np.unique(dates[evaluated], return_index=True)
+        union_season = season[evaluated][first]
+        warnings = _gap_warnings(union, np.ones(union.size, dtype=bool), union_season, season_rule, step,
+                                 label)
+        warnings += _missing_site_dates(union, [dates[evaluated & rows] for rows in site_rows],
+                                        site_names, label)
     return History(label=label, sha256=sha256, dates=dates, p=p, event=event, evaluated=evaluated,
                    validation=validation, season=season, day_of_season=day_of_season,
-                   prev_event=prev_event, step_days=step, warnings=tuple(warnings))
+                   prev_event=prev_event, step_days=step, warnings=tuple(warnings),
+                   site=codes, site_names=tuple(site_names))
+
+
+MISSING_DATE_RULE = ("on such a date a replicate season gives the site its row of the nearest date in "
+                     "the same season (else of the same day in the nearest season it has)")
+"""How the joint replay treats a site without a row on a date that other sites have
+(:class:`~simulator.resample.Resampler`); quoted in the warning."""
+
+
+def _missing_site_dates(union: np.ndarray, site_dates: list[np.ndarray], names: tuple[str, ...],
+                        label: str) -> list[str]:
+    """One warning naming the sites that lack some of the dates other sites have."""
+    short = [(name, np.setdiff1d(union, own)) for name, own in zip(names, site_dates)]
+    short = [(name, missing) for name, missing in short if missing.size]
+    if not short:
+        return []
+    shown = "; ".join(f'"{name}" {missing.size} (from {_as_date(missing[0])})' for name, missing in short[:4])
+    more = f"; and {len(short) - 4} more sites" if len(short) > 4 else ""
+    return [f"{label}: {len(short)} of {len(names)} sites have no row on some of the {union.size} dates "
+            f"inside the season that other sites have ({shown}{more}); {MISSING_DATE_RULE}"]
+
+
+def _parse_sites(values: pd.Series, where: "_Where", column: str) -> tuple[np.ndarray, tuple[str, ...]]:
+    """Each row's site as an index into the site names, in order of first appearance."""
+    blank = _blank(values)
+    if blank.any():
+        raise where.error(np.flatnonzero(blank)[0], column, "the site is missing; name the site on every row")
+    codes, names = pd.factorize(values.astype(str).str.strip())
+    return codes.astype(np.int64), tuple(str(n) for n in names)
+
+
+def _check_site_tables(scenario: Scenario, names: tuple[str, ...], label: str, column: str) -> None:
+    """Every ``[sites."<name>"]`` table must name a site of the history."""
+    for key in scenario.sites:
+        if key in names:
+            continue
+        best = closest(key, names)
+        hint = (f'; did you mean "{best}"?' if best is not None else
+                "; its sites are " + ", ".join(f'"{n}"' for n in names[:5]) + (", ..." if len(names) > 5 else ""))
+        raise InputError(f'{_scenario_label(scenario)} [sites."{key}"]: {label} has no site of that name '
+                         f'(column "{column}"){hint}')
 
 
 @dataclass(frozen=True)
@@ -228,6 +338,8 @@ class _Where:
 
 def _required_columns(spec: HistorySection) -> list[tuple[str, str]]:
     out = [("date", spec.date_column), ("probability", spec.probability_column)]
+    if spec.site_column is not None:
+        out.append(("site", spec.site_column))
     if spec.value_column is not None:
         out.append(("value", spec.value_column))
     else:
@@ -257,12 +369,29 @@ def _parse_dates(values: pd.Series, where: _Where, column: str) -> np.ndarray:
     return parsed.to_numpy().astype("datetime64[D]")
 
 
-def _check_order(dates: np.ndarray, where: _Where, column: str) -> None:
+def _check_order(dates: np.ndarray, where: _Where, column: str, codes: np.ndarray | None = None,
+                 names: tuple[str, ...] = ()) -> None:
+    if codes is not None:
+        order = np.argsort(codes, kind="stable")  # each site's rows, in file order
+        same = codes[order][1:] == codes[order][:-1]
+        step = np.diff(dates[order]).astype(np.int64)
+        bad = same & (step <= 0)
+        if bad.any():
+            offenders = order[1:][bad]
+            j = int(np.argmin(offenders))
+            i, before = int(offenders[j]), int(order[:-1][bad][j])
+            site = f'site "{names[codes[i]]}"'
+            if dates[i] == dates[before]:
+                raise where.error(i, column, f"{_as_date(dates[i])} appears again for {site} (first at row "
+                                  f"{where.row(before)}); keep one row per site and date")
+            raise where.error(i, column, f"{_as_date(dates[i])} comes after {_as_date(dates[before])} for "
+                              f"{site}; sort each site's rows by date")
+        return
     step = np.diff(dates).astype(np.int64)
     if (step == 0).any():
         i = np.flatnonzero(step == 0)[0] + 1
         raise where.error(i, column, f"{_as_date(dates[i])} appears again (first at row {where.row(i - 1)}); "
-                          "keep one row per date")
+                          "keep one row per date (a file of many sites needs [history] site_column)")
     if (step < 0).any():
         i = np.flatnonzero(step < 0)[0] + 1
         raise where.error(i, column, f"{_as_date(dates[i])} comes after {_as_date(dates[i - 1])}; "
@@ -288,8 +417,12 @@ def _parse_probability(values: pd.Series, where: _Where, column: str) -> np.ndar
     return numbers
 
 
-def _parse_outcome(frame: pd.DataFrame, spec: HistorySection, where: _Where) -> tuple[np.ndarray, np.ndarray]:
-    """The event of what the probability describes (before flip), and where it is defined."""
+def _parse_outcome(frame: pd.DataFrame, spec: HistorySection, where: _Where,
+                   codes: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
+    """The event of what the probability describes (before flip), and where it is defined.
+
+    A direction of change compares each row with the previous row of the same site (``codes``).
+    """
     if spec.value_column is None:
         column = spec.outcome_source
         values = frame[column]
@@ -321,9 +454,16 @@ def _parse_outcome(frame: pd.DataFrame, spec: HistorySection, where: _Where) -> 
         # so the two sides are exact complements of each other.
         event = numbers >= spec.threshold if spec.side == "above" else numbers < spec.threshold
         return event, defined
-    change = np.diff(numbers, prepend=np.nan)
+    if codes is None:
+        change = np.diff(numbers, prepend=np.nan)
+        defined[0] = False  # the first occasion has no previous one to compare with
+    else:
+        order = np.argsort(codes, kind="stable")
+        change = np.empty_like(numbers)
+        change[order] = np.diff(numbers[order], prepend=np.nan)
+        first = np.r_[True, codes[order][1:] != codes[order][:-1]]
+        defined[order[first]] = False  # each site's first occasion
     event = change > 0 if spec.direction == "up" else change < 0
-    defined[0] = False  # the first occasion has no previous one to compare with
     return event, defined
 
 

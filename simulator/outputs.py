@@ -1,4 +1,5 @@
-"""Files out: ``summary.json``, ``cutoffs.csv`` and the tables beside them.
+"""Files out: ``summary.json``, ``cutoffs.csv`` and the tables beside them (``sites.csv`` with a
+site column).
 
 Everything is rendered in memory first and then written file by file to a temporary name and
 renamed, so a crash never leaves a half-written file; a folder that already holds files is only
@@ -93,6 +94,8 @@ def summary(result: RunResult) -> dict[str, Any]:
         out["calibration"] = _calibration_entry(result.calibration)
     if result.selection is not None:  # a validation split or walk-forward
         out["selection"] = _selection_entry(result.selection)
+    if result.portfolio is not None:  # a site column: the run's numbers above are the portfolio's
+        out["portfolio"] = _portfolio_entry(result)
     return _clean(out)
 
 
@@ -113,6 +116,8 @@ def render_files(result: RunResult) -> dict[str, bytes]:
         files["calibration.csv"] = _csv(result.calibration.table)
     if result.selection is not None:
         files["selection.csv"] = _csv(_selection_frame(result.selection))
+    if result.portfolio is not None:
+        files["sites.csv"] = _csv(result.portfolio.table)
     files.update(render_report(result, contents))
     return files
 
@@ -257,3 +262,51 @@ def _selection_frame(sel: Selection) -> pd.DataFrame:
             rows += [{"check": "walk-forward", **dataclasses.asdict(s.training), "flag": None},
                      {"check": "walk-forward", **dataclasses.asdict(s.priced), "flag": s.flag}]
     return pd.DataFrame(rows)
+
+
+# ------------------------------------------------------------------------------------------------
+# many sites
+
+def _portfolio_entry(result: RunResult) -> dict[str, Any]:
+    """The ``portfolio`` block of ``summary.json``.
+
+    Keys: ``site_column``, ``sites`` (how many); ``common_cutoff`` (the one cutoff for every site
+    with the lowest mean total: the run's ``recommended_cutoff``); ``total_cost`` with each site at
+    its own recommended cutoff (``own_cutoffs``), all at the common cutoff (``common_cutoff``) and
+    under the reference rule (``reference``), each mean, p05, p50, p95 of the season total;
+    ``savings`` of the first two against the reference (mean, p05, p95, prob_saving);
+    ``own_versus_common``: what the sites' own cutoffs save against the common one (mean) and in how
+    many seasons they are cheaper (prob_cheaper); ``spread``: the standard deviation of the season
+    total at the own cutoffs, and what it would be if the sites' seasons were independent (the sum
+    of their variances), which understates it when sites suffer the same weather; ``ranking``: the
+    sites by the value of acting on the forecast (mean season cost of the cheaper of never and
+    always acting minus that at the site's cutoff), highest first.
+    """
+    from .decision import distribution
+
+    portfolio = result.portfolio
+    reference = portfolio.reference_cost
+
+    def savings(cost: np.ndarray) -> dict[str, float]:
+        saved = reference - cost
+        p05, p95 = np.quantile(saved, [0.05, 0.95])
+        return {"mean": float(saved.mean()), "p05": float(p05), "p95": float(p95),
+                "prob_saving": float((saved > 0).mean())}
+
+    own, common = portfolio.own_cost, portfolio.common_cost
+    independent = math.sqrt(sum(float(site.model_cost.var(ddof=1)) for site in portfolio.sites))
+    return {
+        "site_column": portfolio.site_column,
+        "sites": len(portfolio.sites),
+        "common_cutoff": portfolio.common_cutoff,
+        "total_cost": {"own_cutoffs": distribution(own).as_dict(),
+                       "common_cutoff": distribution(common).as_dict(),
+                       "reference": distribution(reference).as_dict()},
+        "savings": {"own_cutoffs": savings(own), "common_cutoff": savings(common)},
+        "own_versus_common": {"mean": float((common - own).mean()), "prob_cheaper": float((own < common).mean())},
+        "spread": {"sd_total_cost": float(own.std(ddof=1)), "sd_if_independent": independent},
+        "ranking": [{"rank": i + 1, "site": site.name, "forecast_value": site.forecast_value,
+                     "recommended_cutoff": site.decision.recommended_cutoff,
+                     "mean_savings": site.decision.savings.mean, "prob_saving": site.decision.prob_saving}
+                    for i, site in enumerate(portfolio.ranking)],
+    }

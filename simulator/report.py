@@ -7,7 +7,8 @@ swaps in strings prepared here, so the page, ``summary.json`` and ``cutoffs.csv`
 in rounding. Without JavaScript the page shows everything at the recommended cutoff.
 
 Stress tests and operating rules get their sections only when the run has them (``summary["stress"]``
-or ``result.stress``; ``summary["operations"]`` or ``result.operations``).
+or ``result.stress``; ``summary["operations"]`` or ``result.operations``), and so does a portfolio of
+more than one site (``summary["portfolio"]``).
 """
 
 from __future__ import annotations
@@ -315,6 +316,37 @@ def _rules_read_back(scenario) -> list[tuple[str, list[tuple[str, str]]]]:
     return rows
 
 
+PORTFOLIO_ROWS = 25  # sites the report's ranking shows; sites.csv has them all
+
+
+def _portfolio(summary: Mapping[str, Any], currency: str, decimals: int) -> dict[str, Any] | None:
+    """The portfolio of a run with more than one site (``summary["portfolio"]``), for display."""
+    p = summary.get("portfolio")
+    if not p or p["sites"] < 2:
+        return None
+    totals, savings = p["total_cost"], p["savings"]
+    rows = []
+    for label, key in (("Each site at its own cutoff", "own_cutoffs"),
+                       (f"One cutoff for all sites, {cutoff_text(p['common_cutoff'], decimals)}", "common_cutoff"),
+                       ("The reference rule at every site", "reference")):
+        t, sv = totals[key], savings.get(key)
+        rows.append({"label": label, "mean": money(t["mean"], currency),
+                     "range": f"{money(t['p05'], currency)} to {money(t['p95'], currency)}",
+                     "saving": money(sv["mean"], currency) if sv else "\u2013",
+                     "prob_saving": share(sv["prob_saving"]) if sv else "\u2013"})
+    ranking = [{"rank": r["rank"], "site": r["site"], "cutoff": cutoff_text(r["recommended_cutoff"], decimals),
+                "value": money(r["forecast_value"], currency), "saving": money(r["mean_savings"], currency),
+                "prob_saving": share(r["prob_saving"])} for r in p["ranking"][:PORTFOLIO_ROWS]]
+    spread = p["spread"]
+    return {"n": p["sites"], "column": p["site_column"], "rows": rows, "ranking": ranking,
+            "more": max(0, p["sites"] - PORTFOLIO_ROWS),
+            "own_gain": money(p["own_versus_common"]["mean"], currency),
+            "own_cheaper": share(p["own_versus_common"]["prob_cheaper"]),
+            "sd": money(spread["sd_total_cost"], currency),
+            "understated": spread["sd_if_independent"] < spread["sd_total_cost"],
+            "sd_independent": money(spread["sd_if_independent"], currency)}
+
+
 def render_report(result, summary: Mapping[str, Any]) -> dict[str, bytes]:
     """``report.html`` and ``figures/<name>.png``, rendered in memory from a run and its summary."""
     scenario, history, decision, table = result.scenario, result.history, result.decision, result.table
@@ -397,6 +429,7 @@ def render_report(result, summary: Mapping[str, Any]) -> dict[str, bytes]:
         "honest": (summary.get("selection") or {}).get("validation"),
         "forward": (summary.get("selection") or {}).get("walk_forward"),
         "calibration": summary.get("calibration"),
+        "portfolio": _portfolio(summary, currency, decimals),
     }
     html = _ENV.get_template("report.html.j2").render(context)
     files = {"report.html": html.encode("utf-8")}

@@ -15,6 +15,14 @@ and a new run starts (a season's end is not followed by its start).
 Replicates are made in fixed blocks of :data:`BLOCK` seeded from ``SeedSequence(seed,
 spawn_key=(block,))``, so a replicate's draws depend only on the seed and its number, never on how
 many replicates are asked for or how the work is split between chunks or workers.
+
+Many sites are replayed jointly: the runs are drawn over the calendar of dates that any site has
+(the union of their evaluated dates), and each replicate occasion then takes every site's row of
+the drawn date, so weather that struck several sites on one day strikes them together in the
+replicates too. A site with no row on a drawn date takes its row of the nearest date in the same
+season (ties to the earlier), or, when it has no row in that season at all, of the nearest day of
+the nearest season it has (:data:`~simulator.history.MISSING_DATE_RULE`; the history warns). A site
+whose dates are all the dates is replayed exactly as it would be alone.
 """
 
 from __future__ import annotations
@@ -30,7 +38,7 @@ import pandas as pd
 from .history import History, season_start_month
 from .scenario import SeasonSection
 
-__all__ = ["BLOCK", "Calendar", "Resampler", "season_calendar", "block_rng"]
+__all__ = ["BLOCK", "Calendar", "Resampler", "season_calendar", "block_rng", "n_blocks"]
 
 BLOCK = 500  # replicates per seeded block; part of the reproducibility contract, never change lightly
 
@@ -65,13 +73,62 @@ def season_calendar(history: History, rule: SeasonSection) -> Calendar:
     return Calendar(year=year, dates=dates, day_of_season=(dates - first).astype(np.int64))
 
 
+def n_blocks(n_replicates: int) -> int:
+    """Seeded blocks that hold ``n_replicates`` replicates (the last one cut to size)."""
+    return -(-int(n_replicates) // BLOCK)
+
+
 def block_rng(seed: int, block: int, *stream: int) -> np.random.Generator:
     """The generator of one block of replicates; ``stream`` separates independent uses."""
     return np.random.default_rng(np.random.SeedSequence(seed, spawn_key=(*stream, block)))
 
 
+@dataclass(frozen=True)
+class _Dates:
+    """The dates runs are drawn over: a single site's history rows, or the joint dates of many."""
+
+    n_rows: int
+    evaluated: np.ndarray  # bool
+    season: np.ndarray  # int64
+    day_of_season: np.ndarray  # int64
+    step_days: int
+
+
+def _joint_dates(history: History) -> tuple[_Dates, np.ndarray]:
+    """The union of the sites' evaluated dates, and each site's row for each of them.
+
+    Returns the dates (all evaluated) and an int64 array (n_sites, n_dates) of row indices into
+    each site's own history (:meth:`History.for_site`), by the rule in the module docstring.
+    """
+    ev = history.evaluated
+    dates, first = np.unique(history.dates[ev], return_index=True)
+    season, day = history.season[ev][first], history.day_of_season[ev][first]
+    joint = _Dates(n_rows=int(dates.size), evaluated=np.ones(dates.size, dtype=bool), season=season,
+                   day_of_season=day, step_days=history.step_days)
+    site_rows = np.empty((history.n_sites, dates.size), dtype=np.int64)
+    span = int(history.day_of_season.max()) + 1  # keys season * span + day order rows by date
+    for k in range(history.n_sites):
+        own = history.for_site(k)
+        rows = np.flatnonzero(own.evaluated)
+        own_season, own_day = own.season[rows], own.day_of_season[rows]
+        seasons = np.unique(own_season)
+        j = np.searchsorted(seasons, season)
+        left, right = seasons[np.maximum(j - 1, 0)], seasons[np.minimum(j, seasons.size - 1)]
+        target = np.where(np.abs(season - left) <= np.abs(right - season), left, right)
+        key, want = own_season * span + own_day, target * span + day
+        right_i = np.minimum(np.searchsorted(key, want), key.size - 1)
+        left_i = np.maximum(right_i - 1, 0)
+        left_ok, right_ok = own_season[left_i] == target, own_season[right_i] == target
+        take_left = left_ok & (~right_ok | (want - key[left_i] <= key[right_i] - want))
+        site_rows[k] = rows[np.where(take_left, left_i, right_i)]
+    return joint, site_rows
+
+
 class Resampler:
     """Draws replicate seasons as row indices into the history, shape (n_replicates, n_occasions).
+
+    With a history of many sites the rows drawn index the joint dates, and :meth:`site_rows` turns
+    them into each site's rows (see the module docstring); with one site they are history rows.
 
     Parameters
     ----------
@@ -97,13 +154,20 @@ class Resampler:
         self.calendar = calendar
         self.mean_block = float(mean_block)
         self.window_days = int(window_days)
-        rows = np.flatnonzero(history.evaluated)
-        self._rows = rows  # compressed position -> history row
-        self._season = history.season[rows]
+        if history.has_sites:
+            dates, self._site_rows = _joint_dates(history)
+        else:
+            dates = _Dates(history.n_rows, history.evaluated, history.season, history.day_of_season,
+                           history.step_days)
+            self._site_rows = None
+        self._n_rows = dates.n_rows
+        rows = np.flatnonzero(dates.evaluated)
+        self._rows = rows  # compressed position -> history row (joint date with many sites)
+        self._season = dates.season[rows]
         labels, self._season_k = np.unique(self._season, return_inverse=True)
-        day = history.day_of_season[rows]
+        day = dates.day_of_season[rows]
         n_days = 367 + self.window_days
-        tolerance = max(history.step_days, 3)
+        tolerance = max(dates.step_days, 3)
         n_seasons = labels.size
         nearest = np.zeros((n_seasons, n_days), dtype=np.int64)
         distance = np.zeros((n_seasons, n_days), dtype=np.int64)
@@ -143,8 +207,8 @@ class Resampler:
     def _cumulative_weights(self, start_weights: np.ndarray) -> np.ndarray:
         """(n_days, n_seasons) running sums of the start weights over each day's eligible seasons."""
         w = np.asarray(start_weights, dtype=np.float64)
-        if w.shape != (self.history.n_rows,) or not (np.all(np.isfinite(w)) and np.all(w > 0)):
-            raise ValueError(f"start_weights must be {self.history.n_rows} positive finite numbers")
+        if w.shape != (self._n_rows,) or not (np.all(np.isfinite(w)) and np.all(w > 0)):
+            raise ValueError(f"start_weights must be {self._n_rows} positive finite numbers")
         days = np.arange(self._n_days)[:, None]
         start_row = self._rows[self._nearest[self._eligible, days]]  # (n_days, n_seasons)
         in_window = np.arange(self._eligible.shape[1])[None, :] < self._n_eligible[:, None]
@@ -153,6 +217,23 @@ class Resampler:
     @property
     def n_occasions(self) -> int:
         return self.calendar.n_occasions
+
+    @property
+    def n_sites(self) -> int:
+        return 1 if self._site_rows is None else int(self._site_rows.shape[0])
+
+    @property
+    def n_dates(self) -> int:
+        """How many rows :meth:`draw` indexes: history rows, or joint dates with many sites."""
+        return self._n_rows
+
+    def site_rows(self, rows: np.ndarray, site: int) -> np.ndarray:
+        """Rows drawn by :meth:`draw` as rows of site ``site``'s own history (``history.for_site``)."""
+        if self._site_rows is None:
+            if site != 0:
+                raise IndexError(f"a history without sites has site 0 only, not {site}")
+            return rows
+        return self._site_rows[site][rows]
 
     def draw_block(self, seed: int, block: int, *stream: int) -> np.ndarray:
         """Row indices of the :data:`BLOCK` replicates of one seeded block, (BLOCK, n_occasions)."""
@@ -219,7 +300,6 @@ class Resampler:
 
     def blocks(self, seed: int, n_replicates: int, *stream: int) -> Iterator[np.ndarray]:
         """The replicates 0..n_replicates-1 block by block (the last block cut to size)."""
-        n_blocks = -(-n_replicates // BLOCK)
-        for b in range(n_blocks):
+        for b in range(n_blocks(n_replicates)):
             rows = self.draw_block(seed, b, *stream)
             yield rows[: min(BLOCK, n_replicates - b * BLOCK)]

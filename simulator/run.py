@@ -2,11 +2,23 @@
 
 ``run(scenario)`` reads the history, draws the replicate seasons, prices every strategy on them, and
 returns a :class:`RunResult` holding numbers only (no files are written here; see ``outputs.py``).
+
+The pricing is cut into tasks, each a fixed chunk of :data:`CHUNK_BLOCKS` seeded replicate blocks
+for a group of sites, and run by an executor of :mod:`simulator.parallel` (this process, local
+worker processes or a Dask cluster). A task returns the season costs of its replicates; they are
+put together site by site in block order, so the results are the same bytes whatever runs them.
+
+With a site column the history holds many sites, replayed jointly (:class:`Resampler`). Each site
+is priced with its own costs and operating rules and gets its own decision (:class:`SiteResult`);
+the run's own numbers (``model_cost``, ``decision``, ``table``: what ``summary.json`` and
+``cutoffs.csv`` hold) are then those of the portfolio under one common cutoff, the total over all
+sites, and :class:`Portfolio` sets each site's own cutoff beside it.
 """
 
 from __future__ import annotations
 
 import dataclasses
+import uuid
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -16,29 +28,115 @@ import pandas as pd
 
 from . import scoring
 from .blocklength import optimal_block_length
-from .costs import SeasonPricer, occasion_costs, price
+from .costs import PricedBlock, SeasonPricer, occasion_costs, price
 from .decision import Decision, Distribution, decide, distribution, per_cutoff
 from .errors import InputError
 from .history import History, read_history
-from .operations import OperationsResult, UserProcess
+from .operations import OperationsResult, UserProcess, make_rules
 from .operations_fast import OperationsPricer
-from .resample import Calendar, Resampler, block_rng, season_calendar
-from .scenario import BASELINES, Scenario, break_even_probability, cost_warnings
+from .parallel import open_executor, prepare
+from .resample import BLOCK, Calendar, Resampler, block_rng, n_blocks, season_calendar
+from .scenario import BASELINES, Costs, Scenario, break_even_probability, cost_warnings, read_scenario
 from .scoring import Contingency
 from .selection import Calibration, Selection, calibrate, select_honestly
 from .stress import ReplicatePricer, StressResult, run_stress
 
-__all__ = ["run", "RunResult", "Progress"]
+__all__ = ["run", "run_history", "RunResult", "SiteResult", "Portfolio", "Progress", "CHUNK_BLOCKS"]
 
 Progress = Callable[[str, int, int], None]
 """progress(step, done, total): called as work advances; ``cli.py`` turns it into a bar."""
 
 _INTERVAL_STREAM = 1  # seed stream of the bootstrap histories behind the cutoff interval
+CHUNK_BLOCKS = 2  # seeded blocks of replicates per task; results never depend on it
+INLINE_BELOW = 20_000  # site-replicate seasons (x10 with operating rules) not worth sharing out
+MAX_GROUP = 16  # sites priced together on the same draws in one task
+SUM_GROUP = 16  # sites whose costs are added together before the groups' sums (fixes the sum's order)
+TASKS_PER_WORKER = 4  # aim for at least this many tasks per worker, for balance
+
+
+@dataclass(frozen=True)
+class SiteResult:
+    """One site of a run with many sites: its own costs and rules, decision and cutoff table.
+
+    ``model_cost`` is the site's season cost at its own recommended cutoff and ``baseline_cost``
+    that of each baseline, each (n_replicates,), on the replicates every site shares (the joint
+    replay); ``table`` has the columns of ``cutoffs.csv`` for this site alone. ``missing_dates``
+    counts the joint dates the site has no row on (see :mod:`simulator.resample`). ``operations`` is
+    the ``operations`` block of a single-site ``summary.json`` for this site, when it has rules.
+    """
+
+    name: str
+    scenario: Scenario
+    history: History
+    theoretical_cutoff: float
+    decision: Decision
+    table: pd.DataFrame
+    quality: dict[str, float]
+    model_cost: np.ndarray
+    baseline_cost: dict[str, np.ndarray]
+    missing_dates: int
+    operations: dict | None = None
+    warnings: tuple[str, ...] = field(default=())
+
+    @property
+    def reference(self) -> str:
+        return self.scenario.simulation.reference
+
+    @property
+    def strategies(self) -> dict[str, Distribution]:
+        """Season cost distribution of the site at its recommended cutoff (``model``) and of each baseline."""
+        out = {"model": distribution(self.model_cost)}
+        out.update({name: distribution(cost) for name, cost in self.baseline_cost.items()})
+        return out
+
+    @property
+    def forecast_value(self) -> float:
+        """Mean season cost of the cheaper fixed rule (never act or always act, the best one can do
+        knowing only the climate) minus that of acting on the forecast at the recommended cutoff:
+        the value of the forecast in money, E_climate - E_forecast of Richardson (2000), "Skill and
+        relative economic value of the ECMWF ensemble prediction system", QJRMS 126, 649-667."""
+        climate = min(float(self.baseline_cost["never_act"].mean()),
+                      float(self.baseline_cost["always_act"].mean()))
+        return climate - float(self.model_cost.mean())
+
+
+@dataclass(frozen=True)
+class Portfolio:
+    """All sites together: the total season cost with each site at its own recommended cutoff,
+    beside the run's common cutoff (the one cutoff for all sites with the lowest mean total).
+
+    ``own_cost``, ``common_cost`` and ``reference_cost`` are totals over the sites, each
+    (n_replicates,). ``table`` is ``sites.csv``: one row per site in the order of the history.
+    """
+
+    site_column: str
+    sites: tuple[SiteResult, ...]
+    common_cutoff: float
+    own_cost: np.ndarray
+    common_cost: np.ndarray
+    reference_cost: np.ndarray
+    table: pd.DataFrame
+
+    @property
+    def ranking(self) -> list[SiteResult]:
+        """Sites by the value of acting on the forecast (:attr:`SiteResult.forecast_value`), highest first."""
+        return sorted(self.sites, key=lambda site: -site.forecast_value)
+
+    def site(self, name: str) -> SiteResult:
+        for site in self.sites:
+            if site.name == name:
+                return site
+        raise KeyError(name)
 
 
 @dataclass(frozen=True)
 class RunResult:
-    """Everything a run computed. Arrays over replicates are kept for figures and later analysis."""
+    """Everything a run computed. Arrays over replicates are kept for figures and later analysis.
+
+    With many sites the run's numbers are those of the portfolio under one common cutoff (totals
+    over the sites; ``table`` pools the sites' classification counts), and ``portfolio`` holds each
+    site's own results; ``operations``, ``stress``, ``calibration`` and ``selection`` are then None.
+    """
 
     scenario: Scenario
     history: History
@@ -62,6 +160,8 @@ class RunResult:
     stress: tuple[StressResult, ...] | None = None
     calibration: Calibration | None = None
     selection: Selection | None = None
+    # with a site column: every site's own results and the portfolio's
+    portfolio: Portfolio | None = None
 
     @property
     def reference(self) -> str:
@@ -78,35 +178,60 @@ class RunResult:
     def recommended_counts(self) -> pd.Series:
         return self.table.iloc[self.decision.recommended_index]
 
+    @property
+    def sites(self) -> tuple[SiteResult, ...]:
+        """Each site's results (empty without a site column)."""
+        return () if self.portfolio is None else self.portfolio.sites
 
-def run(scenario: Scenario, history_path: str | Path | None = None, *, replicates: int | None = None,
-        seed: int | None = None, progress: Progress | None = None,
-        processes: Sequence[UserProcess] = (), walk_forward: bool | None = None) -> RunResult:
+    def summary(self) -> dict:
+        """The contents of ``summary.json``, as plain Python values."""
+        from .outputs import summary
+
+        return summary(self)
+
+
+def run(scenario: Scenario | str | Path, history_path: str | Path | None = None, *,
+        replicates: int | None = None, seed: int | None = None, progress: Progress | None = None,
+        processes: Sequence[UserProcess] = (), walk_forward: bool | None = None,
+        workers: int | None = 1, cluster=None) -> RunResult:
     """Replay the history under every cutoff and price each replicate season.
 
     Parameters
     ----------
-    scenario : a validated :class:`~simulator.scenario.Scenario`.
+    scenario : a validated :class:`~simulator.scenario.Scenario`, or the path of a scenario file.
     history_path : overrides the scenario's ``[history] path``.
     replicates, seed : override ``[simulation]``.
     progress : optional callback ``progress(step, done, total)``.
     processes : user-written simpy processes added to the ``[operations]`` rules (see
-        :class:`simulator.operations.Site`); every season is then played by the simpy model (slow).
+        :class:`simulator.operations.Site`); every season is then played by the simpy model (slow)
+        in this process, or on the cluster when one is given.
     walk_forward : choose the cutoff season by season on earlier seasons and price the next
         (default: the scenario's ``[simulation] walk_forward``).
+    workers : local worker processes for the replicate seasons (None: every core; the command line's
+        default). Runs too small to be worth it stay in this process. Results never depend on it.
+    cluster : the address of an existing Dask scheduler (``"tcp://host:8786"``) or a
+        ``distributed.Client``; the replicate seasons are then priced there.
     """
+    if not isinstance(scenario, Scenario):
+        scenario = read_scenario(scenario)
+    prepare(workers, cluster)  # worker processes get ready while the history is read
     history = read_history(scenario, history_path)
     return run_history(scenario, history, replicates=replicates, seed=seed, progress=progress,
-                       processes=processes, walk_forward=walk_forward)
+                       processes=processes, walk_forward=walk_forward, workers=workers, cluster=cluster)
 
 
 def run_history(scenario: Scenario, history: History, *, replicates: int | None = None,
                 seed: int | None = None, progress: Progress | None = None,
-                processes: Sequence[UserProcess] = (), walk_forward: bool | None = None) -> RunResult:
-    """As :func:`run`, on a history already read."""
+                processes: Sequence[UserProcess] = (), walk_forward: bool | None = None,
+                workers: int | None = 1, cluster=None) -> RunResult:
+    """As :func:`run`, on a history already read (:func:`~simulator.history.read_history`, or
+    :func:`~simulator.history.history_from_frame` for a data frame)."""
     sim = scenario.simulation
     replicates = sim.replicates if replicates is None else int(replicates)
     seed = sim.seed if seed is None else int(seed)
+    if history.has_sites:
+        return _run_sites(scenario, history, replicates=replicates, seed=seed, progress=progress,
+                          processes=processes, walk_forward=walk_forward, workers=workers, cluster=cluster)
     costs = scenario.costs
     cutoffs = scenario.cutoffs
     p_star = break_even_probability(costs)
@@ -118,36 +243,27 @@ def run_history(scenario: Scenario, history: History, *, replicates: int | None 
     if calibration is not None and scenario.operations is not None:
         raise InputError(f"{_label(scenario)} [simulation] mode: \"calibrated\" does not work with "
                          '[operations] yet; use mode = "replay"')
-    if calibration is not None:  # outcomes drawn afresh from the recalibrated probabilities
-        pricer = ReplicatePricer(history, cutoffs, costs, seed=seed,
-                                 outcome_probability=calibration.probability)
-    elif scenario.operations is not None:  # the rules played day by day
-        pricer = OperationsPricer(history, calendar, cutoffs, scenario, processes)
-    else:
-        pricer = SeasonPricer(history, cutoffs, costs)
-    model_parts, baseline_parts, extras_parts = [], [], []
-    done = 0
-    for b, rows in enumerate(resampler.blocks(seed, replicates)):
-        block = pricer(rows, b) if calibration is not None else pricer(rows)
-        model_parts.append(block.model)
-        baseline_parts.append(block.baselines)
-        extras_parts.append(block.extras)
-        done += rows.shape[0]
-        if progress is not None:
-            progress("replicate seasons", done, replicates)
-    model_cost = np.concatenate(model_parts)
-    baseline_matrix = np.concatenate(baseline_parts)
-    baseline_cost = {name: baseline_matrix[:, i] for i, name in enumerate(BASELINES)}
-    extras = {key: np.concatenate([part[key] for part in extras_parts]) for key in extras_parts[0]}
+    work = _Work(resampler=resampler, scenarios=(scenario,), cutoffs=cutoffs, seed=seed,
+                 replicates=replicates, processes=tuple(processes),
+                 outcome_probability=None if calibration is None else calibration.probability)
+    try:
+        rules = _pricer(work, 0).rules if scenario.operations is not None else None  # checks them
+        priced: dict[int, PricedBlock] = {}
+        _price_all(work, lambda k, block: priced.__setitem__(k, block), None, progress, workers, cluster)
+    finally:
+        _forget(work)
+    block = priced[0]
+    model_cost = block.model
+    baseline_cost = {name: block.baselines[:, i] for i, name in enumerate(BASELINES)}
     operations = None
     if scenario.operations is not None:
-        operations = OperationsResult(rules=pricer.rules, n_cutoffs=cutoffs.size, extras=extras,
+        operations = OperationsResult(rules=rules, n_cutoffs=cutoffs.size, extras=block.extras,
                                       section=scenario.operations)
 
     seasons_per_history = max(1, round(history.n_evaluated / calendar.n_occasions))
     decision = decide(model_cost, baseline_cost[sim.reference], cutoffs, seasons_per_history,
                       block_rng(seed, 0, _INTERVAL_STREAM))
-    table = _cutoff_table(history, scenario, cutoffs, p_star, model_cost, baseline_cost[sim.reference])
+    table = _cutoff_table([(history, costs)], cutoffs, p_star, model_cost, baseline_cost[sim.reference])
     if operations is not None:
         table = pd.concat([table, pd.DataFrame(operations.per_cutoff())], axis=1)
     quality = _quality(history)
@@ -177,6 +293,377 @@ def run_history(scenario: Scenario, history: History, *, replicates: int | None 
                      selection=selection)
 
 
+# ------------------------------------------------------------------------------------------------
+# many sites
+
+def _run_sites(scenario: Scenario, history: History, *, replicates: int, seed: int,
+               progress: Progress | None, processes: Sequence[UserProcess], walk_forward: bool | None,
+               workers: int | None, cluster) -> RunResult:
+    """A run with a site column: every site priced on the joint replicates, then the portfolio."""
+    sim = scenario.simulation
+    label = _label(scenario)
+    if sim.mode == "calibrated":
+        raise InputError(f'{label} [simulation] mode: "calibrated" draws each site\'s outcomes on its own '
+                         'and would break the sites\' joint weather; use mode = "replay" with a site column')
+    names = history.site_names
+    scenarios = tuple(scenario.for_site(name) for name in names)
+    cutoffs = scenario.cutoffs
+    calendar = season_calendar(history, scenario.season)
+    mean_block = _joint_mean_block(history, scenarios)
+    resampler = Resampler(history, calendar, mean_block, sim.window_days)
+    work = _Work(resampler=resampler, scenarios=scenarios, cutoffs=cutoffs, seed=seed,
+                 replicates=replicates, processes=tuple(processes), outcome_probability=None)
+    total = _Totals(len(names))
+    results: dict[int, SiteResult] = {}
+
+    try:
+        checked = False
+        for k, site_scenario in enumerate(scenarios):  # the rules of every site, checked before work
+            if site_scenario.operations is not None:
+                if not checked:  # what every site's rules need of the history
+                    _pricer(work, k)
+                    checked = True
+                make_rules(site_scenario.operations, calendar.dates, site_scenario.season.weekdays,
+                           f'{label} [sites."{names[k]}"]')
+        _price_all(work, None, (results, total), progress, workers, cluster)
+    finally:
+        _forget(work)
+    joint_dates = resampler.n_dates
+
+    sites = tuple(results[k] for k in range(len(names)))
+    reference = sim.reference
+    model_cost, baseline_matrix = total.model, total.baselines
+    baseline_cost = {name: baseline_matrix[:, i] for i, name in enumerate(BASELINES)}
+    stars = {break_even_probability(s.costs) for s in scenarios}
+    p_star = stars.pop() if len(stars) == 1 else float("nan")
+    seasons_per_history = max(1, round(joint_dates / calendar.n_occasions))
+    decision = decide(model_cost, baseline_cost[reference], cutoffs, seasons_per_history,
+                      block_rng(seed, 0, _INTERVAL_STREAM))
+    parts = [(site.history, site.scenario.costs) for site in sites]
+    table = _cutoff_table(parts, cutoffs, p_star, model_cost, baseline_cost[reference])
+    own_cost = sites[0].model_cost.copy()
+    for site in sites[1:]:
+        own_cost += site.model_cost
+    common = decision.recommended_index
+    portfolio = Portfolio(site_column=str(scenario.history.site_column), sites=sites,
+                          common_cutoff=float(cutoffs[common]), own_cost=own_cost,
+                          common_cost=model_cost[:, common], reference_cost=baseline_cost[reference],
+                          table=_sites_table(sites, common))
+
+    warnings = list(history.warnings)
+    if any(site.scenario.costs == scenario.costs for site in sites):
+        warnings += cost_warnings(scenario.costs, scenario.decision.action)
+    for site in sites:  # the warnings of sites with costs of their own
+        if site.scenario.costs != scenario.costs:
+            warnings += site.warnings
+    if scenario.stress:
+        warnings.append(f"{label} [[stress]]: stress cases are priced for one site at a time; they were "
+                        "skipped (run a site alone to stress it)")
+    if history.has_validation or (sim.walk_forward if walk_forward is None else walk_forward):
+        warnings.append(f"{label}: the check of the cutoff on a validation period or walk-forward is made "
+                        "for one site at a time and was skipped (run a site alone to see it); the "
+                        "training_ and validation_ columns of the tables are kept")
+    return RunResult(scenario=scenario, history=history, calendar=calendar, cutoffs=cutoffs,
+                     replicates=replicates, seed=seed, mean_block_days=mean_block * history.step_days,
+                     theoretical_cutoff=p_star, decision=decision, model_cost=model_cost,
+                     baseline_cost=baseline_cost, table=table, quality=_quality(history),
+                     value_curve=_value_curve(history, cutoffs),
+                     reliability=_frame(scoring.reliability_table(history.p[history.evaluated],
+                                                                  history.event[history.evaluated])),
+                     warnings=tuple(warnings), portfolio=portfolio)
+
+
+class _Totals:
+    """The portfolio's season costs: the sites' costs added in a fixed order, whatever order they
+    arrive in, so the floating-point sums are the same bytes every time.
+
+    The order: sites are added one after the other within each group of :data:`SUM_GROUP`
+    consecutive sites (a task that prices a whole group adds them itself and sends the group's sum),
+    then the groups' sums one after the other. Only sites and groups not yet added are held.
+    """
+
+    def __init__(self, n_sites: int):
+        self.model: np.ndarray | None = None
+        self.baselines: np.ndarray | None = None
+        self._n_sites = n_sites
+        self._groups: dict[int, list] = {}  # group -> [next site, model sum, baselines sum, waiting]
+        self._next_group = 0
+        self._waiting_groups: dict[int, tuple[np.ndarray, np.ndarray]] = {}
+
+    def add_site(self, k: int, model: np.ndarray, baselines: np.ndarray) -> None:
+        g = k // SUM_GROUP
+        state = self._groups.setdefault(g, [g * SUM_GROUP, None, None, {}])
+        state[3][k] = (model, baselines)
+        while state[0] in state[3]:
+            model, baselines = state[3].pop(state[0])
+            state[1], state[2] = _added(state[1], model), _added(state[2], baselines)
+            state[0] += 1
+        if state[0] == min((g + 1) * SUM_GROUP, self._n_sites):
+            del self._groups[g]
+            self.add_group(g, state[1], state[2])
+
+    def add_group(self, g: int, model: np.ndarray, baselines: np.ndarray) -> None:
+        self._waiting_groups[g] = (model, baselines)
+        while self._next_group in self._waiting_groups:
+            model, baselines = self._waiting_groups.pop(self._next_group)
+            self.model, self.baselines = _added(self.model, model), _added(self.baselines, baselines)
+            self._next_group += 1
+
+
+def _added(total: np.ndarray | None, part: np.ndarray) -> np.ndarray:
+    """``total + part`` in place, or a copy of ``part`` to start with."""
+    if total is None:
+        return part.copy()
+    total += part
+    return total
+
+
+def _site_result(work: "_Work", k: int, block: PricedBlock) -> SiteResult:
+    """One site's decision, cutoff table and costs from its replicates' season costs (made where
+    the site was priced, so only its results travel back)."""
+    scenario = work.scenarios[k]
+    history = work.resampler.history.for_site(k)
+    cutoffs, sim = work.cutoffs, scenario.simulation
+    costs = scenario.costs
+    p_star = break_even_probability(costs)
+    baseline_cost = {name: block.baselines[:, i].copy() for i, name in enumerate(BASELINES)}
+    reference = baseline_cost[sim.reference]
+    n_occ = work.resampler.calendar.n_occasions
+    decision = decide(block.model, reference, cutoffs, max(1, round(history.n_evaluated / n_occ)),
+                      block_rng(work.seed, 0, _INTERVAL_STREAM))
+    table = _cutoff_table([(history, costs)], cutoffs, p_star, block.model, reference)
+    operations = None
+    if scenario.operations is not None:
+        result = OperationsResult(rules=_pricer(work, k).rules, n_cutoffs=cutoffs.size, extras=block.extras,
+                                  section=scenario.operations)
+        table = pd.concat([table, pd.DataFrame(result.per_cutoff())], axis=1)
+        operations = result.summary(decision.recommended_index)
+    name = history.site_names[0]
+    warnings = tuple(f'site "{name}" {w}' for w in cost_warnings(costs, scenario.decision.action))
+    own_dates = np.unique(history.dates[history.evaluated]).size
+    return SiteResult(name=name, scenario=scenario, history=history, theoretical_cutoff=p_star,
+                      decision=decision, table=table, quality=_quality(history),
+                      model_cost=block.model[:, decision.recommended_index].copy(),
+                      baseline_cost=baseline_cost, missing_dates=work.resampler.n_dates - own_dates,
+                      operations=operations, warnings=warnings)
+
+
+def _sites_table(sites: Sequence[SiteResult], common: int) -> pd.DataFrame:
+    """``sites.csv``: one row per site, in the order of the history."""
+    values = [site.forecast_value for site in sites]
+    order = sorted(range(len(sites)), key=lambda i: -values[i])
+    rank = np.empty(len(sites), dtype=np.int64)
+    rank[order] = np.arange(1, len(sites) + 1)
+    rows = []
+    for site, value, r in zip(sites, values, rank):
+        d = site.decision
+        model = distribution(site.model_cost)
+        savings = site.baseline_cost[site.reference] - site.model_cost
+        p05, p95 = np.quantile(savings, [0.05, 0.95])
+        row = {"site": site.name, "rows": site.history.n_rows, "evaluated_rows": site.history.n_evaluated,
+               "missing_dates": site.missing_dates, **site.quality,
+               **{key: getattr(site.scenario.costs, key) for key in ("hit", "false_alarm", "miss",
+                                                                     "correct_negative")},
+               "theoretical_cutoff": site.theoretical_cutoff, "recommended_cutoff": d.recommended_cutoff,
+               "recommended_cutoff_low": d.recommended_cutoff_interval[0],
+               "recommended_cutoff_high": d.recommended_cutoff_interval[1],
+               "near_optimal_low": d.near_optimal_band[0], "near_optimal_high": d.near_optimal_band[1],
+               "break_even": _ranges(d.break_even), "confident_break_even": _ranges(d.confident_break_even),
+               "mean_cost": model.mean, "p05_cost": model.p05, "p50_cost": model.p50, "p95_cost": model.p95,
+               "reference_mean_cost": float(site.baseline_cost[site.reference].mean()),
+               "mean_savings": d.savings.mean, "p05_savings": float(p05), "p95_savings": float(p95),
+               "prob_saving": d.prob_saving, "forecast_value": value, "value_rank": int(r),
+               "mean_cost_at_common_cutoff": float(site.table["mean_cost"].iloc[common])}
+        if site.operations is not None:
+            at = site.operations["at_recommended_cutoff"]
+            row.update({"share_completed": at["share_completed"], "share_late": at["share_late"],
+                        "mean_days_late": at["days_late"]["mean"]})
+        rows.append(row)
+    return pd.DataFrame(rows)
+
+
+def _ranges(ranges) -> str:
+    return "; ".join(f"{lo:g} to {hi:g}" for lo, hi in ranges)
+
+
+# ------------------------------------------------------------------------------------------------
+# the work shared out: tasks of (a group of sites, a chunk of seeded blocks)
+
+@dataclass(frozen=True)
+class _Work:
+    """What every task needs, sent to each worker once. ``scenarios`` holds each site's scenario
+    (its own costs and rules merged in); ``outcome_probability`` is set in the calibrated mode."""
+
+    resampler: Resampler
+    scenarios: tuple[Scenario, ...]
+    cutoffs: np.ndarray
+    seed: int
+    replicates: int
+    processes: tuple = ()
+    outcome_probability: np.ndarray | None = None
+    token: str = field(default_factory=lambda: uuid.uuid4().hex)  # names this run's cached pricers
+
+    @property
+    def chunks(self) -> list[tuple[int, int]]:
+        """(first block, number of blocks) of each chunk of :data:`CHUNK_BLOCKS` seeded blocks."""
+        total = n_blocks(self.replicates)
+        return [(b, min(CHUNK_BLOCKS, total - b)) for b in range(0, total, CHUNK_BLOCKS)]
+
+
+_PRICERS: dict[tuple[str, int], object] = {}  # per process: (run token, site) -> pricer
+_MAX_PRICERS = 512
+
+
+def _pricer(work: _Work, k: int):
+    """Site ``k``'s pricer, made once per process and run (cheap to make, not free)."""
+    key = (work.token, k)
+    pricer = _PRICERS.get(key)
+    if pricer is None:
+        history = work.resampler.history.for_site(k)
+        scenario = work.scenarios[k]
+        if work.outcome_probability is not None:  # outcomes drawn afresh from recalibrated probabilities
+            pricer = ReplicatePricer(history, work.cutoffs, scenario.costs, seed=work.seed,
+                                     outcome_probability=work.outcome_probability)
+        elif scenario.operations is not None:  # the rules played day by day
+            pricer = OperationsPricer(history, work.resampler.calendar, work.cutoffs, scenario,
+                                      work.processes)
+        else:
+            pricer = SeasonPricer(history, work.cutoffs, scenario.costs)
+        if len(_PRICERS) >= _MAX_PRICERS:
+            _PRICERS.clear()
+        _PRICERS[key] = pricer
+    return pricer
+
+
+def _forget(work: _Work) -> None:
+    for key in [key for key in _PRICERS if key[0] == work.token]:
+        _PRICERS.pop(key, None)
+
+
+def _price_task(work: _Work, first_site: int, last_site: int, chunk: int | None) -> list[tuple]:
+    """Season costs of sites ``first_site..last_site - 1``: on the replicates of one chunk, or of
+    every chunk when ``chunk`` is None.
+
+    Each seeded block is drawn once and priced for every site of the task (a site's replicate rows
+    are the joint rows mapped to its own, ``Resampler.site_rows``). A chunk gives
+    ``("chunk", site, chunk, PricedBlock)`` per site. All chunks (many sites only) give each site's
+    results made here, ``("site", site, SiteResult)``, and its season costs for the portfolio:
+    summed here for every whole group of :data:`SUM_GROUP` sites the task holds,
+    ``("group", group, model, baselines)``, else ``("costs", site, model, baselines)``. So the
+    per-site work is shared out too, and little more than reduced results travels back.
+    """
+    chunks = work.chunks if chunk is None else [work.chunks[chunk]]
+    blocks = [b for first, count in chunks for b in range(first, first + count)]
+    sites = range(first_site, last_site)
+    calibrated = work.outcome_probability is not None
+
+    def drawn(b: int) -> np.ndarray:
+        return work.resampler.draw_block(work.seed, b)[: min(BLOCK, work.replicates - b * BLOCK)]
+
+    size = len(blocks) * BLOCK * work.resampler.n_occasions * 8
+    rows = [drawn(b) for b in blocks] if len(sites) > 1 and size <= _MAX_DRAWN_BYTES else None
+    out: list[tuple] = []
+    group: list = [None, None, None]  # the whole group being summed: number, model, baselines
+    for k in sites:
+        pricer = _pricer(work, k)
+        priced = []
+        for i, b in enumerate(blocks):
+            own = work.resampler.site_rows(drawn(b) if rows is None else rows[i], k)
+            priced.append(pricer(own, b) if calibrated else pricer(own))
+        block = _join(priced)
+        if chunk is not None:
+            out.append(("chunk", k, chunk, block))
+            continue
+        out.append(("site", k, _site_result(work, k, block)))
+        g = k // SUM_GROUP
+        whole = first_site <= g * SUM_GROUP and min((g + 1) * SUM_GROUP, len(work.scenarios)) <= last_site
+        if not whole:
+            out.append(("costs", k, block.model, block.baselines))
+            continue
+        group = [g, _added(group[1] if group[0] == g else None, block.model),
+                 _added(group[2] if group[0] == g else None, block.baselines)]
+        if k + 1 == min((g + 1) * SUM_GROUP, len(work.scenarios)):
+            out.append(("group", *group))
+    return out
+
+
+_MAX_DRAWN_BYTES = 256 * 2**20  # a task keeps its drawn replicate rows for reuse up to this size
+
+
+def _join(blocks: Sequence[PricedBlock]) -> PricedBlock:
+    """Priced blocks of consecutive replicates as one (replicates first in every array)."""
+    if len(blocks) == 1:
+        return blocks[0]
+    return PricedBlock(model=np.concatenate([b.model for b in blocks]),
+                       baselines=np.concatenate([b.baselines for b in blocks]),
+                       n_events=np.concatenate([b.n_events for b in blocks]),
+                       extras={key: np.concatenate([b.extras[key] for b in blocks]) for key in blocks[0].extras})
+
+
+def _price_all(work: _Work, block_done: Callable[[int, PricedBlock], None] | None,
+               sites: tuple[dict[int, SiteResult], _Totals] | None, progress: Progress | None,
+               workers: int | None, cluster) -> None:
+    """Run every task. One site: its season costs, in replicate order, go to ``block_done`` once
+    all its chunks are in. Many sites: each site's results go into ``sites`` (results by site, and
+    the portfolio's totals), made by the task that priced all its replicates, or made here from its
+    chunks when there are too few sites to keep every worker busy."""
+    n_sites = len(work.scenarios)
+    chunks = work.chunks
+    operations = any(s.operations is not None for s in work.scenarios)
+    size = n_sites * work.replicates * (10 if operations else 1)
+    inline = size < INLINE_BELOW or (bool(work.processes) and cluster is None)
+    waiting: dict[int, dict[int, PricedBlock]] = {k: {} for k in range(n_sites)}
+    total, done = n_sites * work.replicates, 0
+    step = "replicate seasons" if n_sites == 1 else f"replicate seasons x {n_sites} sites"
+    with open_executor(workers, cluster, inline=inline) as executor:
+        tasks = _plan(n_sites, len(chunks), executor.workers, many=sites is not None)
+        for _, results in executor.map_unordered(_price_task, work, tasks):
+            for item in results:
+                kind, k = item[0], item[1]
+                if kind == "site":
+                    sites[0][k] = item[2]
+                    done += work.replicates
+                elif kind == "costs":
+                    sites[1].add_site(k, item[2], item[3])
+                elif kind == "group":
+                    sites[1].add_group(k, item[2], item[3])
+                else:
+                    block = item[3]
+                    waiting[k][item[2]] = block
+                    done += block.model.shape[0]
+                    if len(waiting[k]) < len(chunks):
+                        continue
+                    parts = waiting.pop(k)
+                    block = _join([parts[c] for c in range(len(chunks))])
+                    if sites is None:
+                        block_done(k, block)
+                    else:
+                        sites[0][k] = _site_result(work, k, block)
+                        sites[1].add_site(k, block.model, block.baselines)
+            if progress is not None:
+                progress(step, done, total)
+
+
+def _plan(n_sites: int, n_chunks: int, workers: int, many: bool) -> list[tuple[int, int, int | None]]:
+    """The tasks: (first site, site after the last, chunk or None for all chunks).
+
+    It changes speed, never results. One site, or fewer sites than twice the workers: tasks by chunk
+    of blocks, for groups of sites as large as :data:`MAX_GROUP` allows while leaving
+    :data:`TASKS_PER_WORKER` tasks per worker. Otherwise each task prices all the replicates of one
+    group of :data:`SUM_GROUP` sites, or of part of one when there would be too few tasks.
+    """
+    if not many or (workers > 1 and n_sites < 2 * workers):
+        size = max(1, min(MAX_GROUP, (n_sites * n_chunks) // (TASKS_PER_WORKER * max(1, workers))))
+        return [(a, min(a + size, n_sites), c) for a in range(0, n_sites, size) for c in range(n_chunks)]
+    groups = [(a, min(a + SUM_GROUP, n_sites)) for a in range(0, n_sites, SUM_GROUP)]
+    parts = 1 if workers == 1 else -(-TASKS_PER_WORKER * workers // len(groups))
+    tasks = []
+    for a, b in groups:
+        size = max(1, -(-(b - a) // parts))
+        tasks += [(first, min(first + size, b), None) for first in range(a, b, size)]
+    return tasks
+
+
 def _label(scenario: Scenario) -> str:
     return str(scenario.source) if scenario.source else "scenario"
 
@@ -199,15 +686,51 @@ def _mean_block(history: History, scenario: Scenario, p_star: float) -> float:
     return max(1.0, float(optimal_block_length(series)))
 
 
-def _cutoff_table(history: History, scenario: Scenario, cutoffs: np.ndarray, p_star: float,
+def _joint_mean_block(history: History, scenarios: Sequence[Scenario]) -> float:
+    """Mean run length, in occasions, of the joint replay of many sites.
+
+    Fixed by ``block_days``, or by Politis and White (2004) on the series of the portfolio's cost per
+    date: each site acting at its own break-even probability (taking the action that is always best
+    when its costs have none), summed over the sites with a row on that date. One run length serves
+    every site, as the runs of dates are shared.
+    """
+    block_days = scenarios[0].simulation.block_days
+    if block_days != "auto":
+        return max(1.0, float(block_days) / history.step_days)
+    dates, index = np.unique(history.dates[history.evaluated], return_inverse=True)
+    total = np.zeros(dates.size)
+    site = history.site[history.evaluated]
+    for k, scenario in enumerate(scenarios):
+        costs = scenario.costs
+        own = site == k
+        p, event = history.p[history.evaluated][own], history.event[history.evaluated][own]
+        p_star = break_even_probability(costs)
+        if np.isnan(p_star):  # one action is always at least as cheap: take it
+            act = np.full(p.size, costs.false_alarm - costs.correct_negative <= 0)
+        else:
+            act = p >= p_star
+        total += np.bincount(index[own], weights=occasion_costs(act, event, costs), minlength=dates.size)
+    return max(1.0, float(optimal_block_length(total)))
+
+
+def _cutoff_table(parts: Sequence[tuple[History, Costs]], cutoffs: np.ndarray, p_star: float,
                   model_cost: np.ndarray, reference_cost: np.ndarray) -> pd.DataFrame:
-    costs = scenario.costs
-    periods = {"": history.evaluated}
-    if history.has_validation:
-        periods.update({"training_": history.training, "validation_": history.validation})
+    """One row per cutoff: the classification counts and rates on the history, the historical
+    cost, net benefit and relative value, and the replicate seasons' cost and savings.
+
+    ``parts`` are (history, costs) of each site (one for a single site); counts and costs are
+    summed over them, so with many sites the table is the portfolio's under one common cutoff.
+    Net benefit needs one break-even probability ``p_star`` (NaN gives NaN).
+    """
+    periods = {"": lambda h: h.evaluated}
+    if parts[0][0].has_validation:
+        periods.update({"training_": lambda h: h.training, "validation_": lambda h: h.validation})
     columns: dict[str, np.ndarray] = {"cutoff": cutoffs}
-    for prefix, mask in periods.items():
-        counts = scoring.count_at_cutoffs(history.p[mask], history.event[mask], cutoffs)
+    for prefix, period in periods.items():
+        each = [(scoring.count_at_cutoffs(h.p[period(h)], h.event[period(h)], cutoffs), costs)
+                for h, costs in parts]
+        counts = _sum([c for c, _ in each], lambda a, b: Contingency(*(x + y for x, y in zip(
+            dataclasses.astuple(a), dataclasses.astuple(b)))))
         r = scoring.rates(counts)
         columns.update({
             f"{prefix}hits": counts.hits, f"{prefix}false_alarms": counts.false_alarms,
@@ -215,19 +738,27 @@ def _cutoff_table(history: History, scenario: Scenario, cutoffs: np.ndarray, p_s
             f"{prefix}hit_rate": r.hit_rate, f"{prefix}specificity": r.specificity,
             f"{prefix}miss_rate": r.miss_rate, f"{prefix}false_alarm_rate": r.false_alarm_rate,
             f"{prefix}false_alarm_ratio": r.false_alarm_ratio,
-            f"{prefix}historical_cost": price(counts, costs),
+            f"{prefix}historical_cost": _sum([price(c, costs) for c, costs in each]),
         })
         if prefix == "":
             n = counts.n_occasions
-            expense = price(counts, costs) / n
-            never = price(Contingency(0, 0, counts.n_events, counts.n_non_events), costs) / n
-            always = price(Contingency(counts.n_events, counts.n_non_events, 0, 0), costs) / n
-            perfect = price(Contingency(counts.n_events, 0, 0, counts.n_non_events), costs) / n
+            expense = _sum([price(c, costs) for c, costs in each]) / n
+            never = _sum([price(Contingency(0, 0, c.n_events, c.n_non_events), costs) for c, costs in each]) / n
+            always = _sum([price(Contingency(c.n_events, c.n_non_events, 0, 0), costs) for c, costs in each]) / n
+            perfect = _sum([price(Contingency(c.n_events, 0, 0, c.n_non_events), costs) for c, costs in each]) / n
             columns["net_benefit"] = (scoring.net_benefit(counts.hits, counts.false_alarms, n, p_star)
                                       if not np.isnan(p_star) else np.full(cutoffs.size, np.nan))
             columns["relative_value"] = scoring.relative_value_from_costs(expense, never, always, perfect)
     columns.update(per_cutoff(model_cost, reference_cost))
     return pd.DataFrame(columns)
+
+
+def _sum(items: Sequence, add=lambda a, b: a + b):
+    """Items added left to right, the first as it is (so one item is returned untouched)."""
+    out = items[0]
+    for item in items[1:]:
+        out = add(out, item)
+    return out
 
 
 def _quality(history: History) -> dict[str, float]:

@@ -16,13 +16,15 @@ from pathlib import Path
 from typing import Annotated, Any, Literal
 
 import numpy as np
-from pydantic import BaseModel, ConfigDict, Field, ValidationError, field_validator, model_validator
+from pydantic import (BaseModel, ConfigDict, Field, ValidationError, create_model, field_validator,
+                      model_validator)
 
 from .errors import InputError, did_you_mean
 
 __all__ = ["Scenario", "Costs", "read_scenario", "scenario_from_text", "cutoff_grid",
            "break_even_probability", "cost_warnings", "WEEKDAYS", "BASELINES",
-           "OperationsSection", "StressCase", "CostChanges", "OperationsChanges", "STRESS_CHANGES"]
+           "OperationsSection", "StressCase", "CostChanges", "OperationsChanges", "STRESS_CHANGES",
+           "SiteSection", "SiteOperations"]
 
 WEEKDAYS = ("mon", "tue", "wed", "thu", "fri", "sat", "sun")
 BASELINES = ("never_act", "always_act", "persistence", "seasonal_rate", "perfect")
@@ -35,6 +37,7 @@ class _Section(BaseModel):
 class HistorySection(_Section):
     path: str | None = None
     date_column: str = "date"
+    site_column: str | None = None  # a column naming each row's site; None: one site
     probability_column: str = "probability"
     outcome_column: str | None = None
     value_column: str | None = None
@@ -295,6 +298,21 @@ class StressCase(_Section):
         return Costs(**values)
 
 
+SiteOperations = create_model(
+    "SiteOperations", __base__=_Section, __doc__="Keys of [operations] a site replaces; unset keys "
+    "stay as in the scenario's [operations] (the merged rules are checked as a whole).",
+    **{key: (field.annotation | None, None) for key, field in OperationsSection.model_fields.items()})
+
+
+class SiteSection(_Section):
+    """One ``[sites."<name>"]`` table: the costs and operating rules of one site that differ from
+    the scenario's. Each given key replaces the scenario's value for that site only; the merged
+    section is checked as a whole (:meth:`Scenario.for_site`)."""
+
+    costs: CostChanges | None = None
+    operations: SiteOperations | None = None  # type: ignore[valid-type]
+
+
 class Scenario(_Section):
     name: str
     currency: str = "EUR"
@@ -306,6 +324,8 @@ class Scenario(_Section):
     simulation: SimulationSection = SimulationSection()
     stress: list[StressCase] = []
     operations: OperationsSection | None = None
+    # per-site overrides, keyed by the site's name as the history's site column writes it
+    sites: dict[str, SiteSection] = {}
     # where the file was read from (not a user key): history paths are relative to it
     source: Path | None = Field(default=None, exclude=True)
     sha256: str = Field(default="", exclude=True)
@@ -326,6 +346,25 @@ class Scenario(_Section):
         if twice:
             raise ValueError(f'two [[stress]] tables are named "{twice[0]}"; give each its own name')
         return self
+
+    def for_site(self, name: str) -> "Scenario":
+        """This scenario as it applies to site ``name``: its ``[sites."<name>"]`` costs and
+        operations merged over the scenario's (the scenario itself when the site has none).
+
+        Raises pydantic's ``ValidationError`` when the merged section is invalid; files read with
+        :func:`read_scenario` were checked for every site already.
+        """
+        override = self.sites.get(name)
+        if override is None:
+            return self
+        update: dict[str, Any] = {"sites": {}}
+        if override.costs is not None:
+            update["costs"] = Costs(**{**self.costs.model_dump(), **override.costs.given()})
+        if override.operations is not None:
+            given = override.operations.model_dump(exclude_unset=True)
+            base = self.operations.model_dump(exclude_unset=True) if self.operations is not None else {}
+            update["operations"] = OperationsSection.model_validate({**base, **given})
+        return self.model_copy(update=update)
 
     def history_path(self) -> Path | None:
         if self.history.path is None:
@@ -404,9 +443,34 @@ def scenario_from_text(text: str, label: str = "scenario") -> Scenario:
     except tomllib.TOMLDecodeError as exc:
         raise InputError(f"{label}: not valid TOML ({exc}); check the syntax near that line") from None
     try:
-        return Scenario.model_validate(data)
+        scenario = Scenario.model_validate(data)
     except ValidationError as exc:
         raise InputError(_first_problem(exc, label)) from None
+    _check_sites(scenario, label)
+    return scenario
+
+
+def _check_sites(scenario: Scenario, label: str) -> None:
+    """Every ``[sites."<name>"]`` table merged over the scenario must make a valid section."""
+    if scenario.sites and scenario.history.site_column is None:
+        first = next(iter(scenario.sites))
+        raise InputError(f'{label} [sites."{first}"]: per-site tables need a site column; add '
+                         'site_column = "<column naming each row\'s site>" to [history]')
+    for name in scenario.sites:
+        try:
+            scenario.for_site(name)
+        except ValidationError as exc:
+            err = exc.errors(include_url=False)[0]
+            section = "costs" if exc.title == "Costs" else "operations"
+            key = ".".join(str(p) for p in err["loc"])
+            where = f'{label} [sites."{name}".{section}]'
+            if err["type"] == "missing":
+                raise InputError(f"{where}: {key} is required and [{section}] does not give it; add it "
+                                 f"here or to [{section}]") from None
+            value = err.get("input")
+            shown = f" (got {value!r})" if key and not isinstance(value, dict | list) else ""
+            message = err["msg"].removeprefix("Value error, ")
+            raise InputError(f"{where}{' ' + key if key else ''}: {message}{shown}") from None
 
 
 def _first_problem(exc: ValidationError, label: str) -> str:
@@ -418,7 +482,7 @@ def _first_problem(exc: ValidationError, label: str) -> str:
     if kind == "extra_forbidden":
         key = loc[-1]
         model = _model_at(loc[:-1])
-        where = f"[{'.'.join(loc[:-1])}]" if len(loc) > 1 else "top level"
+        where = f"[{_table(loc[:-1])}]" if len(loc) > 1 else "top level"
         if loc[0] == "stress" and len(loc) > 2:
             where = f"[[stress]] table {int(loc[1]) + 1}" + (f" {'.'.join(loc[2:-1])}" if len(loc) > 3 else "")
         valid = [k for k in model.model_fields if k not in ("source", "sha256")]
@@ -426,6 +490,8 @@ def _first_problem(exc: ValidationError, label: str) -> str:
     section = [p for p in loc if not p.isdigit()]
     if section and section[0] == "stress" and len(loc) > 1 and loc[1].isdigit():
         where = f"[[stress]] table {int(loc[1]) + 1}" + (f" {'.'.join(loc[2:])}" if len(loc) > 2 else "")
+    elif loc and loc[0] == "sites" and len(loc) > 2:
+        where = f"[{_table(loc[:3])}]" + (f" {'.'.join(loc[3:])}" if len(loc) > 3 else "")
     elif not section:
         where = "top level"
     elif section[0] in _SECTIONS:
@@ -440,13 +506,19 @@ def _first_problem(exc: ValidationError, label: str) -> str:
     return f"{label} {where}: {message}{shown}"
 
 
-_SECTIONS = ("history", "event", "decision", "costs", "season", "simulation", "operations", "stress")
+_SECTIONS = ("history", "event", "decision", "costs", "season", "simulation", "operations", "stress",
+             "sites")
+
+
+def _table(loc: list[str]) -> str:
+    """A table's name as TOML writes it: ``sites."North depot".costs``."""
+    return ".".join(f'"{part}"' if i == 1 and loc[0] == "sites" else part for i, part in enumerate(loc))
 
 
 def _model_at(loc: list[str]) -> type[BaseModel]:
     model: Any = Scenario
-    for part in loc:
-        if part.isdigit():  # an entry of a list of tables, such as [[stress]]
+    for i, part in enumerate(loc):
+        if part.isdigit() or (i == 1 and loc[0] == "sites"):  # a list entry, or a site's name
             continue
         field = model.model_fields.get(part)
         if field is None:

@@ -55,6 +55,7 @@ def _brier_skill(y: np.ndarray, p: np.ndarray, reference: np.ndarray) -> float:
     [
         ("line_marking_history.csv", demo.line_marking_history),
         ("river_pumps_history.csv", demo.river_history),
+        ("gritting_depots_history.csv", demo.gritting_history),
     ],
 )
 def test_committed_history_equals_generator_byte_for_byte(file_name, generator):
@@ -91,14 +92,14 @@ def test_write_demo_files_writes_scenario_and_history_it_names(tmp_path, line_ma
     assert sorted(p.name for p in scenario_path.parent.iterdir()) == expected
 
 
-@pytest.mark.parametrize("file_name", ["line_marking.toml", "river_pumps.toml"])
+@pytest.mark.parametrize("file_name", ["line_marking.toml", "river_pumps.toml", "gritting_depots.toml"])
 def test_scenario_names_existing_columns_and_stated_break_even(file_name):
     scenario_path = SCENARIOS / file_name
     scenario = tomllib.loads(scenario_path.read_text(encoding="utf-8"))
     history = pd.read_csv(scenario_path.parent / scenario["history"]["path"], nrows=5)
     section = scenario["history"]
     named = [section[k] for k in ("date_column", "probability_column", "outcome_column",
-                                  "value_column") if k in section]
+                                  "value_column", "site_column") if k in section]
     assert set(named) <= set(history.columns)
     c = scenario["costs"]
     # break-even p* = (c_fa - c_cn) / ((c_fa - c_cn) + (c_m - c_h)): Elkan (2001), "The
@@ -194,3 +195,44 @@ def test_river_forecast_is_skilful_but_imperfect(river):
     assert 0.35 <= _brier_skill(y, p, climate) <= 0.75
     high = p >= 0.7
     assert y[high].mean() < p[high].mean()  # high probabilities verify below face value
+
+
+# ---- the gritting depots: many sites that share their weather -------------------------------
+
+
+@pytest.fixture(scope="module")
+def gritting():
+    return demo.gritting_history()
+
+
+def test_gritting_has_five_depots_nightly_in_winter_with_one_outage(gritting):
+    assert list(gritting.columns) == ["date", "depot", "ice_probability", "ice", "road_temp_c"]
+    assert list(gritting["depot"].unique()) == list(demo.GRITTING_DEPOTS)
+    nights = gritting.groupby("depot").size()
+    assert (nights.drop("Tarnbeck Lane") == 1210).all()  # 8 x 151 nights + 2 leap days
+    assert nights["Tarnbeck Lane"] == 1201  # the feed was down for nine nights
+    assert set(_month(gritting)) == {11, 12, 1, 2, 3}
+    assert (gritting.loc[gritting["ice"] == 1, "road_temp_c"] < 0).all()  # ice needs a frozen road
+
+
+def test_gritting_ice_is_commonest_on_the_fell_and_rarest_on_the_coast(gritting):
+    rate = gritting.groupby("depot")["ice"].mean()
+    assert rate.idxmax() == "Scarth Top" and rate.idxmin() == "Gannetholm Harbour"
+    assert 0.25 <= rate["Scarth Top"] <= 0.36 and 0.06 <= rate["Gannetholm Harbour"] <= 0.12
+
+
+def test_gritting_depots_have_ice_on_the_same_nights(gritting):
+    # designed shared cold spells and showers: the depots' ice series correlate at 0.35-0.55
+    wide = gritting.pivot(index="date", columns="depot", values="ice")
+    correlation = wide.corr().to_numpy()
+    off_diagonal = correlation[~np.eye(len(wide.columns), dtype=bool)]
+    assert off_diagonal.min() > 0.3 and off_diagonal.max() < 0.65
+    both = wide["Pellisford"][wide["Ferrowby Moor"] == 1].mean()
+    assert both > 2.5 * wide["Pellisford"].mean()
+
+
+def test_gritting_forecasts_are_skilful_and_about_calibrated(gritting):
+    for depot, rows in gritting.groupby("depot"):
+        y, p = rows["ice"].to_numpy(), rows["ice_probability"].to_numpy()
+        assert 0.75 <= roc_auc_score(y, p) <= 0.96, depot
+        assert abs(p.mean() - y.mean()) < 0.03, depot  # calibrated by construction

@@ -1,0 +1,254 @@
+"""Where the replicate work runs: in this process, in local worker processes, or on a Dask cluster.
+
+A run's pricing is cut into tasks (:mod:`simulator.run` makes them): each prices fixed chunks of
+seeded replicate blocks for a group of sites and returns season costs, or each site's results made
+from them, never the replicate rows. Every (site, block) is computed from its own seed and the results are put
+together in a fixed order, so which executor runs the tasks, on how many workers, and in which order
+they finish changes nothing in the results.
+
+Three executors, one interface (:meth:`Executor.map_unordered`):
+
+- :class:`InlineExecutor` runs the tasks one after the other in this process (one worker, or a
+  run too small to be worth starting processes for);
+- :class:`PoolExecutor` runs them in local worker processes (``concurrent.futures``, started with
+  ``forkserver`` where there is one, else ``spawn``); the shared inputs travel once per worker;
+- :class:`DaskExecutor` sends them to an existing Dask scheduler (``distributed.Client``); the
+  shared inputs are scattered to every worker once. Dask is an optional dependency
+  (``pip install "dask[distributed]"``); the workers need gonogo installed too.
+
+Each executor keeps a bounded number of tasks in flight, so memory in this process stays bounded
+whatever the number of tasks.
+"""
+
+from __future__ import annotations
+
+import multiprocessing
+import os
+import socket
+from collections.abc import Callable, Iterable, Iterator
+from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
+from contextlib import contextmanager
+from typing import Any
+
+from .errors import InputError
+
+__all__ = ["Executor", "InlineExecutor", "PoolExecutor", "DaskExecutor", "open_executor", "prepare",
+           "default_workers", "CONNECT_TIMEOUT", "CLUSTER_ENV", "IN_FLIGHT_PER_WORKER"]
+
+CONNECT_TIMEOUT = 5.0  # seconds a cluster's scheduler has to answer
+CLUSTER_ENV = "GONOGO_CLUSTER"  # the command line's --cluster, when not given
+IN_FLIGHT_PER_WORKER = 2  # tasks submitted ahead per worker
+
+Task = tuple
+TaskFunction = Callable[..., Any]  # fn(shared, *task) -> result
+
+
+def default_workers() -> int:
+    """The cores this process may use (its CPU affinity where the system says, else all)."""
+    try:
+        return max(1, len(os.sched_getaffinity(0)))
+    except AttributeError:  # not on Linux
+        return max(1, os.cpu_count() or 1)
+
+
+class Executor:
+    """Runs ``fn(shared, *task)`` for every task and yields ``(task index, result)`` as they finish."""
+
+    workers: int = 1
+    where: str = "this process"
+
+    def map_unordered(self, fn: TaskFunction, shared: Any, tasks: Iterable[Task]) -> Iterator[tuple[int, Any]]:
+        raise NotImplementedError
+
+    def close(self) -> None:
+        pass
+
+
+class InlineExecutor(Executor):
+    """Every task in this process, in order."""
+
+    def map_unordered(self, fn, shared, tasks):
+        for i, task in enumerate(tasks):
+            yield i, fn(shared, *task)
+
+
+# ------------------------------------------------------------------------------------------------
+# local worker processes
+
+_SHARED: Any = None  # in a worker process: the run's shared inputs, installed once per worker
+
+
+def _install(shared: Any) -> None:
+    global _SHARED
+    _SHARED = shared
+
+
+def _call_installed(fn: TaskFunction, task: Task) -> Any:
+    return fn(_SHARED, *task)
+
+
+def _context() -> multiprocessing.context.BaseContext:
+    """``forkserver`` where there is one (no fork of a process holding threads), else ``spawn``."""
+    if "forkserver" in multiprocessing.get_all_start_methods():
+        context = multiprocessing.get_context("forkserver")
+        context.set_forkserver_preload(["simulator.run"])
+        return context
+    return multiprocessing.get_context("spawn")
+
+
+def prepare(workers: int | None = 1, cluster: Any = None) -> None:
+    """Start the process that forks local workers now, in the background, when a run may use
+    them, so that it has loaded gonogo by the time the work is shared out (it is kept for later
+    runs of this Python process)."""
+    if cluster is not None or (default_workers() if workers is None else int(workers)) < 2:
+        return
+    if _context().get_start_method() == "forkserver":
+        from multiprocessing import forkserver
+
+        forkserver.ensure_running()
+
+
+class PoolExecutor(Executor):
+    """Tasks in ``workers`` local processes; the shared inputs are sent to each worker once."""
+
+    def __init__(self, workers: int):
+        self.workers = int(workers)
+        self.where = f"{self.workers} local worker processes"
+        self._pool: ProcessPoolExecutor | None = None
+
+    def map_unordered(self, fn, shared, tasks):
+        self._pool = ProcessPoolExecutor(max_workers=self.workers, mp_context=_context(),
+                                         initializer=_install, initargs=(shared,))
+        yield from _bounded(lambda task: self._pool.submit(_call_installed, fn, task), tasks,
+                            IN_FLIGHT_PER_WORKER * self.workers,
+                            lambda pending: wait(pending, return_when=FIRST_COMPLETED)[0])
+
+    def close(self) -> None:
+        if self._pool is not None:
+            self._pool.shutdown(wait=True, cancel_futures=True)
+            self._pool = None
+
+
+def _bounded(submit, tasks, limit, wait_any) -> Iterator[tuple[int, Any]]:
+    """Submit tasks in order, at most ``limit`` unfinished at a time; yield results as they come."""
+    queue = iter(enumerate(tasks))
+    pending: dict[Any, int] = {}
+    try:
+        while True:
+            while len(pending) < limit:
+                item = next(queue, None)
+                if item is None:
+                    break
+                pending[submit(item[1])] = item[0]
+            if not pending:
+                return
+            for future in wait_any(list(pending)):
+                yield pending.pop(future), future.result()
+    finally:
+        for future in pending:
+            future.cancel()
+
+
+# ------------------------------------------------------------------------------------------------
+# a Dask cluster
+
+def _probe(address: str) -> None:
+    """Fail fast, in one line, when nothing listens at a tcp address (before Dask retries)."""
+    from distributed.comm.addressing import parse_address, parse_host_port
+
+    try:
+        scheme, location = parse_address(address)
+    except ValueError:
+        raise InputError(f"cluster {address!r}: not a scheduler address; write it as "
+                         "tcp://host:8786") from None
+    if scheme not in ("tcp", "tls"):
+        return
+    try:
+        host, port = parse_host_port(location)
+    except ValueError:
+        raise InputError(f"cluster {address}: no port; write the address as tcp://host:8786") from None
+    try:
+        socket.create_connection((host, port), timeout=CONNECT_TIMEOUT).close()
+    except OSError as exc:
+        reason = exc.strerror or type(exc).__name__
+        raise InputError(f"cluster {address}: no answer within {CONNECT_TIMEOUT:g} s ({reason.lower()}); "
+                         "check the address and that the Dask scheduler is running, or leave out "
+                         f"--cluster and {CLUSTER_ENV} to run on this machine") from None
+
+
+class DaskExecutor(Executor):
+    """Tasks on an existing Dask scheduler, given by address or as a ``distributed.Client``."""
+
+    def __init__(self, cluster: Any):
+        try:
+            import distributed
+        except ImportError:
+            raise InputError('running on a cluster needs Dask; install it with pip install '
+                             '"dask[distributed]" (or pip install ".[cluster]" in the gonogo source '
+                             "folder)") from None
+        self._own = not hasattr(cluster, "submit")
+        if self._own:
+            address = str(cluster).strip()
+            _probe(address)
+            try:
+                client = distributed.Client(address, timeout=CONNECT_TIMEOUT, set_as_default=False)
+            except Exception as exc:  # noqa: BLE001 - whatever went wrong, the user needs one line
+                reason = str(exc).splitlines()[0] if str(exc) else type(exc).__name__
+                raise InputError(f"cluster {address}: did not answer as a Dask scheduler ({reason}); "
+                                 f"check the address, or leave out --cluster and {CLUSTER_ENV} to run on "
+                                 "this machine") from None
+        else:
+            client = cluster
+        self.client = client
+        self.workers = max(1, sum(w.get("nthreads", 1) for w in
+                                  client.scheduler_info().get("workers", {}).values()))
+        self.where = f"the Dask cluster at {client.scheduler.address} ({self.workers} threads)"
+        self._distributed = distributed
+
+    def map_unordered(self, fn, shared, tasks):
+        shared_future = self.client.scatter(shared, broadcast=True, hash=False)
+        queue = iter(enumerate(tasks))
+        finished = self._distributed.as_completed(loop=self.client.loop)
+        pending: dict[Any, int] = {}
+
+        def submit_next() -> None:
+            item = next(queue, None)
+            if item is not None:
+                future = self.client.submit(fn, shared_future, *item[1], pure=False)
+                pending[future] = item[0]
+                finished.add(future)
+
+        try:
+            for _ in range(IN_FLIGHT_PER_WORKER * self.workers):
+                submit_next()
+            for future in finished:
+                index, result = pending.pop(future), future.result()
+                submit_next()
+                yield index, result
+        finally:
+            self.client.cancel(list(pending) + [shared_future])
+
+    def close(self) -> None:
+        if self._own:
+            self.client.close()
+
+
+@contextmanager
+def open_executor(workers: int | None = 1, cluster: Any = None, *, inline: bool = False) -> Iterator[Executor]:
+    """The executor for a run: the Dask cluster when ``cluster`` is given (an address such as
+    ``tcp://host:8786``, or a ``distributed.Client``), else ``workers`` local processes (None: all
+    cores), else this process (one worker, or ``inline`` for work too small to share out).
+
+    An address that does not answer raises :class:`InputError` within :data:`CONNECT_TIMEOUT`.
+    """
+    if cluster is not None and not (isinstance(cluster, str) and not cluster.strip()):
+        executor: Executor = DaskExecutor(cluster)
+    else:
+        n = default_workers() if workers is None else int(workers)
+        if n < 1:
+            raise InputError(f"workers must be at least 1, got {n}")
+        executor = InlineExecutor() if n == 1 or inline else PoolExecutor(n)
+    try:
+        yield executor
+    finally:
+        executor.close()

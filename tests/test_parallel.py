@@ -1,0 +1,146 @@
+"""Where the work runs changes nothing: one worker, two local worker processes and a Dask cluster
+give the same bytes; a cluster that does not answer is refused in one line, with nothing written.
+
+The rule under test is the project's own (DEVELOPERS.md, "Reproducibility"): every replicate comes
+from its seeded block, and results are put together in a fixed order.
+"""
+
+from __future__ import annotations
+
+import builtins
+import json
+import importlib
+import socket
+import time
+
+import pytest
+from typer.testing import CliRunner
+
+from simulator import InputError, read_scenario, run
+from simulator.cli import app
+from simulator.outputs import render_files
+
+from test_sites import SITES_TOML, correlated_sites
+
+run_module = importlib.import_module("simulator.run")
+parallel = importlib.import_module("simulator.parallel")
+report = importlib.import_module("simulator.report")
+
+COMPARED = ("summary.json", "cutoffs.csv", "sites.csv")
+
+
+@pytest.fixture
+def scenario_path(tmp_path, monkeypatch):
+    """Three correlated sites, one with operating rules of its own; enough replicates for three
+    chunks of seeded blocks, so the tasks finish in an order of their own."""
+    monkeypatch.setattr(report, "render_report", lambda result, contents: {})
+    correlated_sites(7, names=("North", "South", "East"), years=4).to_csv(tmp_path / "history.csv", index=False)
+    text = SITES_TOML.replace("[history]\n", '[history]\npath = "history.csv"\n').replace(
+        "replicates = 400", "replicates = 2100")
+    text += ('[sites."East".operations]\ncrews_out_on = "acting"\nspoiled_on = "no_event"\n'
+             "day_rate = 900\nwork = 60\n")
+    (tmp_path / "s.toml").write_text(text)
+    return tmp_path / "s.toml"
+
+
+def _files(result) -> dict[str, bytes]:
+    files = render_files(result)
+    return {name: files[name] for name in COMPARED}
+
+
+@pytest.mark.filterwarnings("ignore::DeprecationWarning")
+def test_one_worker_two_workers_and_a_dask_cluster_write_the_same_bytes(scenario_path, monkeypatch):
+    distributed = pytest.importorskip("distributed")
+    scenario = read_scenario(scenario_path)
+    one = _files(run(scenario, workers=1))
+    monkeypatch.setattr(run_module, "INLINE_BELOW", 0)  # share out even this small run
+    used = []
+    monkeypatch.setattr(parallel.PoolExecutor, "close",
+                        lambda self, close=parallel.PoolExecutor.close: (used.append(self.workers), close(self)))
+    two = _files(run(scenario, workers=2))
+    assert used == [2]
+    with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=False,
+                                  dashboard_address=None) as cluster:
+        on_cluster = _files(run(scenario, cluster=cluster.scheduler_address))
+    assert two == one
+    assert on_cluster == one
+
+
+def test_progress_counts_every_site_replicate_season_once(scenario_path):
+    seen = []
+    run(read_scenario(scenario_path), replicates=1100, progress=lambda step, done, total: seen.append((done, total)))
+    assert seen[-1] == (3 * 1100, 3 * 1100)
+    assert [d for d, _ in seen] == sorted(d for d, _ in seen)
+
+
+def _closed_port() -> int:
+    with socket.socket() as s:
+        s.bind(("127.0.0.1", 0))
+        return s.getsockname()[1]
+
+
+def test_a_cluster_that_does_not_answer_is_refused_quickly_and_nothing_is_written(scenario_path, tmp_path):
+    out = tmp_path / "out"
+    start = time.monotonic()
+    result = CliRunner().invoke(app, ["run", str(scenario_path), "--out", str(out),
+                                      "--cluster", f"tcp://127.0.0.1:{_closed_port()}"])
+    assert time.monotonic() - start < parallel.CONNECT_TIMEOUT + 3
+    assert result.exit_code == 2, result.output
+    message = result.stderr.strip()
+    assert len(message.splitlines()) == 1 and "Traceback" not in result.output
+    assert message.startswith("error: cluster tcp://127.0.0.1:")
+    assert "check the address" in message and "GONOGO_CLUSTER" in message
+    assert not out.exists()
+
+
+def test_the_cluster_address_may_come_from_the_environment(scenario_path, tmp_path):
+    out = tmp_path / "out"
+    result = CliRunner().invoke(app, ["run", str(scenario_path), "--out", str(out)],
+                                env={parallel.CLUSTER_ENV: "tcp://127.0.0.1:notaport"})
+    assert result.exit_code == 2
+    assert "error: cluster tcp://127.0.0.1:notaport" in result.stderr
+    assert not out.exists()
+
+
+def test_without_dask_the_message_says_how_to_install_it(monkeypatch):
+    real_import = builtins.__import__
+
+    def no_dask(name, *args, **kwargs):
+        if name == "distributed" or name.startswith("distributed."):
+            raise ImportError(name)
+        return real_import(name, *args, **kwargs)
+
+    monkeypatch.setattr(builtins, "__import__", no_dask)
+    with pytest.raises(InputError, match=r'pip install "dask\[distributed\]"'):
+        with parallel.open_executor(cluster="tcp://127.0.0.1:8786"):
+            pass
+
+
+def test_workers_below_one_are_refused():
+    with pytest.raises(InputError, match="workers must be at least 1"):
+        with parallel.open_executor(workers=0):
+            pass
+
+
+@pytest.mark.parametrize("plan", ["whole groups", "parts of groups", "chunks"])
+def test_how_the_sites_are_shared_out_changes_no_byte(plan, monkeypatch):
+    """More sites than one group of SUM_GROUP: a task may sum a whole group itself, send each site's
+    costs, or send chunks for the sites to be put together here; the totals come out the same."""
+    from simulator import history_from_frame, run_history, scenario_from_text
+    from simulator.outputs import summary
+
+    names = tuple(f"site {k:02d}" for k in range(run_module.SUM_GROUP + 4))
+    frame = correlated_sites(3, names=names, years=2)
+    scenario = scenario_from_text(SITES_TOML.replace("replicates = 400", "replicates = 1100"))
+    history = history_from_frame(frame, scenario)
+    baseline = summary(run_history(scenario, history))  # whole groups, one process
+    real_plan = run_module._plan
+    shapes = {"whole groups": dict(workers=1), "parts of groups": dict(workers=3), "chunks": dict(workers=40)}
+    monkeypatch.setattr(run_module, "_plan", lambda n, c, workers, many: real_plan(n, c, **shapes[plan], many=many))
+    tasks = run_module._plan(len(names), 2, 1, True)
+    kinds = {"whole groups": lambda: all(t[2] is None for t in tasks) and len(tasks) == 2,
+             "parts of groups": lambda: all(t[2] is None for t in tasks) and len(tasks) > 2,
+             "chunks": lambda: all(t[2] is not None for t in tasks)}
+    assert kinds[plan]()
+    result = run_history(scenario, history)
+    assert json.dumps(summary(result)) == json.dumps(baseline)
