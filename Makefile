@@ -28,6 +28,8 @@ browser:
 # benchmarks print their figures; they are never timed tests
 bench: setup
 	$(BIN)/python benchmarks/bench_core.py
+	$(BIN)/python benchmarks/bench_operations.py
+	$(BIN)/python benchmarks/bench_sites.py --sites 50 --rule-sites 10 --replicates 2000
 
 clean:
 	rm -rf $(VENV) build *.egg-info .pytest_cache .hypothesis

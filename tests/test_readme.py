@@ -41,3 +41,11 @@ def test_readme_quotes_the_operating_rules_cutoff(scenario, quoted):
     assert re.search(rf"falls from 0\.80 to about \*\*{re.escape(quoted)}\*\*", README)
     result = run(read_scenario(ROOT / "scenarios" / scenario))
     assert f"{result.decision.recommended_cutoff:.2f}" == quoted
+
+
+def test_readme_python_example_runs(monkeypatch):
+    monkeypatch.chdir(ROOT)
+    blocks = re.findall(r"```python\n(.*?)```", README, flags=re.S)
+    assert blocks
+    for block in blocks:
+        exec(compile(block, "README.md", "exec"), {})
