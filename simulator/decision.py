@@ -59,7 +59,8 @@ def cutoff_ranges(mask: np.ndarray, cutoffs: np.ndarray) -> list[tuple[float, fl
 
 def per_cutoff(model_cost: np.ndarray, reference_cost: np.ndarray) -> dict[str, np.ndarray]:
     """Per-cutoff season cost distribution and savings against the reference, each (n_cutoffs,)."""
-    p05, p50, p95 = np.quantile(model_cost, QUANTILES, axis=0)
+    # quantiles along contiguous rows: the same values, faster than down the columns
+    p05, p50, p95 = np.quantile(np.ascontiguousarray(model_cost.T), QUANTILES, axis=1)
     savings = reference_cost[:, None] - model_cost
     return {"mean_cost": model_cost.mean(axis=0), "p05_cost": p05, "p50_cost": p50, "p95_cost": p95,
             "mean_savings": savings.mean(axis=0), "prob_saving": (savings > 0).mean(axis=0)}
