@@ -9,8 +9,9 @@ from __future__ import annotations
 
 import difflib
 from collections.abc import Iterable
+from pathlib import Path
 
-__all__ = ["InputError", "closest", "did_you_mean"]
+__all__ = ["InputError", "closest", "did_you_mean", "read_input_file"]
 
 
 class InputError(Exception):
@@ -30,3 +31,16 @@ def did_you_mean(word: str, choices: Iterable[str]) -> str:
     if best is not None:
         return f'; did you mean "{best}"?'
     return "; expected one of " + ", ".join(f'"{c}"' for c in choices)
+
+
+def read_input_file(path: Path, what: str, expected: str) -> bytes:
+    """The bytes of a user's input file, or an :class:`InputError` saying why there are none.
+
+    ``what`` names the file in messages ("scenario", "history"); ``expected`` says what to give
+    instead of a folder ("the scenario's .toml file").
+    """
+    if not path.exists():
+        raise InputError(f"{path}: no such {what} file; check the path")
+    if path.is_dir():
+        raise InputError(f"{path}: is a folder; give {expected}")
+    return path.read_bytes()

@@ -19,7 +19,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from .errors import InputError, closest, did_you_mean
+from .errors import InputError, closest, did_you_mean, read_input_file
 from .scenario import HistorySection, Scenario, SeasonSection
 
 __all__ = ["History", "read_history", "history_from_frame", "season_start_month", "MIN_CLASS_COUNT"]
@@ -148,11 +148,7 @@ def read_history(scenario: Scenario, path: str | Path | None = None) -> History:
                              '"history.csv" or give --history')
     path = Path(path)
     label = str(path)
-    if not path.exists():
-        raise InputError(f"{label}: no such history file; check the path")
-    if path.is_dir():
-        raise InputError(f"{label}: is a folder; give the history's CSV or Parquet file")
-    raw = path.read_bytes()
+    raw = read_input_file(path, "history", "the history's CSV or Parquet file")
     if not raw.strip():
         raise InputError(f"{label}: the file is empty; it needs a header row and one row per occasion")
     suffix = path.suffix.lower()
@@ -398,15 +394,22 @@ def _check_order(dates: np.ndarray, where: _Where, column: str, codes: np.ndarra
                           "sort the rows by date")
 
 
-def _parse_probability(values: pd.Series, where: _Where, column: str) -> np.ndarray:
+def _parse_numbers(values: pd.Series, where: _Where, column: str, missing: str, not_number: str) -> np.ndarray:
+    """A column of numbers as float64; the first blank or unreadable cell is an InputError."""
     blank = _blank(values)
     if blank.any():
-        raise where.error(np.flatnonzero(blank)[0], column, "the probability is missing; fill it in (0 to 1)")
+        raise where.error(np.flatnonzero(blank)[0], column, missing)
     numbers = pd.to_numeric(values, errors="coerce").to_numpy(dtype=float)
     bad = np.isnan(numbers)
     if bad.any():
         i = np.flatnonzero(bad)[0]
-        raise where.error(i, column, f"{values.iloc[i]!r} is not a number; write a probability from 0 to 1")
+        raise where.error(i, column, f"{values.iloc[i]!r} is not a number{not_number}")
+    return numbers
+
+
+def _parse_probability(values: pd.Series, where: _Where, column: str) -> np.ndarray:
+    numbers = _parse_numbers(values, where, column, "the probability is missing; fill it in (0 to 1)",
+                             "; write a probability from 0 to 1")
     outside = (numbers < 0) | (numbers > 1)
     if outside.any():
         i = np.flatnonzero(outside)[0]
@@ -439,15 +442,7 @@ def _parse_outcome(frame: pd.DataFrame, spec: HistorySection, where: _Where,
                               "(true/false and yes/no also work)")
         return is_true, np.ones(len(frame), dtype=bool)
     column = spec.value_column
-    values = frame[column]
-    blank = _blank(values)
-    if blank.any():
-        raise where.error(np.flatnonzero(blank)[0], column, "the value is missing; fill it in")
-    numbers = pd.to_numeric(values, errors="coerce").to_numpy(dtype=float)
-    bad = np.isnan(numbers)
-    if bad.any():
-        i = np.flatnonzero(bad)[0]
-        raise where.error(i, column, f"{values.iloc[i]!r} is not a number")
+    numbers = _parse_numbers(frame[column], where, column, "the value is missing; fill it in", "")
     defined = np.ones(len(frame), dtype=bool)
     if spec.threshold is not None:
         # "above": the value reaches or exceeds the threshold; "below": it stays under it,

@@ -19,7 +19,7 @@ import numpy as np
 from pydantic import (BaseModel, ConfigDict, Field, ValidationError, create_model, field_validator,
                       model_validator)
 
-from .errors import InputError, did_you_mean
+from .errors import InputError, did_you_mean, read_input_file
 
 __all__ = ["Scenario", "Costs", "read_scenario", "scenario_from_text", "cutoff_grid",
            "break_even_probability", "cost_warnings", "WEEKDAYS", "BASELINES",
@@ -422,11 +422,7 @@ def cost_warnings(costs: Costs, action: str) -> list[str]:
 def read_scenario(path: str | Path) -> Scenario:
     """Read and validate a scenario file; every problem becomes a one-line :class:`InputError`."""
     path = Path(path)
-    if not path.exists():
-        raise InputError(f"{path}: no such scenario file; check the path")
-    if path.is_dir():
-        raise InputError(f"{path}: is a folder; give the scenario's .toml file")
-    raw = path.read_bytes()
+    raw = read_input_file(path, "scenario", "the scenario's .toml file")
     try:
         text = raw.decode("utf-8")
     except UnicodeDecodeError:
