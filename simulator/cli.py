@@ -89,7 +89,10 @@ def _headline(result: RunResult) -> Table:
     table.add_column(style="bold")
     table.add_column()
     p_star = s["theoretical_cutoff"]
-    p_star = "undefined" if p_star is None else f"{p_star:.2f}"
+    if p_star is not None:
+        p_star = f"{p_star:.2f}"
+    else:
+        p_star = "different at each site (sites.csv)" if s.get("portfolio") else "undefined"
     table.add_row("Recommended cutoff", f"{s['recommended_cutoff']:.2f}  (90% interval {lo:.2f} to {hi:.2f}; "
                                         f"break-even probability of the costs {p_star})")
     table.add_row("Expected season cost", f"{_money(model['mean'], cur)}  (90% of seasons "
