@@ -49,3 +49,11 @@ def test_readme_python_example_runs(monkeypatch):
     assert blocks
     for block in blocks:
         exec(compile(block, "README.md", "exec"), {})
+
+
+def test_readme_quotes_the_stress_headline_as_the_run_says_it():
+    result = run(read_scenario(ROOT / "scenarios" / "line_marking_stress.toml"))
+    wetter = next(case for case in result.stress if case.name == "a wetter year")
+    headline = " ".join(wetter.views[0].headline.split())
+    quoted = " ".join(re.search(r'\*"(Keep the cutoff.*?)"\*', README, flags=re.S).group(1).split())
+    assert headline.startswith(quoted)
