@@ -17,7 +17,6 @@ from rich.console import Console
 from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeRemainingColumn
 from rich.table import Table
 from rich.text import Text
-from rich.text import Text
 
 from . import __version__
 from .errors import InputError

@@ -17,7 +17,6 @@ sites, and :class:`Portfolio` sets each site's own cutoff beside it.
 
 from __future__ import annotations
 
-import dataclasses
 import uuid
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
@@ -26,20 +25,19 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from . import scoring
 from .blocklength import optimal_block_length
-from .costs import PricedBlock, SeasonPricer, occasion_costs, price
-from .decision import Decision, Distribution, decide, distribution, per_cutoff
+from .costs import PricedBlock, SeasonPricer, occasion_costs
+from .decision import Decision, Distribution, decide, distribution
 from .errors import InputError
 from .history import History, read_history
 from .operations import OperationsResult, UserProcess, make_rules
 from .operations_fast import OperationsPricer
 from .parallel import open_executor, prepare
 from .resample import BLOCK, Calendar, Resampler, block_rng, n_blocks, season_calendar
-from .scenario import BASELINES, Costs, Scenario, break_even_probability, cost_warnings, read_scenario
-from .scoring import Contingency
+from .scenario import BASELINES, Scenario, break_even_probability, cost_warnings, read_scenario
 from .selection import Calibration, Selection, calibrate, select_honestly
 from .stress import ReplicatePricer, StressResult, run_stress
+from .tables import cutoff_table, forecast_quality, forecast_scores
 
 __all__ = ["run", "run_history", "RunResult", "SiteResult", "Portfolio", "Progress", "CHUNK_BLOCKS"]
 
@@ -263,13 +261,10 @@ def run_history(scenario: Scenario, history: History, *, replicates: int | None 
     seasons_per_history = max(1, round(history.n_evaluated / calendar.n_occasions))
     decision = decide(model_cost, baseline_cost[sim.reference], cutoffs, seasons_per_history,
                       block_rng(seed, 0, _INTERVAL_STREAM))
-    table = _cutoff_table([(history, costs)], cutoffs, p_star, model_cost, baseline_cost[sim.reference])
+    table = cutoff_table([(history, costs)], cutoffs, p_star, model_cost, baseline_cost[sim.reference])
     if operations is not None:
         table = pd.concat([table, pd.DataFrame(operations.per_cutoff())], axis=1)
-    quality = _quality(history)
-    value_curve = _value_curve(history, cutoffs)
-    reliability = _frame(scoring.reliability_table(history.p[history.evaluated],
-                                                   history.event[history.evaluated]))
+    quality, value_curve, reliability = forecast_quality(history, cutoffs)
     warnings = tuple(history.warnings) + tuple(cost_warnings(costs, scenario.decision.action))
     stress = None
     if scenario.stress:
@@ -340,7 +335,8 @@ def _run_sites(scenario: Scenario, history: History, *, replicates: int, seed: i
     decision = decide(model_cost, baseline_cost[reference], cutoffs, seasons_per_history,
                       block_rng(seed, 0, _INTERVAL_STREAM))
     parts = [(site.history, site.scenario.costs) for site in sites]
-    table = _cutoff_table(parts, cutoffs, p_star, model_cost, baseline_cost[reference])
+    table = cutoff_table(parts, cutoffs, p_star, model_cost, baseline_cost[reference])
+    quality, value_curve, reliability = forecast_quality(history, cutoffs)
     own_cost = sites[0].model_cost.copy()
     for site in sites[1:]:
         own_cost += site.model_cost
@@ -366,10 +362,8 @@ def _run_sites(scenario: Scenario, history: History, *, replicates: int, seed: i
     return RunResult(scenario=scenario, history=history, calendar=calendar, cutoffs=cutoffs,
                      replicates=replicates, seed=seed, mean_block_days=mean_block * history.step_days,
                      theoretical_cutoff=p_star, decision=decision, model_cost=model_cost,
-                     baseline_cost=baseline_cost, table=table, quality=_quality(history),
-                     value_curve=_value_curve(history, cutoffs),
-                     reliability=_frame(scoring.reliability_table(history.p[history.evaluated],
-                                                                  history.event[history.evaluated])),
+                     baseline_cost=baseline_cost, table=table, quality=quality,
+                     value_curve=value_curve, reliability=reliability,
                      warnings=tuple(warnings), portfolio=portfolio)
 
 
@@ -431,7 +425,7 @@ def _site_result(work: "_Work", k: int, block: PricedBlock) -> SiteResult:
     n_occ = work.resampler.calendar.n_occasions
     decision = decide(block.model, reference, cutoffs, max(1, round(history.n_evaluated / n_occ)),
                       block_rng(work.seed, 0, _INTERVAL_STREAM))
-    table = _cutoff_table([(history, costs)], cutoffs, p_star, block.model, reference)
+    table = cutoff_table([(history, costs)], cutoffs, p_star, block.model, reference)
     operations = None
     if scenario.operations is not None:
         result = OperationsResult(rules=_pricer(work, k).rules, n_cutoffs=cutoffs.size, extras=block.extras,
@@ -442,7 +436,7 @@ def _site_result(work: "_Work", k: int, block: PricedBlock) -> SiteResult:
     warnings = tuple(f'site "{name}" {w}' for w in cost_warnings(costs, scenario.decision.action))
     own_dates = np.unique(history.dates[history.evaluated]).size
     return SiteResult(name=name, scenario=scenario, history=history, theoretical_cutoff=p_star,
-                      decision=decision, table=table, quality=_quality(history),
+                      decision=decision, table=table, quality=forecast_scores(history),
                       model_cost=block.model[:, decision.recommended_index].copy(),
                       baseline_cost=baseline_cost, missing_dates=work.resampler.n_dates - own_dates,
                       operations=operations, warnings=warnings)
@@ -711,80 +705,3 @@ def _joint_mean_block(history: History, scenarios: Sequence[Scenario]) -> float:
             act = p >= p_star
         total += np.bincount(index[own], weights=occasion_costs(act, event, costs), minlength=dates.size)
     return max(1.0, float(optimal_block_length(total)))
-
-
-def _cutoff_table(parts: Sequence[tuple[History, Costs]], cutoffs: np.ndarray, p_star: float,
-                  model_cost: np.ndarray, reference_cost: np.ndarray) -> pd.DataFrame:
-    """One row per cutoff: the classification counts and rates on the history, the historical
-    cost, net benefit and relative value, and the replicate seasons' cost and savings.
-
-    ``parts`` are (history, costs) of each site (one for a single site); counts and costs are
-    summed over them, so with many sites the table is the portfolio's under one common cutoff.
-    Net benefit needs one break-even probability ``p_star`` (NaN gives NaN).
-    """
-    periods = {"": lambda h: h.evaluated}
-    if parts[0][0].has_validation:
-        periods.update({"training_": lambda h: h.training, "validation_": lambda h: h.validation})
-    columns: dict[str, np.ndarray] = {"cutoff": cutoffs}
-    for prefix, period in periods.items():
-        each = [(scoring.count_at_cutoffs(h.p[period(h)], h.event[period(h)], cutoffs), costs)
-                for h, costs in parts]
-        counts = _sum([c for c, _ in each], lambda a, b: Contingency(*(x + y for x, y in zip(
-            dataclasses.astuple(a), dataclasses.astuple(b)))))
-        r = scoring.rates(counts)
-        columns.update({
-            f"{prefix}hits": counts.hits, f"{prefix}false_alarms": counts.false_alarms,
-            f"{prefix}misses": counts.misses, f"{prefix}correct_negatives": counts.correct_negatives,
-            f"{prefix}hit_rate": r.hit_rate, f"{prefix}specificity": r.specificity,
-            f"{prefix}miss_rate": r.miss_rate, f"{prefix}false_alarm_rate": r.false_alarm_rate,
-            f"{prefix}false_alarm_ratio": r.false_alarm_ratio,
-            f"{prefix}historical_cost": _sum([price(c, costs) for c, costs in each]),
-        })
-        if prefix == "":
-            n = counts.n_occasions
-            expense = _sum([price(c, costs) for c, costs in each]) / n
-            never = _sum([price(Contingency(0, 0, c.n_events, c.n_non_events), costs) for c, costs in each]) / n
-            always = _sum([price(Contingency(c.n_events, c.n_non_events, 0, 0), costs) for c, costs in each]) / n
-            perfect = _sum([price(Contingency(c.n_events, 0, 0, c.n_non_events), costs) for c, costs in each]) / n
-            columns["net_benefit"] = (scoring.net_benefit(counts.hits, counts.false_alarms, n, p_star)
-                                      if not np.isnan(p_star) else np.full(cutoffs.size, np.nan))
-            columns["relative_value"] = scoring.relative_value_from_costs(expense, never, always, perfect)
-    columns.update(per_cutoff(model_cost, reference_cost))
-    return pd.DataFrame(columns)
-
-
-def _sum(items: Sequence, add=lambda a, b: a + b):
-    """Items added left to right, the first as it is (so one item is returned untouched)."""
-    out = items[0]
-    for item in items[1:]:
-        out = add(out, item)
-    return out
-
-
-def _quality(history: History) -> dict[str, float]:
-    p, event = history.p[history.evaluated], history.event[history.evaluated]
-    return {"event_rate": float(event.mean()), "brier_score": float(scoring.brier_score(p, event)),
-            "brier_skill_score": float(scoring.brier_skill_score(p, event)),
-            "roc_auc": float(scoring.roc_auc(p, event))}
-
-
-def _value_curve(history: History, cutoffs: np.ndarray) -> pd.DataFrame:
-    """Relative economic value across cost-loss ratios (Richardson 2000): the potential value (best
-    cutoff for each ratio) and the value of acting at a cutoff equal to the ratio."""
-    p, event = history.p[history.evaluated], history.event[history.evaluated]
-    counts = scoring.count_at_cutoffs(p, event, cutoffs)
-    ratios = np.round(np.linspace(0.01, 0.99, 99), 2)
-    base_rate = float(event.mean())
-    at_ratio = scoring.count_at_cutoffs(p, event, ratios)
-    r_at = scoring.rates(at_ratio)
-    return pd.DataFrame({
-        "cost_loss_ratio": ratios,
-        "potential_value": scoring.value_curve(counts, ratios),
-        "value_at_cutoff_equal_to_ratio": scoring.relative_value(r_at.hit_rate, r_at.false_alarm_rate,
-                                                                 base_rate, ratios),
-    })
-
-
-def _frame(table) -> pd.DataFrame:
-    """A table given as a dict of arrays or a dataclass of arrays, as a DataFrame."""
-    return pd.DataFrame(dataclasses.asdict(table) if dataclasses.is_dataclass(table) else table)

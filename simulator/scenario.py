@@ -405,14 +405,14 @@ def cost_warnings(costs: Costs, action: str) -> list[str]:
     c_prime = costs.false_alarm - costs.correct_negative
     d_prime = costs.miss - costs.hit
     if c_prime <= 0 and d_prime <= 0:
-        return [f"[costs]: acting costs no more than not acting when the event fails to happen, and not "
-                f"acting costs no more when it happens; check the signs of the costs"]
+        return ["[costs]: acting costs no more than not acting when the event fails to happen, and not "
+                "acting costs no more when it happens; check the signs of the costs"]
     if c_prime <= 0:
         return [f'[costs]: "{action}" is always at least as cheap (false_alarm <= correct_negative and '
-                f"hit <= miss), so every cutoff below the lowest forecast is best; check the costs"]
+                "hit <= miss), so every cutoff below the lowest forecast is best; check the costs"]
     if d_prime <= 0:
-        return [f'[costs]: not acting is always at least as cheap (miss <= hit and correct_negative <= '
-                f"false_alarm), so the best rule never acts; check the costs"]
+        return ["[costs]: not acting is always at least as cheap (miss <= hit and correct_negative <= "
+                "false_alarm), so the best rule never acts; check the costs"]
     return []
 
 
