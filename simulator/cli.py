@@ -186,7 +186,7 @@ def _selection_tables(result: RunResult) -> list:
     if sel.validation is not None:
         v = sel.validation
         t, val = v.training, v.validation
-        fixed = (" (with the fixed costs per occasion; the operating rules are not replayed here)"
+        fixed = (" (each past season played under the operating rules on this season's calendar)"
                  if result.scenario.operations is not None else "")
         table = Table(title=f"Chosen on the training period, priced on the validation period: cutoff "
                             f"{v.chosen_cutoff:.2f}{fixed}", title_justify="left")

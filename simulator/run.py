@@ -278,7 +278,8 @@ def run_history(scenario: Scenario, history: History, *, replicates: int | None 
     selection = select_honestly(history, calendar, cutoffs, costs, sim.reference, mean_block,
                                 sim.window_days, seed, replicates,
                                 sim.walk_forward if walk_forward is None else walk_forward,
-                                label=_label(scenario))
+                                label=_label(scenario),
+                                rules=scenario if scenario.operations is not None else None)
     return RunResult(scenario=scenario, history=history, calendar=calendar, cutoffs=cutoffs,
                      replicates=replicates, seed=seed, mean_block_days=mean_block * history.step_days,
                      theoretical_cutoff=p_star, decision=decision, model_cost=model_cost,

@@ -40,8 +40,9 @@ from . import scoring
 from .costs import SeasonPricer, baseline_actions, occasion_costs, price
 from .errors import InputError
 from .history import History
+from .operations_fast import OperationsPricer
 from .resample import Calendar, Resampler
-from .scenario import Costs
+from .scenario import BASELINES, Costs, Scenario
 
 __all__ = ["Recalibration", "fit_recalibration", "Calibration", "calibrate", "PeriodRecord",
            "ValidationCheck", "WalkForwardStep", "WalkForward", "Selection", "select_honestly",
@@ -227,7 +228,8 @@ class Selection:
 
 def select_honestly(history: History, calendar: Calendar, cutoffs: np.ndarray, costs: Costs,
                     reference: str, mean_block: float, window_days: int, seed: int,
-                    replicates: int, walk_forward: bool, label: str = "scenario") -> Selection | None:
+                    replicates: int, walk_forward: bool, label: str = "scenario",
+                    rules: Scenario | None = None) -> Selection | None:
     """The validation check (when the history has a validation period) and the walk-forward.
 
     Parameters
@@ -240,11 +242,15 @@ def select_honestly(history: History, calendar: Calendar, cutoffs: np.ndarray, c
         :data:`SELECTION_REPLICATES`).
     walk_forward : run the walk-forward; needs at least two seasons.
 
-    Periods are priced with the ``[costs]`` matrix on their historical occasions (with
-    ``[operations]`` too: the operating rules are not replayed here).
+    rules : the scenario, when it has ``[operations]``: replicates are then played under the rules,
+        and a past period is priced by playing each of its seasons, laid on the calendar of the
+        season being priced (each calendar day takes the season's occasion nearest to it in day of
+        season), under the rules. Without rules, periods are priced with the ``[costs]`` matrix on
+        their historical occasions.
     """
     n_rep = max(20, min(int(replicates), SELECTION_REPLICATES))
-    context = _Context(history, calendar, cutoffs, costs, reference, mean_block, window_days, seed, n_rep)
+    context = _Context(history, calendar, cutoffs, costs, reference, mean_block, window_days, seed, n_rep,
+                       rules)
     validation = _validation_check(context) if history.has_validation else None
     forward = None
     if walk_forward:
@@ -268,6 +274,13 @@ class _Context:
     window_days: int
     seed: int
     n_rep: int
+    rules: Scenario | None = None
+
+    def pricer(self, history: History):
+        """The pricer of replicate seasons: the rules engine with ``[operations]``, else the core's."""
+        if self.rules is None:
+            return SeasonPricer(history, self.cutoffs, self.costs)
+        return OperationsPricer(history, self.calendar, self.cutoffs, self.rules)
 
 
 def _validation_check(c: _Context) -> ValidationCheck:
@@ -275,12 +288,10 @@ def _validation_check(c: _Context) -> ValidationCheck:
     train, val = h.training, h.validation
     index, spread = _choose_on(c, train, key=0, target_occasions=int(val.sum()))
     cutoff = float(c.cutoffs[index])
-    val_costs = _historical_costs(h, val, c.cutoffs, c.costs)
+    val_costs, reference_cost, _ = _period_costs(c, val, train)
     best = int(np.argmin(val_costs))
-    training = _record("training", h, train, cutoff, c.costs)
-    validation = _record("validation", h, val, cutoff, c.costs)
-    actions = baseline_actions(h, c.costs)[c.reference]
-    reference_cost = float(occasion_costs(actions[val], h.event[val], c.costs).sum())
+    training = _record(c, "training", train, train, index)
+    validation = _record(c, "validation", val, train, index)
     return ValidationCheck(chosen_cutoff=cutoff, training=training, validation=validation,
                            validation_best_cutoff=float(c.cutoffs[best]),
                            validation_best_cost=float(val_costs[best]),
@@ -296,20 +307,17 @@ def _walk_forward(c: _Context) -> WalkForward:
         train = h.evaluated & (h.season < season) & (h.season >= 0)
         priced = h.evaluated & (h.season == season)
         index, spread = _choose_on(c, train, key=int(season), target_occasions=int(priced.sum()))
-        cutoff = float(c.cutoffs[index])
-        season_costs = _historical_costs(h, priced, c.cutoffs, c.costs)
-        best = int(np.argmin(season_costs))
-        record = _record(f"season {season}", h, priced, cutoff, c.costs)
         # the reference knows only the earlier seasons too (it matters for seasonal_rate)
-        earlier = dataclasses.replace(h, evaluated=train, validation=np.zeros_like(train))
-        actions = baseline_actions(earlier, c.costs)[c.reference]
+        season_costs, reference_cost, _ = _period_costs(c, priced, train)
+        best = int(np.argmin(season_costs))
+        record = _record(c, f"season {season}", priced, train, index)
         steps.append(WalkForwardStep(
-            season=int(season), training=_record(f"seasons before {season}", h, train, cutoff, c.costs),
+            season=int(season), training=_record(c, f"seasons before {season}", train, train, index),
             priced=record, best_cutoff=float(c.cutoffs[best]), best_cost=float(season_costs[best]),
-            reference_cost=float(occasion_costs(actions[priced], h.event[priced], c.costs).sum()),
-            expected_range=spread, flag=bool(record.cost_per_occasion > spread[1])))
+            reference_cost=reference_cost, expected_range=spread,
+            flag=bool(record.cost_per_occasion > spread[1])))
     later = h.evaluated & (h.season > h.seasons[0])
-    pooled = _historical_costs(h, later, c.cutoffs, c.costs)
+    pooled, _, _ = _period_costs(c, later, h.training)
     best = int(np.argmin(pooled))
     total = float(sum(s.priced.cost for s in steps))
     reference = float(sum(s.reference_cost for s in steps))
@@ -330,7 +338,7 @@ def _choose_on(c: _Context, mask: np.ndarray, key: int,
     """
     h = dataclasses.replace(c.history, evaluated=mask, validation=np.zeros_like(mask))
     resampler = Resampler(h, c.calendar, c.mean_block, c.window_days)
-    pricer = SeasonPricer(h, c.cutoffs, c.costs)
+    pricer = c.pricer(h)
     model = np.concatenate([pricer(rows).model
                             for rows in resampler.blocks(c.seed, c.n_rep, SELECTION_STREAM, key)])
     index = int(np.argmin(model.mean(axis=0)))
@@ -347,16 +355,48 @@ def _choose_on(c: _Context, mask: np.ndarray, key: int,
     return index, (float(lo), float(hi))
 
 
-def _historical_costs(history: History, mask: np.ndarray, cutoffs: np.ndarray,
-                      costs: Costs) -> np.ndarray:
-    """Total cost of the ``mask`` occasions at every cutoff, (n_cutoffs,)."""
-    return price(scoring.count_at_cutoffs(history.p[mask], history.event[mask], cutoffs), costs)
+def _period_costs(c: _Context, mask: np.ndarray, known: np.ndarray) -> tuple[np.ndarray, float, int]:
+    """What the ``mask`` period cost: at every cutoff (n_cutoffs,), under the reference rule, and
+    over how many occasions.
+
+    ``known`` is the period the reference rule may learn from (the seasonal rate's months). Without
+    rules, the period's historical occasions are priced with the ``[costs]`` matrix; with rules,
+    each season of the period is laid on the priced calendar and played (see :func:`select_honestly`).
+    """
+    h = c.history
+    learnt = dataclasses.replace(h, evaluated=known, validation=np.zeros_like(known))
+    if c.rules is None:
+        counts = scoring.count_at_cutoffs(h.p[mask], h.event[mask], c.cutoffs)
+        actions = baseline_actions(learnt, c.costs)[c.reference]
+        reference = float(occasion_costs(actions[mask], h.event[mask], c.costs).sum())
+        return price(counts, c.costs), reference, int(mask.sum())
+    rows = _seasons_on_calendar(h, mask, c.calendar)
+    block = c.pricer(learnt)(rows)
+    reference = float(block.baselines[:, BASELINES.index(c.reference)].sum())
+    return block.model.sum(axis=0), reference, int(rows.size)
 
 
-def _record(period: str, history: History, mask: np.ndarray, cutoff: float, costs: Costs) -> PeriodRecord:
+def _seasons_on_calendar(history: History, mask: np.ndarray, calendar: Calendar) -> np.ndarray:
+    """Each season of the ``mask`` period laid on the calendar: (n_seasons, n_occasions) history
+    rows, each calendar day taking the season's ``mask`` occasion nearest to it in day of season."""
+    out = []
+    for season in np.unique(history.season[mask]):
+        rows = np.flatnonzero(mask & (history.season == season))
+        day = history.day_of_season[rows]
+        right = np.clip(np.searchsorted(day, calendar.day_of_season), 0, rows.size - 1)
+        left = np.clip(right - 1, 0, rows.size - 1)
+        nearer_left = np.abs(day[left] - calendar.day_of_season) <= np.abs(day[right] - calendar.day_of_season)
+        out.append(rows[np.where(nearer_left, left, right)])
+    return np.stack(out)
+
+
+def _record(c: _Context, period: str, mask: np.ndarray, known: np.ndarray, index: int) -> PeriodRecord:
+    """The period's classification matrix and rates at the chosen cutoff, and what it cost."""
+    history, cutoff = c.history, float(c.cutoffs[index])
     counts = scoring.count_at_cutoffs(history.p[mask], history.event[mask], np.array([cutoff]))[0]
     r = scoring.rates(counts)
-    cost = float(price(counts, costs))
+    costs, _, n_priced = _period_costs(c, mask, known)
+    cost = float(costs[index])
     n = int(mask.sum())
     dates = history.dates[mask]
     return PeriodRecord(period=period, start=str(dates[0]), end=str(dates[-1]), n_occasions=n,
@@ -364,4 +404,4 @@ def _record(period: str, history: History, mask: np.ndarray, cutoff: float, cost
                         misses=int(counts.misses), correct_negatives=int(counts.correct_negatives),
                         hit_rate=float(r.hit_rate), specificity=float(r.specificity),
                         miss_rate=float(r.miss_rate), false_alarm_rate=float(r.false_alarm_rate),
-                        cost=cost, cost_per_occasion=cost / n)
+                        cost=cost, cost_per_occasion=cost / n_priced)

@@ -7,6 +7,8 @@ Bernoulli(p) make a forecast calibrated by construction (common practice, no sou
 
 from __future__ import annotations
 
+from pathlib import Path
+
 import numpy as np
 import pandas as pd
 import pytest
@@ -16,9 +18,10 @@ from simulator.cli import app
 from simulator.errors import InputError
 from simulator.history import history_from_frame
 from simulator.outputs import summary
-from simulator.run import run_history
-from simulator.scenario import scenario_from_text
-from simulator.selection import fit_recalibration
+from simulator.resample import Calendar
+from simulator.run import run, run_history
+from simulator.scenario import read_scenario, scenario_from_text
+from simulator.selection import _seasons_on_calendar, fit_recalibration
 
 SEASON = {"months": [4, 5, 6, 7, 8, 9]}
 
@@ -155,3 +158,32 @@ def test_command_line_walk_forward_prints_the_check_and_writes_selection_csv(tmp
     rows = pd.read_csv(tmp_path / "out" / "selection.csv")
     assert list(rows["period"]) == ["seasons before 2018", "season 2018", "seasons before 2019",
                                     "season 2019", "seasons before 2020", "season 2020"]
+
+
+# ---- under operating rules ----------------------------------------------------------------------
+
+def test_a_season_laid_on_its_own_calendar_is_itself():
+    # common practice, no source: laying a past season on a calendar with exactly its dates must
+    # give back its own occasions in order
+    dates = np.arange(np.datetime64("2021-04-01"), np.datetime64("2021-05-01"))
+    history = type("H", (), {})()
+    history.season = np.full(dates.size, 2021)
+    history.day_of_season = (dates - dates[0]).astype(np.int64)
+    mask = np.ones(dates.size, dtype=bool)
+    calendar = Calendar(year=2021, dates=dates, day_of_season=history.day_of_season)
+    np.testing.assert_array_equal(_seasons_on_calendar(history, mask, calendar), np.arange(dates.size)[None, :])
+
+
+def test_the_check_under_operating_rules_is_priced_by_the_rules():
+    # The rules demo recommends a cutoff far below the fixed-cost break-even probability 0.72
+    # (a stood-down dry day loses progress against a deadline); a check priced by the rules must
+    # choose on the training seasons the way the rules do, not the way the fixed costs do.
+    root = Path(__file__).resolve().parents[1] / "scenarios"
+    result = run(read_scenario(root / "line_marking_rules.toml"), replicates=200)
+    check = summary(result)["selection"]["validation"]
+    assert check["chosen_cutoff"] < 0.6
+    assert abs(check["chosen_cutoff"] - result.decision.recommended_cutoff) <= 0.15
+    # a season under the rules costs about 1,700-1,800 EUR per calendar occasion in this demo (the
+    # base run's mean season cost over its 183 occasions): the check prices on the same scale
+    per_occasion = result.strategies["model"].mean / result.calendar.n_occasions
+    assert check["validation"]["cost_per_occasion"] == pytest.approx(per_occasion, rel=0.25)
