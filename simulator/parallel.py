@@ -22,6 +22,7 @@ whatever the number of tasks.
 
 from __future__ import annotations
 
+import ctypes
 import multiprocessing
 import os
 import socket
@@ -206,6 +207,7 @@ class DaskExecutor(Executor):
         self._distributed = distributed
 
     def map_unordered(self, fn, shared, tasks):
+        fn = _OnDaskWorker(fn)
         shared_future = self.client.scatter(shared, broadcast=True, hash=False)
         queue = iter(enumerate(tasks))
         finished = self._distributed.as_completed(loop=self.client.loop)
@@ -231,6 +233,41 @@ class DaskExecutor(Executor):
     def close(self) -> None:
         if self._own:
             self.client.close()
+
+
+class _OnDaskWorker:
+    """A task function that first gives large arrays back to the heap in the worker's process.
+
+    Dask's nanny starts workers with ``MALLOC_TRIM_THRESHOLD_=65536`` so that they return memory to
+    the system; on glibc that also fixes the threshold above which ``malloc`` maps fresh pages at its
+    128 KiB default, so every block-sized numpy temporary is mapped, zeroed and unmapped again and the
+    pricing runs up to twice as slowly. Raising the mmap and trim thresholds with ``mallopt``
+    (glibc's ``M_MMAP_THRESHOLD`` = -3, ``M_TRIM_THRESHOLD`` = -1; see ``man mallopt``) lets freed
+    blocks be reused; elsewhere (no glibc) nothing is changed.
+    """
+
+    def __init__(self, fn: TaskFunction):
+        self.fn = fn
+
+    def __call__(self, shared: Any, *task: Any) -> Any:
+        _roomy_heap()
+        return self.fn(shared, *task)
+
+
+_HEAP_TUNED = False
+
+
+def _roomy_heap() -> None:
+    global _HEAP_TUNED
+    if _HEAP_TUNED:
+        return
+    _HEAP_TUNED = True
+    try:
+        libc = ctypes.CDLL("libc.so.6")
+        libc.mallopt(-3, 32 * 2**20)  # M_MMAP_THRESHOLD: glibc's largest allowed value on 64-bit
+        libc.mallopt(-1, 256 * 2**20)  # M_TRIM_THRESHOLD
+    except (OSError, AttributeError):
+        pass
 
 
 @contextmanager
