@@ -280,7 +280,9 @@ def _portfolio_entry(result: RunResult) -> dict[str, Any]:
     total at the own cutoffs, and what it would be if the sites' seasons were independent (the sum
     of their variances), which understates it when sites suffer the same weather; ``ranking``: the
     sites by the value of acting on the forecast (mean season cost of the cheaper of never and
-    always acting minus that at the site's cutoff), highest first.
+    always acting minus that at the site's cutoff), highest first; ``checks`` (with a validation
+    period or walk-forward): each site's own honest check, as the ``selection`` block of a
+    single-site run.
     """
     from .decision import distribution
 
@@ -309,4 +311,7 @@ def _portfolio_entry(result: RunResult) -> dict[str, Any]:
                      "recommended_cutoff": site.decision.recommended_cutoff,
                      "mean_savings": site.decision.savings.mean, "prob_saving": site.decision.prob_saving}
                     for i, site in enumerate(portfolio.ranking)],
+        **({"checks": {site.name: _selection_entry(site.selection) for site in portfolio.sites
+                       if site.selection is not None}}
+           if any(site.selection is not None for site in portfolio.sites) else {}),
     }

@@ -17,6 +17,7 @@ sites, and :class:`Portfolio` sets each site's own cutoff beside it.
 
 from __future__ import annotations
 
+import dataclasses
 import uuid
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
@@ -75,6 +76,8 @@ class SiteResult:
     missing_dates: int
     operations: dict | None = None
     warnings: tuple[str, ...] = field(default=())
+    # the validation check and walk-forward of this site alone (as a single-site run makes them)
+    selection: Selection | None = None
 
     @property
     def reference(self) -> str:
@@ -327,6 +330,10 @@ def _run_sites(scenario: Scenario, history: History, *, replicates: int, seed: i
     joint_dates = resampler.n_dates
 
     sites = tuple(results[k] for k in range(len(names)))
+    forward = sim.walk_forward if walk_forward is None else walk_forward
+    if history.has_validation or forward:
+        sites = tuple(_checked_site(site, calendar, cutoffs, mean_block, seed, replicates, forward, label,
+                                    progress, k, len(sites)) for k, site in enumerate(sites))
     reference = sim.reference
     model_cost, baseline_matrix = total.model, total.baselines
     baseline_cost = {name: baseline_matrix[:, i] for i, name in enumerate(BASELINES)}
@@ -356,16 +363,27 @@ def _run_sites(scenario: Scenario, history: History, *, replicates: int, seed: i
     if scenario.stress:
         warnings.append(f"{label} [[stress]]: stress cases are priced for one site at a time; they were "
                         "skipped (run a site alone to stress it)")
-    if history.has_validation or (sim.walk_forward if walk_forward is None else walk_forward):
-        warnings.append(f"{label}: the check of the cutoff on a validation period or walk-forward is made "
-                        "for one site at a time and was skipped (run a site alone to see it); the "
-                        "training_ and validation_ columns of the tables are kept")
     return RunResult(scenario=scenario, history=history, calendar=calendar, cutoffs=cutoffs,
                      replicates=replicates, seed=seed, mean_block_days=mean_block * history.step_days,
                      theoretical_cutoff=p_star, decision=decision, model_cost=model_cost,
                      baseline_cost=baseline_cost, table=table, quality=quality,
                      value_curve=value_curve, reliability=reliability,
                      warnings=tuple(warnings), portfolio=portfolio)
+
+
+def _checked_site(site: SiteResult, calendar: Calendar, cutoffs: np.ndarray, mean_block: float, seed: int,
+                  replicates: int, walk_forward: bool, label: str, progress: Progress | None, k: int,
+                  n_sites: int) -> SiteResult:
+    """The site with its own validation check and walk-forward, made on its history alone exactly
+    as a single-site run makes them (the joint replay's mean run length)."""
+    scenario = site.scenario
+    selection = select_honestly(site.history, calendar, cutoffs, scenario.costs, scenario.simulation.reference,
+                                mean_block, scenario.simulation.window_days, seed, replicates, walk_forward,
+                                label=f'{label} site "{site.name}"',
+                                rules=scenario if scenario.operations is not None else None)
+    if progress is not None:
+        progress("checking each site's cutoff on later seasons", k + 1, n_sites)
+    return dataclasses.replace(site, selection=selection)
 
 
 class _Totals:
@@ -469,6 +487,16 @@ def _sites_table(sites: Sequence[SiteResult], common: int) -> pd.DataFrame:
                "mean_savings": d.savings.mean, "p05_savings": float(p05), "p95_savings": float(p95),
                "prob_saving": d.prob_saving, "forecast_value": value, "value_rank": int(r),
                "mean_cost_at_common_cutoff": float(site.table["mean_cost"].iloc[common])}
+        check = site.selection.validation if site.selection is not None else None
+        if check is not None:
+            row.update({"validation_chosen_cutoff": check.chosen_cutoff,
+                        "validation_cost": check.validation.cost,
+                        "validation_best_cutoff": check.validation_best_cutoff,
+                        "validation_optimism": check.optimism, "validation_flag": check.flag})
+        forward = site.selection.walk_forward if site.selection is not None else None
+        if forward is not None:
+            row.update({"walk_forward_cost": forward.total_cost, "walk_forward_optimism": forward.optimism,
+                        "walk_forward_flagged_seasons": " ".join(str(x) for x in forward.flagged_seasons)})
         if site.operations is not None:
             at = site.operations["at_recommended_cutoff"]
             row.update({"share_completed": at["share_completed"], "share_late": at["share_late"],

@@ -301,3 +301,21 @@ def test_report_has_a_sites_section_whose_numbers_are_those_of_summary_json(resu
     first = s["portfolio"]["ranking"][0]
     assert f"<td>{first['site']}</td>" in html
     assert money(first["forecast_value"], s["currency"]) in html
+
+
+def test_each_site_gets_the_validation_check_and_walk_forward_it_would_get_alone(frame):
+    """Same data, seed and run length: a site's honest check (training against validation, and the
+    walk-forward) is the one a single-site run of its rows makes."""
+    text = SITES_TOML.replace('site_column = "site"\n', 'site_column = "site"\nvalidation_from = "2019-10-01"\n')
+    scenario = scenario_from_text(text)
+    together = run_history(scenario, history_from_frame(frame, scenario, label="history.csv"),
+                           replicates=100, walk_forward=True)
+    for k, name in enumerate(("North", "South")):
+        alone_scenario = scenario_from_text(text.replace('site_column = "site"\n', ""))
+        rows = frame[frame["site"] == name].drop(columns="site").reset_index(drop=True)
+        alone = run_history(alone_scenario, history_from_frame(rows, alone_scenario, label="history.csv"),
+                            replicates=100, walk_forward=True)
+        assert together.sites[k].selection == alone.selection
+        row = together.portfolio.table.iloc[k]
+        assert row["validation_chosen_cutoff"] == alone.selection.validation.chosen_cutoff
+        assert row["walk_forward_optimism"] == alone.selection.walk_forward.optimism
