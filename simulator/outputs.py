@@ -110,7 +110,8 @@ def render_files(result: RunResult) -> dict[str, bytes]:
         "value_curve.csv": result.value_curve.to_csv(index=False, lineterminator="\n").encode(),
         "reliability.csv": result.reliability.to_csv(index=False, lineterminator="\n").encode(),
     }
-    if result.stress is not None:
+    if result.stress is not None or (result.portfolio is not None
+                                     and any(site.stress is not None for site in result.portfolio.sites)):
         files["stress.csv"] = _csv(_stress_frame(result))
     if result.calibration is not None:
         files["calibration.csv"] = _csv(result.calibration.table)
@@ -176,18 +177,27 @@ def _stress_entry(case: StressResult) -> dict[str, Any]:
 
 
 def _stress_frame(result: RunResult) -> pd.DataFrame:
-    """One row for the base case, then one per stress case and view."""
-    base = result.strategies
-    d = result.decision
-    reference = result.reference
-    savings = result.baseline_cost[reference] - result.model_cost[:, d.recommended_index]
+    """One row for the base case, then one per stress case and view; with many sites, those rows
+    for each site, with a ``site`` column first."""
+    if result.portfolio is None:
+        d = result.decision
+        savings = result.baseline_cost[result.reference] - result.model_cost[:, d.recommended_index]
+        return _stress_rows(result.strategies, d, savings, result.stress)
+    frames = [_stress_rows(site.strategies, site.decision, site.baseline_cost[site.reference] - site.model_cost,
+                           site.stress).assign(site=site.name)
+              for site in result.portfolio.sites if site.stress is not None]
+    frame = pd.concat(frames, ignore_index=True)
+    return frame[["site"] + [c for c in frame.columns if c != "site"]]
+
+
+def _stress_rows(base, d, savings: np.ndarray, stress) -> pd.DataFrame:
     rows = [{"case": "base case", "probabilities": "as_forecast", "target_event_rate": None,
              "achieved_event_rate": None, "event_rate_reached": None, "base_cutoff": d.recommended_cutoff,
              **_strategy_columns(base), "extra_cost": 0.0, "best_cutoff": d.recommended_cutoff,
              "best_mean_cost": base["model"].mean, "saved_by_moving": 0.0, "prob_moving_saves": 0.0,
              "mean_savings": float(savings.mean()), "prob_saving": float((savings > 0).mean()),
              "break_even": _ranges(d.break_even)}]
-    for case in result.stress or ():
+    for case in stress or ():
         rate = case.event_rate
         for v in case.views:
             rows.append({"case": case.name, "probabilities": v.probabilities,
@@ -282,7 +292,8 @@ def _portfolio_entry(result: RunResult) -> dict[str, Any]:
     sites by the value of acting on the forecast (mean season cost of the cheaper of never and
     always acting minus that at the site's cutoff), highest first; ``checks`` (with a validation
     period or walk-forward): each site's own honest check, as the ``selection`` block of a
-    single-site run.
+    single-site run; ``stress`` (with ``[[stress]]`` cases): each site's cases, as the ``stress``
+    list of a single-site run.
     """
     from .decision import distribution
 
@@ -314,4 +325,7 @@ def _portfolio_entry(result: RunResult) -> dict[str, Any]:
         **({"checks": {site.name: _selection_entry(site.selection) for site in portfolio.sites
                        if site.selection is not None}}
            if any(site.selection is not None for site in portfolio.sites) else {}),
+        **({"stress": {site.name: [_stress_entry(case) for case in site.stress] for site in portfolio.sites
+                       if site.stress is not None}}
+           if any(site.stress is not None for site in portfolio.sites) else {}),
     }

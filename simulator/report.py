@@ -338,7 +338,13 @@ def _portfolio(summary: Mapping[str, Any], currency: str, decimals: int) -> dict
                 "value": money(r["forecast_value"], currency), "saving": money(r["mean_savings"], currency),
                 "prob_saving": share(r["prob_saving"])} for r in p["ranking"][:PORTFOLIO_ROWS]]
     spread = p["spread"]
+    stress = [{"site": site, "headlines": [v["headline"] for case in cases for v in case["views"]]}
+              for site, cases in list((p.get("stress") or {}).items())[:PORTFOLIO_ROWS]]
+    checks = [{"site": site, "cutoff": cutoff_text(c["validation"]["chosen_cutoff"], decimals),
+               "optimism": money(c["validation"]["optimism"], currency), "flag": c["validation"]["flag"]}
+              for site, c in list((p.get("checks") or {}).items())[:PORTFOLIO_ROWS] if "validation" in c]
     return {"n": p["sites"], "column": p["site_column"], "rows": rows, "ranking": ranking,
+            "stress": stress, "checks": checks,
             "more": max(0, p["sites"] - PORTFOLIO_ROWS),
             "own_gain": money(p["own_versus_common"]["mean"], currency),
             "own_cheaper": share(p["own_versus_common"]["prob_cheaper"]),

@@ -76,8 +76,10 @@ class SiteResult:
     missing_dates: int
     operations: dict | None = None
     warnings: tuple[str, ...] = field(default=())
-    # the validation check and walk-forward of this site alone (as a single-site run makes them)
+    # the validation check and walk-forward, and the [[stress]] cases, of this site alone (as a
+    # single-site run of its rows makes them)
     selection: Selection | None = None
+    stress: tuple[StressResult, ...] | None = None
 
     @property
     def reference(self) -> str:
@@ -272,7 +274,8 @@ def run_history(scenario: Scenario, history: History, *, replicates: int | None 
     stress = None
     if scenario.stress:
         stress = run_stress(scenario, history, calendar=calendar, resampler=resampler, cutoffs=cutoffs,
-                            seed=seed, replicates=replicates, decision=decision, model_cost=model_cost,
+                            seed=seed, replicates=replicates, decision=decision,
+                            base_mean_cost=float(model_cost[:, decision.recommended_index].mean()),
                             seasons_per_history=seasons_per_history,
                             interval_rng=lambda: block_rng(seed, 0, _INTERVAL_STREAM),
                             outcome_probability=None if calibration is None else calibration.probability,
@@ -334,6 +337,9 @@ def _run_sites(scenario: Scenario, history: History, *, replicates: int, seed: i
     if history.has_validation or forward:
         sites = tuple(_checked_site(site, calendar, cutoffs, mean_block, seed, replicates, forward, label,
                                     progress, k, len(sites)) for k, site in enumerate(sites))
+    if scenario.stress:
+        sites = tuple(_stressed_site(site, calendar, cutoffs, mean_block, seed, replicates, progress)
+                      for site in sites)
     reference = sim.reference
     model_cost, baseline_matrix = total.model, total.baselines
     baseline_cost = {name: baseline_matrix[:, i] for i, name in enumerate(BASELINES)}
@@ -360,9 +366,8 @@ def _run_sites(scenario: Scenario, history: History, *, replicates: int, seed: i
     for site in sites:  # the warnings of sites with costs of their own
         if site.scenario.costs != scenario.costs:
             warnings += site.warnings
-    if scenario.stress:
-        warnings.append(f"{label} [[stress]]: stress cases are priced for one site at a time; they were "
-                        "skipped (run a site alone to stress it)")
+    for site in sites:
+        warnings += tuple(f'site "{site.name}": {w}' for case in site.stress or () for w in case.warnings)
     return RunResult(scenario=scenario, history=history, calendar=calendar, cutoffs=cutoffs,
                      replicates=replicates, seed=seed, mean_block_days=mean_block * history.step_days,
                      theoretical_cutoff=p_star, decision=decision, model_cost=model_cost,
@@ -384,6 +389,23 @@ def _checked_site(site: SiteResult, calendar: Calendar, cutoffs: np.ndarray, mea
     if progress is not None:
         progress("checking each site's cutoff on later seasons", k + 1, n_sites)
     return dataclasses.replace(site, selection=selection)
+
+
+def _stressed_site(site: SiteResult, calendar: Calendar, cutoffs: np.ndarray, mean_block: float, seed: int,
+                   replicates: int, progress: Progress | None) -> SiteResult:
+    """The site with its ``[[stress]]`` cases, priced on its history alone exactly as a single-site
+    run prices them (the joint replay's mean run length; a site with a row on every date has the
+    same replicates either way)."""
+    scenario, history = site.scenario, site.history
+    resampler = Resampler(history, calendar, mean_block, scenario.simulation.window_days)
+    stress = run_stress(scenario, history, calendar=calendar, resampler=resampler, cutoffs=cutoffs,
+                        seed=seed, replicates=replicates, decision=site.decision,
+                        base_mean_cost=float(site.model_cost.mean()),
+                        seasons_per_history=max(1, round(history.n_evaluated / calendar.n_occasions)),
+                        interval_rng=lambda: block_rng(seed, 0, _INTERVAL_STREAM),
+                        progress=None if progress is None else
+                        (lambda step, done, total: progress(f'site "{site.name}" {step}', done, total)))
+    return dataclasses.replace(site, stress=stress)
 
 
 class _Totals:

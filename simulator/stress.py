@@ -350,19 +350,20 @@ class StressResult:
 
 def run_stress(scenario: Scenario, history: History, *, calendar: Calendar, resampler: Resampler,
                cutoffs: np.ndarray, seed: int, replicates: int, decision: Decision,
-               model_cost: np.ndarray, seasons_per_history: int,
+               base_mean_cost: float, seasons_per_history: int,
                interval_rng: Callable[[], np.random.Generator],
                outcome_probability: np.ndarray | None = None,
                progress: Callable[[str, int, int], None] | None = None) -> tuple[StressResult, ...]:
     """Price every ``[[stress]]`` case of ``scenario``, in order.
 
-    ``resampler``, ``seed``, ``replicates``, ``decision`` and ``model_cost`` are the base run's;
+    ``resampler``, ``seed``, ``replicates`` and ``decision`` are the base run's, ``base_mean_cost``
+    its mean season cost at its recommended cutoff;
     ``interval_rng()`` gives the generator the base run used for the interval of its cutoff (so the
     cases' intervals share its random numbers). ``outcome_probability`` is set in the calibrated mode.
     """
     _check_cases(scenario)
     base = _Base(scenario, history, calendar, resampler, cutoffs, seed, replicates, decision,
-                 float(model_cost[:, decision.recommended_index].mean()), seasons_per_history,
+                 float(base_mean_cost), seasons_per_history,
                  interval_rng, outcome_probability, progress)
     return tuple(_run_case(case, base) for case in scenario.stress)
 

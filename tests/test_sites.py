@@ -9,6 +9,7 @@ replicates (common practice, no source).
 from __future__ import annotations
 
 import importlib
+import io
 import json
 
 import numpy as np
@@ -19,7 +20,7 @@ from typer.testing import CliRunner
 from simulator import InputError, history_from_frame, run, run_history, scenario_from_text
 from simulator.cli import app
 from simulator.history import MISSING_DATE_RULE
-from simulator.outputs import summary
+from simulator.outputs import render_files, summary
 from simulator.resample import Resampler, season_calendar
 
 
@@ -319,3 +320,30 @@ def test_each_site_gets_the_validation_check_and_walk_forward_it_would_get_alone
         row = together.portfolio.table.iloc[k]
         assert row["validation_chosen_cutoff"] == alone.selection.validation.chosen_cutoff
         assert row["walk_forward_optimism"] == alone.selection.walk_forward.optimism
+
+
+def test_each_site_gets_the_stress_cases_it_would_get_alone(frame, tmp_path):
+    """Same data, seed and run length: a site's [[stress]] cases are those a single-site run of its
+    rows prices; stress.csv then has a row block per site."""
+    cases = '\n[[stress]]\nname = "dearer misses"\ncost_multipliers = { miss = 1.5 }\n' \
+            '\n[[stress]]\nname = "rarer ice"\nevent_rate = 0.8\n'
+    scenario = scenario_from_text(SITES_TOML + cases)
+    together = run_history(scenario, history_from_frame(frame, scenario, label="history.csv"), replicates=100)
+    alone_scenario = scenario_from_text(SITES_TOML.replace('site_column = "site"\n', "") + cases)
+    for k, name in enumerate(("North", "South")):
+        rows = frame[frame["site"] == name].drop(columns="site").reset_index(drop=True)
+        alone = run_history(alone_scenario, history_from_frame(rows, alone_scenario, label="history.csv"),
+                            replicates=100)
+        mine = together.sites[k].stress
+        assert [c.name for c in mine] == [c.name for c in alone.stress]
+        for a, b in zip(mine, alone.stress):
+            for va, vb in zip(a.views, b.views):
+                assert va.best_cutoff == vb.best_cutoff
+                np.testing.assert_array_equal(va.model_cost_at_base, vb.model_cost_at_base)
+    files = render_files(together)
+    table = pd.read_csv(io.BytesIO(files["stress.csv"]))
+    assert list(table["site"].unique()) == ["North", "South"]
+    assert set(summary(together)["portfolio"]["stress"]) == {"North", "South"}
+    page = files["report.html"].decode()
+    assert "site by site" in page and together.sites[0].stress[0].views[0].headline.split(";")[0] \
+        .replace('"', "&#34;") in page
