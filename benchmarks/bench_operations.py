@@ -33,8 +33,8 @@ from simulator.decision import decide
 from simulator.operations import SimpyPricer
 from simulator.operations_fast import OperationsPricer
 from simulator.resample import Resampler, season_calendar
-from simulator.run import _mean_block, run_history
-from simulator.scenario import break_even_probability
+from simulator.run import choose_mean_block, run_history
+
 
 SCENARIO = Path(__file__).resolve().parent.parent / "scenarios" / "line_marking_rules.toml"
 REPLICATES = 2000
@@ -77,8 +77,7 @@ def main() -> None:
 
     # the same replicate seasons, drawn again for the simpy pricer
     calendar = season_calendar(history, scenario.season)
-    resampler = Resampler(history, calendar, _mean_block(history, scenario,
-                                                         break_even_probability(scenario.costs)),
+    resampler = Resampler(history, calendar, choose_mean_block(history, [scenario]),
                           scenario.simulation.window_days)
     rows = np.concatenate(list(resampler.blocks(seed, REPLICATES)))
     pick = (np.arange(REPLICATES) if args.full

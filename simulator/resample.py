@@ -38,7 +38,7 @@ import pandas as pd
 from .history import History, season_start_month
 from .scenario import SeasonSection
 
-__all__ = ["BLOCK", "Calendar", "Resampler", "season_calendar", "block_rng", "n_blocks"]
+__all__ = ["BLOCK", "Calendar", "Resampler", "season_calendar", "block_rng", "n_blocks", "nearest_position"]
 
 BLOCK = 500  # replicates per seeded block; part of the reproducibility contract, never change lightly
 
@@ -76,6 +76,15 @@ def season_calendar(history: History, rule: SeasonSection) -> Calendar:
 def n_blocks(n_replicates: int) -> int:
     """Seeded blocks that hold ``n_replicates`` replicates (the last one cut to size)."""
     return -(-int(n_replicates) // BLOCK)
+
+
+def nearest_position(sorted_values: np.ndarray, targets: np.ndarray) -> np.ndarray:
+    """For each target, the position in ``sorted_values`` (ascending) of the nearest value; ties go
+    to the earlier position."""
+    right = np.clip(np.searchsorted(sorted_values, targets), 0, sorted_values.size - 1)
+    left = np.clip(right - 1, 0, sorted_values.size - 1)
+    use_left = np.abs(sorted_values[left] - targets) <= np.abs(sorted_values[right] - targets)
+    return np.where(use_left, left, right)
 
 
 def block_rng(seed: int, block: int, *stream: int) -> np.random.Generator:
@@ -175,10 +184,7 @@ class Resampler:
         for k in range(n_seasons):
             members = np.flatnonzero(self._season_k == k)
             member_day = day[members]
-            right = np.clip(np.searchsorted(member_day, grid), 0, members.size - 1)
-            left = np.clip(right - 1, 0, members.size - 1)
-            use_left = np.abs(member_day[left] - grid) <= np.abs(member_day[right] - grid)
-            pick = np.where(use_left, left, right)
+            pick = nearest_position(member_day, grid)
             nearest[k] = members[pick]
             distance[k] = np.abs(member_day[pick] - grid)
         # seasons eligible to start a run on each day: those with an occasion within tolerance,

@@ -240,7 +240,7 @@ def run_history(scenario: Scenario, history: History, *, replicates: int | None 
     p_star = break_even_probability(costs)
     calendar = season_calendar(history, scenario.season)
 
-    mean_block = _mean_block(history, scenario, p_star)
+    mean_block = choose_mean_block(history, [scenario])
     resampler = Resampler(history, calendar, mean_block, sim.window_days)
     calibration = calibrate(history) if sim.mode == "calibrated" else None
     if calibration is not None and scenario.operations is not None:
@@ -311,7 +311,7 @@ def _run_sites(scenario: Scenario, history: History, *, replicates: int, seed: i
     scenarios = tuple(scenario.for_site(name) for name in names)
     cutoffs = scenario.cutoffs
     calendar = season_calendar(history, scenario.season)
-    mean_block = _joint_mean_block(history, scenarios)
+    mean_block = choose_mean_block(history, scenarios)
     resampler = Resampler(history, calendar, mean_block, sim.window_days)
     work = _Work(resampler=resampler, scenarios=scenarios, cutoffs=cutoffs, seed=seed,
                  replicates=replicates, processes=tuple(processes), outcome_probability=None)
@@ -713,46 +713,28 @@ def _label(scenario: Scenario) -> str:
     return str(scenario.source) if scenario.source else "scenario"
 
 
-def _mean_block(history: History, scenario: Scenario, p_star: float) -> float:
-    """Mean run length in occasions: fixed by ``block_days``, or by Politis and White (2004).
+def choose_mean_block(history: History, scenarios: Sequence[Scenario]) -> float:
+    """Mean run length of the replay, in occasions: fixed by ``block_days``, or by Politis and
+    White (2004).
 
     The automatic choice targets the variance of a season's total cost, so it is applied to the
-    series of per-occasion costs of acting at the break-even probability (the outcome series when
-    the cost matrix has no break-even probability), over the evaluated occasions in date order.
-    """
-    block_days = scenario.simulation.block_days
-    if block_days != "auto":
-        return max(1.0, float(block_days) / history.step_days)
-    if np.isnan(p_star):
-        series = history.event[history.evaluated].astype(float)
-    else:
-        rows = history.evaluated
-        series = occasion_costs(history.p[rows] >= p_star, history.event[rows], scenario.costs)
-    return max(1.0, float(optimal_block_length(series)))
-
-
-def _joint_mean_block(history: History, scenarios: Sequence[Scenario]) -> float:
-    """Mean run length, in occasions, of the joint replay of many sites.
-
-    Fixed by ``block_days``, or by Politis and White (2004) on the series of the portfolio's cost per
-    date: each site acting at its own break-even probability (taking the action that is always best
-    when its costs have none), summed over the sites with a row on that date. One run length serves
-    every site, as the runs of dates are shared.
+    series of the cost per date: each site (``scenarios`` holds one per site, in site order; one for
+    a history without sites) acting at its break-even probability, or, when its costs have none, its
+    outcome series, summed over the sites with a row on that date. One run length serves every site,
+    as the runs of dates are shared.
     """
     block_days = scenarios[0].simulation.block_days
     if block_days != "auto":
         return max(1.0, float(block_days) / history.step_days)
-    dates, index = np.unique(history.dates[history.evaluated], return_inverse=True)
+    evaluated = history.evaluated
+    dates, index = np.unique(history.dates[evaluated], return_inverse=True)
+    site = history.site[evaluated] if history.has_sites else np.zeros(index.size, dtype=np.int64)
+    p, event = history.p[evaluated], history.event[evaluated]
     total = np.zeros(dates.size)
-    site = history.site[history.evaluated]
     for k, scenario in enumerate(scenarios):
-        costs = scenario.costs
         own = site == k
-        p, event = history.p[history.evaluated][own], history.event[history.evaluated][own]
-        p_star = break_even_probability(costs)
-        if np.isnan(p_star):  # one action is always at least as cheap: take it
-            act = np.full(p.size, costs.false_alarm - costs.correct_negative <= 0)
-        else:
-            act = p >= p_star
-        total += np.bincount(index[own], weights=occasion_costs(act, event, costs), minlength=dates.size)
+        p_star = break_even_probability(scenario.costs)
+        series = (event[own].astype(float) if np.isnan(p_star)
+                  else occasion_costs(p[own] >= p_star, event[own], scenario.costs))
+        total += np.bincount(index[own], weights=series, minlength=dates.size)
     return max(1.0, float(optimal_block_length(total)))

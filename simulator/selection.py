@@ -41,7 +41,7 @@ from .costs import SeasonPricer, baseline_actions, occasion_costs, price
 from .errors import InputError
 from .history import History
 from .operations_fast import OperationsPricer
-from .resample import Calendar, Resampler
+from .resample import Calendar, Resampler, nearest_position
 from .scenario import BASELINES, Costs, Scenario
 
 __all__ = ["Recalibration", "fit_recalibration", "Calibration", "calibrate", "PeriodRecord",
@@ -382,11 +382,7 @@ def _seasons_on_calendar(history: History, mask: np.ndarray, calendar: Calendar)
     out = []
     for season in np.unique(history.season[mask]):
         rows = np.flatnonzero(mask & (history.season == season))
-        day = history.day_of_season[rows]
-        right = np.clip(np.searchsorted(day, calendar.day_of_season), 0, rows.size - 1)
-        left = np.clip(right - 1, 0, rows.size - 1)
-        nearer_left = np.abs(day[left] - calendar.day_of_season) <= np.abs(day[right] - calendar.day_of_season)
-        out.append(rows[np.where(nearer_left, left, right)])
+        out.append(rows[nearest_position(history.day_of_season[rows], calendar.day_of_season)])
     return np.stack(out)
 
 
