@@ -10,11 +10,15 @@ chain of regional events; each site has the event on 80% of regional event days 
   (b) operating rules: 50 sites, April to October, crews, a backlog and a deadline.
 
 Timings are of ``simulator.run_history`` (the history is read once, beforehand), from the call to
-the finished result, the start of the worker processes included. As ``simulator.run`` does while it
-reads the history, the process that forks local workers is started (and loads gonogo) before the
-timings; the Dask workers likewise load gonogo before they are timed, as on a cluster that is up. Peak memory: the largest resident set of any worker
-process (sampled every 0.1 s with psutil), and of this process. Targets from issue 6: speed-up of at
-least 1.8 from 1 to 2 workers, under 2 GB a worker, the cluster within 25% of the local pool.
+the finished result, the start of the local worker processes included. As ``simulator.run`` does
+while it reads the history, the process that forks local workers is started (and loads gonogo)
+before the timings; the Dask workers likewise load gonogo before they are timed, as on a cluster that
+is up, and run with Dask's default settings. This machine's speed drifts from minute to minute, so
+the three ways (1 worker, 2 workers, Dask) are timed in rounds, each way first in turn, and the
+medians are compared: same data, same seed, same results. Peak memory: the largest resident set of
+any worker process (sampled every 0.1 s with psutil), and of this process. Targets from issue 6:
+speed-up of at least 1.8 from 1 to 2 workers, under 2 GB a worker, the cluster within 25% of the
+local pool.
 
     .venv/bin/python benchmarks/bench_sites.py                 # the issue's sizes: a few minutes
     .venv/bin/python benchmarks/bench_sites.py --sites 40 --rule-sites 10 --replicates 2000
@@ -27,12 +31,14 @@ import importlib
 import os
 import threading
 import time
+from contextlib import contextmanager
 
 import numpy as np
 import pandas as pd
 
 from simulator import history_from_frame, run_history, scenario_from_text
 from simulator.parallel import prepare
+from simulator.resample import season_calendar
 
 FIXED = """
 name = "bench sites, fixed costs"
@@ -89,12 +95,18 @@ def sites_frame(n_sites: int, years: int, seed: int = 1) -> pd.DataFrame:
 
 
 class PeakMemory:
-    """Largest resident set of this process and of any of its descendants, sampled in a thread."""
+    """Largest resident set of this process and of the worker processes, sampled in a thread.
 
-    def __init__(self):
+    Workers are this process's descendants (local worker processes), or the given ``pids`` (the
+    Dask workers); processes in ``ignore`` (the Dask cluster, while the local pool is timed) are
+    left out.
+    """
+
+    def __init__(self, pids: set[int] | None = None, ignore: set[int] = frozenset()):
         import psutil
 
         self._me = psutil.Process()
+        self._pids, self._ignore = pids, ignore
         self.worker = 0
         self.main = 0
         self._stop = threading.Event()
@@ -104,15 +116,22 @@ class PeakMemory:
         self._thread.start()
         return self
 
+    def _workers(self):
+        import psutil
+
+        if self._pids is not None:
+            return [psutil.Process(pid) for pid in self._pids]
+        return [p for p in self._me.children(recursive=True) if p.pid not in self._ignore]
+
     def _sample(self):
         import psutil
 
         while not self._stop.is_set():
             try:
                 self.main = max(self.main, self._me.memory_info().rss)
-                for child in self._me.children(recursive=True):
+                for worker in self._workers():
                     try:
-                        self.worker = max(self.worker, child.memory_info().rss)
+                        self.worker = max(self.worker, worker.memory_info().rss)
                     except psutil.Error:
                         pass
             except psutil.Error:
@@ -124,63 +143,79 @@ class PeakMemory:
         self._thread.join()
 
 
-def timed(scenario, history, **where) -> tuple[float, PeakMemory]:
-    with PeakMemory() as memory:
+def timed(scenario, history, memory: PeakMemory, **where) -> tuple[float, PeakMemory]:
+    with memory:
         start = time.perf_counter()
         run_history(scenario, history, **where)
         elapsed = time.perf_counter() - start
     return elapsed, memory
 
 
-def bench(label: str, text: str, n_sites: int, years: int, cluster: bool) -> None:
+@contextmanager
+def dask_cluster(wanted: bool):
+    """A two-worker Dask LocalCluster with Dask's default settings (one thread per worker
+    process), its workers having loaded gonogo, as on a cluster that is up; None when not wanted."""
+    if not wanted:
+        yield None
+        return
+    import psutil
+    from distributed import Client, LocalCluster
+
+    with LocalCluster(n_workers=2, threads_per_worker=1, processes=True, dashboard_address=None) as cluster:
+        with Client(cluster.scheduler_address) as client:
+            client.run(importlib.import_module, "simulator.run")
+            workers = set(client.run(os.getpid).values())
+            trim = sorted(set(map(str, client.run(os.environ.get, "MALLOC_TRIM_THRESHOLD_").values())))
+        cluster_pids = {p.pid for p in psutil.Process().children(recursive=True)
+                        if p.pid in workers or any(c.pid in workers for c in p.children())}
+        yield {"address": cluster.scheduler_address, "workers": workers, "pids": cluster_pids, "trim": trim}
+
+
+def bench(label: str, text: str, n_sites: int, years: int, cluster: bool, repeats: int) -> None:
     scenario = scenario_from_text(text)
     start = time.perf_counter()
     history = history_from_frame(sites_frame(n_sites, years), scenario, label="invented")
     loaded = time.perf_counter() - start
-    n_occasions = None
     n_cutoffs = scenario.cutoffs.size
     replicates = scenario.simulation.replicates
+    n_occasions = season_calendar(history, scenario.season).n_occasions
     print(f"\n{label}: {n_sites} sites x {years} years daily ({history.n_rows:,} rows, read in "
-          f"{loaded:.1f} s) x {replicates:,} replicates x {n_cutoffs} cutoffs")
-    times = {}
-    for workers in (1, 2):
-        times[workers], memory = timed(scenario, history, workers=workers)
-        if n_occasions is None:
-            from simulator.resample import season_calendar
-
-            n_occasions = season_calendar(history, scenario.season).n_occasions
-            print(f"  season of {n_occasions} occasions; "
-                  f"{'operating rules played day by day' if scenario.operations else 'fixed costs'}")
-        priced = n_sites * replicates * n_cutoffs / times[workers]
-        worker = f"{memory.worker / 2**20:,.0f} MB" if workers > 1 else "(no workers)"
-        print(f"  {workers} local worker{'s' if workers > 1 else ' '}: {times[workers]:6.1f} s  "
-              f"{priced / workers:12,.0f} site-season-cutoffs a second per core   "
-              f"peak memory: worker {worker}, this process {memory.main / 2**20:,.0f} MB")
-    print(f"  speed-up from 1 to 2 local workers: {times[1] / times[2]:.2f} (target at least 1.8)")
-    if not cluster:
-        return
-    from distributed import Client, LocalCluster
-
-    import dask
-
-    # Dask's nanny starts its workers with MALLOC_TRIM_THRESHOLD_=65536, so that they hand memory
-    # back to the system; glibc then maps and zeroes every large array afresh, which slows numpy
-    # work with many large temporaries. Timed as Dask starts workers, and without that variable.
-    # (unset first: once a nanny has started, this process keeps the variable for later workers)
-    environ = dict(dask.config.get("distributed.nanny.pre-spawn-environ"))
-    trimmed = environ.pop("MALLOC_TRIM_THRESHOLD_", None)
-    os.environ.pop("MALLOC_TRIM_THRESHOLD_", None)
-    for label, settings in (("MALLOC_TRIM_THRESHOLD_ unset", {"distributed.nanny.pre-spawn-environ": environ}),
-                            (f"Dask's defaults (MALLOC_TRIM_THRESHOLD_={trimmed})", {})):
-        with dask.config.set(settings), LocalCluster(n_workers=2, threads_per_worker=1, processes=True,
-                                                     dashboard_address=None) as c:
-            with Client(c.scheduler_address) as client:
-                client.run(importlib.import_module, "simulator.run")  # a cluster that is up has loaded it
-                trim = set(client.run(os.environ.get, "MALLOC_TRIM_THRESHOLD_").values())
-            elapsed, memory = timed(scenario, history, cluster=c.scheduler_address)
-        label += f" [workers see {', '.join(map(str, sorted(trim, key=str)))}]"
-        print(f"  Dask LocalCluster, 2 workers, {label}: {elapsed:6.1f} s, {elapsed / times[2]:.2f} x the "
-              f"local pool (target at most 1.25); peak memory: worker {memory.worker / 2**20:,.0f} MB")
+          f"{loaded:.1f} s) x {replicates:,} replicates x {n_cutoffs} cutoffs; season of {n_occasions} "
+          f"occasions; {'operating rules played day by day' if scenario.operations else 'fixed costs'}")
+    with dask_cluster(cluster) as dask:
+        ways = {"1 worker": {"workers": 1}, "2 workers": {"workers": 2}}
+        if dask is not None:
+            ways["Dask"] = {"cluster": dask["address"]}
+            print(f"  Dask LocalCluster: 2 worker processes of 1 thread, Dask's default settings "
+                  f"(workers see MALLOC_TRIM_THRESHOLD_={', '.join(dask['trim'])})")
+        times = {way: [] for way in ways}
+        worker_memory = {way: 0 for way in ways}
+        main_memory = 0
+        for r in range(repeats):
+            order = list(ways)[r % len(ways):] + list(ways)[: r % len(ways)]  # each way first in turn
+            for way in order:
+                memory = (PeakMemory(pids=dask["workers"]) if way == "Dask"
+                          else PeakMemory(ignore=dask["pids"] if dask else set()))
+                elapsed, memory = timed(scenario, history, memory, **ways[way])
+                times[way].append(elapsed)
+                if way != "1 worker":
+                    worker_memory[way] = max(worker_memory[way], memory.worker)
+                main_memory = max(main_memory, memory.main)
+            print(f"  round {r + 1} ({', '.join(order)}): "
+                  + ", ".join(f"{way} {times[way][-1]:.1f} s" for way in ways), flush=True)
+    median = {way: float(np.median(t)) for way, t in times.items()}
+    print(f"  median of {repeats} rounds:")
+    for way, t in median.items():
+        cores = 1 if way == "1 worker" else 2
+        priced = n_sites * replicates * n_cutoffs / t
+        memory = f", peak memory per worker {worker_memory[way] / 2**20:,.0f} MB" if cores > 1 else ""
+        print(f"    {way:9} {t:6.1f} s  {priced / cores:12,.0f} site-season-cutoffs a second per core{memory}")
+    print(f"    this process: peak memory {main_memory / 2**20:,.0f} MB")
+    print(f"  speed-up from 1 to 2 local workers: {median['1 worker'] / median['2 workers']:.2f} "
+          f"(target at least 1.8)")
+    if "Dask" in median:
+        ratio = median["Dask"] / median["2 workers"]
+        print(f"  Dask LocalCluster against the local pool: {ratio:.2f} x its time (target at most 1.25)")
 
 
 def main() -> None:
@@ -190,15 +225,17 @@ def main() -> None:
     parser.add_argument("--years", type=int, default=10, help="years of daily history (default 10)")
     parser.add_argument("--replicates", type=int, default=5000, help="replicate seasons (default 5000)")
     parser.add_argument("--cutoff-step", type=float, default=0.01, help="cutoff step (default 0.01: 101 cutoffs)")
+    parser.add_argument("--repeats", type=int, default=3, help="rounds of timings; medians are reported (default 3)")
     parser.add_argument("--no-cluster", action="store_true", help="skip the Dask LocalCluster runs")
     args = parser.parse_args()
     print(f"bench_sites: {os.cpu_count()} cores seen; numpy {np.__version__}")
     prepare(workers=2)  # as simulator.run does before it reads the history
     fill = {"replicates": args.replicates, "step": args.cutoff_step}
     if args.sites:
-        bench("(a) fixed costs", FIXED.format(**fill), args.sites, args.years, not args.no_cluster)
+        bench("(a) fixed costs", FIXED.format(**fill), args.sites, args.years, not args.no_cluster, args.repeats)
     if args.rule_sites:
-        bench("(b) operating rules", RULES.format(**fill), args.rule_sites, args.years, not args.no_cluster)
+        bench("(b) operating rules", RULES.format(**fill), args.rule_sites, args.years, not args.no_cluster,
+              args.repeats)
 
 
 if __name__ == "__main__":
