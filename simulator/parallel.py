@@ -6,7 +6,9 @@ from them, never the replicate rows. Every (site, block) is computed from its ow
 together in a fixed order, so which executor runs the tasks, on how many workers, and in which order
 they finish changes nothing in the results.
 
-Three executors, one interface (:meth:`Executor.map_unordered`):
+Three executors, one interface (:meth:`Executor.map_unordered`); an executor may run several maps
+one after the other, and keeps its workers (and the shared inputs they hold) while the shared inputs
+are the same object:
 
 - :class:`InlineExecutor` runs the tasks one after the other in this process (one worker, or a
   run too small to be worth starting processes for);
@@ -116,10 +118,15 @@ class PoolExecutor(Executor):
         self.workers = int(workers)
         self.where = f"{self.workers} local worker processes"
         self._pool: ProcessPoolExecutor | None = None
+        self._shared: Any = None
 
     def map_unordered(self, fn, shared, tasks):
-        self._pool = ProcessPoolExecutor(max_workers=self.workers, mp_context=_context(),
-                                         initializer=_install, initargs=(shared,))
+        if self._pool is not None and shared is not self._shared:  # the same inputs keep the workers
+            self.close()
+        if self._pool is None:
+            self._pool = ProcessPoolExecutor(max_workers=self.workers, mp_context=_context(),
+                                             initializer=_install, initargs=(shared,))
+            self._shared = shared
         yield from _bounded(lambda task: self._pool.submit(_call_installed, fn, task), tasks,
                             IN_FLIGHT_PER_WORKER * self.workers,
                             lambda pending: wait(pending, return_when=FIRST_COMPLETED)[0])
@@ -128,6 +135,7 @@ class PoolExecutor(Executor):
         if self._pool is not None:
             self._pool.shutdown(wait=True, cancel_futures=True)
             self._pool = None
+            self._shared = None
 
 
 def _bounded(submit, tasks, limit, wait_any) -> Iterator[tuple[int, Any]]:
@@ -205,10 +213,14 @@ class DaskExecutor(Executor):
                                   client.scheduler_info().get("workers", {}).values()))
         self.where = f"the Dask cluster at {client.scheduler.address} ({self.workers} threads)"
         self._distributed = distributed
+        self._scattered: tuple[Any, Any] | None = None  # (shared inputs, their future on the cluster)
 
     def map_unordered(self, fn, shared, tasks):
         fn = _OnDaskWorker(fn)
-        shared_future = self.client.scatter(shared, broadcast=True, hash=False)
+        if self._scattered is None or shared is not self._scattered[0]:  # sent once for every map
+            self._forget_shared()
+            self._scattered = (shared, self.client.scatter(shared, broadcast=True, hash=False))
+        shared_future = self._scattered[1]
         queue = iter(enumerate(tasks))
         finished = self._distributed.as_completed(loop=self.client.loop)
         pending: dict[Any, int] = {}
@@ -228,9 +240,16 @@ class DaskExecutor(Executor):
                 submit_next()
                 yield index, result
         finally:
-            self.client.cancel(list(pending) + [shared_future])
+            if pending:
+                self.client.cancel(list(pending))
+
+    def _forget_shared(self) -> None:
+        if self._scattered is not None:
+            self.client.cancel([self._scattered[1]])
+            self._scattered = None
 
     def close(self) -> None:
+        self._forget_shared()
         if self._own:
             self.client.close()
 

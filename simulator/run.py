@@ -19,7 +19,8 @@ from __future__ import annotations
 
 import dataclasses
 import uuid
-from collections.abc import Callable, Sequence
+from collections.abc import Callable, Iterator, Sequence
+from contextlib import contextmanager
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -33,7 +34,7 @@ from .errors import InputError
 from .history import History, read_history
 from .operations import OperationsResult, UserProcess, make_rules
 from .operations_fast import OperationsPricer
-from .parallel import open_executor, prepare
+from .parallel import Executor, open_executor, prepare
 from .resample import BLOCK, Calendar, Resampler, block_rng, n_blocks, season_calendar
 from .scenario import BASELINES, Scenario, break_even_probability, cost_warnings, read_scenario
 from .selection import Calibration, Selection, calibrate, select_honestly
@@ -252,7 +253,8 @@ def run_history(scenario: Scenario, history: History, *, replicates: int | None 
     try:
         rules = _pricer(work, 0).rules if scenario.operations is not None else None  # checks them
         priced: dict[int, PricedBlock] = {}
-        _price_all(work, lambda k, block: priced.__setitem__(k, block), None, progress, workers, cluster)
+        with _executor(work, workers, cluster) as executor:
+            _price_all(work, executor, lambda k, block: priced.__setitem__(k, block), None, progress)
     finally:
         _forget(work)
     block = priced[0]
@@ -317,6 +319,8 @@ def _run_sites(scenario: Scenario, history: History, *, replicates: int, seed: i
                  replicates=replicates, processes=tuple(processes), outcome_probability=None)
     total = _Totals(len(names))
     results: dict[int, SiteResult] = {}
+    forward = sim.walk_forward if walk_forward is None else walk_forward
+    check = history.has_validation or forward
 
     try:
         checked = False
@@ -327,19 +331,15 @@ def _run_sites(scenario: Scenario, history: History, *, replicates: int, seed: i
                     checked = True
                 make_rules(site_scenario.operations, calendar.dates, site_scenario.season.weekdays,
                            f'{label} [sites."{names[k]}"]')
-        _price_all(work, None, (results, total), progress, workers, cluster)
+        with _executor(work, workers, cluster, walk_forward=forward) as executor:
+            _price_all(work, executor, None, (results, total), progress)
+            sites = tuple(results[k] for k in range(len(names)))
+            if check or scenario.stress:
+                sites = _checked_sites(work, executor, sites, check, forward, label, progress)
     finally:
         _forget(work)
     joint_dates = resampler.n_dates
 
-    sites = tuple(results[k] for k in range(len(names)))
-    forward = sim.walk_forward if walk_forward is None else walk_forward
-    if history.has_validation or forward:
-        sites = tuple(_checked_site(site, calendar, cutoffs, mean_block, seed, replicates, forward, label,
-                                    progress, k, len(sites)) for k, site in enumerate(sites))
-    if scenario.stress:
-        sites = tuple(_stressed_site(site, calendar, cutoffs, mean_block, seed, replicates, progress)
-                      for site in sites)
     reference = sim.reference
     model_cost, baseline_matrix = total.model, total.baselines
     baseline_cost = {name: baseline_matrix[:, i] for i, name in enumerate(BASELINES)}
@@ -376,36 +376,41 @@ def _run_sites(scenario: Scenario, history: History, *, replicates: int, seed: i
                      warnings=tuple(warnings), portfolio=portfolio)
 
 
-def _checked_site(site: SiteResult, calendar: Calendar, cutoffs: np.ndarray, mean_block: float, seed: int,
-                  replicates: int, walk_forward: bool, label: str, progress: Progress | None, k: int,
-                  n_sites: int) -> SiteResult:
-    """The site with its own validation check and walk-forward, made on its history alone exactly
-    as a single-site run makes them (the joint replay's mean run length)."""
-    scenario = site.scenario
-    selection = select_honestly(site.history, calendar, cutoffs, scenario.costs, scenario.simulation.reference,
-                                mean_block, scenario.simulation.window_days, seed, replicates, walk_forward,
-                                label=f'{label} site "{site.name}"',
-                                rules=scenario if scenario.operations is not None else None)
-    if progress is not None:
-        progress("checking each site's cutoff on later seasons", k + 1, n_sites)
-    return dataclasses.replace(site, selection=selection)
+def _checked_sites(work: "_Work", executor: Executor, sites: tuple[SiteResult, ...], check: bool,
+                   walk_forward: bool, label: str, progress: Progress | None) -> tuple[SiteResult, ...]:
+    """Each site with its own validation check and walk-forward (when ``check``) and its
+    ``[[stress]]`` cases, a task per site, shared out like the pricing."""
+    tasks = [(k, site.decision, float(site.model_cost.mean()), check, walk_forward, label)
+             for k, site in enumerate(sites)]
+    out = list(sites)
+    for done, (k, (selection, stress)) in enumerate(executor.map_unordered(_check_task, work, tasks), 1):
+        out[k] = dataclasses.replace(out[k], selection=selection, stress=stress)
+        if progress is not None:
+            progress("checking each site on later seasons and under stress", done, len(out))
+    return tuple(out)
 
 
-def _stressed_site(site: SiteResult, calendar: Calendar, cutoffs: np.ndarray, mean_block: float, seed: int,
-                   replicates: int, progress: Progress | None) -> SiteResult:
-    """The site with its ``[[stress]]`` cases, priced on its history alone exactly as a single-site
-    run prices them (the joint replay's mean run length; a site with a row on every date has the
-    same replicates either way)."""
-    scenario, history = site.scenario, site.history
-    resampler = Resampler(history, calendar, mean_block, scenario.simulation.window_days)
-    stress = run_stress(scenario, history, calendar=calendar, resampler=resampler, cutoffs=cutoffs,
-                        seed=seed, replicates=replicates, decision=site.decision,
-                        base_mean_cost=float(site.model_cost.mean()),
-                        seasons_per_history=max(1, round(history.n_evaluated / calendar.n_occasions)),
-                        interval_rng=lambda: block_rng(seed, 0, _INTERVAL_STREAM),
-                        progress=None if progress is None else
-                        (lambda step, done, total: progress(f'site "{site.name}" {step}', done, total)))
-    return dataclasses.replace(site, stress=stress)
+def _check_task(work: "_Work", k: int, decision: Decision, base_mean_cost: float, check: bool,
+                walk_forward: bool, label: str) -> tuple[Selection | None, tuple[StressResult, ...] | None]:
+    """Site ``k``'s validation check and walk-forward, and its ``[[stress]]`` cases, made on its
+    history alone exactly as a run of that site alone makes them (with the joint replay's mean run
+    length; a site with a row on every date has the same replicates either way)."""
+    scenario, history = work.scenarios[k], work.resampler.history.for_site(k)
+    calendar, mean_block, sim = work.resampler.calendar, work.resampler.mean_block, scenario.simulation
+    selection = stress = None
+    if check:
+        selection = select_honestly(history, calendar, work.cutoffs, scenario.costs, sim.reference,
+                                    mean_block, sim.window_days, work.seed, work.replicates, walk_forward,
+                                    label=f'{label} site "{history.site_names[0]}"',
+                                    rules=scenario if scenario.operations is not None else None)
+    if scenario.stress:
+        resampler = Resampler(history, calendar, mean_block, sim.window_days)
+        stress = run_stress(scenario, history, calendar=calendar, resampler=resampler, cutoffs=work.cutoffs,
+                            seed=work.seed, replicates=work.replicates, decision=decision,
+                            base_mean_cost=base_mean_cost,
+                            seasons_per_history=max(1, round(history.n_evaluated / calendar.n_occasions)),
+                            interval_rng=lambda: block_rng(work.seed, 0, _INTERVAL_STREAM))
+    return selection, stress
 
 
 class _Totals:
@@ -645,48 +650,55 @@ def _join(blocks: Sequence[PricedBlock]) -> PricedBlock:
                        extras={key: np.concatenate([b.extras[key] for b in blocks]) for key in blocks[0].extras})
 
 
-def _price_all(work: _Work, block_done: Callable[[int, PricedBlock], None] | None,
-               sites: tuple[dict[int, SiteResult], _Totals] | None, progress: Progress | None,
-               workers: int | None, cluster) -> None:
+@contextmanager
+def _executor(work: _Work, workers: int | None, cluster, walk_forward: bool = False) -> Iterator[Executor]:
+    """Where the run's tasks go (:func:`simulator.parallel.open_executor`): this process for work
+    too small to be worth starting processes for (a walk-forward of many sites is not), or with
+    simpy processes of the user's own and no cluster."""
+    operations = any(s.operations is not None for s in work.scenarios)
+    size = len(work.scenarios) * work.replicates * (10 if operations else 1)
+    small = size < INLINE_BELOW and not (walk_forward and len(work.scenarios) > 1)
+    with open_executor(workers, cluster, inline=small or (bool(work.processes) and cluster is None)) as executor:
+        yield executor
+
+
+def _price_all(work: _Work, executor: Executor, block_done: Callable[[int, PricedBlock], None] | None,
+               sites: tuple[dict[int, SiteResult], _Totals] | None, progress: Progress | None) -> None:
     """Run every task. One site: its season costs, in replicate order, go to ``block_done`` once
     all its chunks are in. Many sites: each site's results go into ``sites`` (results by site, and
     the portfolio's totals), made by the task that priced all its replicates, or made here from its
     chunks when there are too few sites to keep every worker busy."""
     n_sites = len(work.scenarios)
     chunks = work.chunks
-    operations = any(s.operations is not None for s in work.scenarios)
-    size = n_sites * work.replicates * (10 if operations else 1)
-    inline = size < INLINE_BELOW or (bool(work.processes) and cluster is None)
     waiting: dict[int, dict[int, PricedBlock]] = {k: {} for k in range(n_sites)}
     total, done = n_sites * work.replicates, 0
     step = "replicate seasons" if n_sites == 1 else f"replicate seasons x {n_sites} sites"
-    with open_executor(workers, cluster, inline=inline) as executor:
-        tasks = _plan(n_sites, len(chunks), executor.workers, many=sites is not None)
-        for _, results in executor.map_unordered(_price_task, work, tasks):
-            for item in results:
-                kind, k = item[0], item[1]
-                if kind == "site":
-                    sites[0][k] = item[2]
-                    done += work.replicates
-                elif kind == "costs":
-                    sites[1].add_site(k, item[2], item[3])
-                elif kind == "group":
-                    sites[1].add_group(k, item[2], item[3])
+    tasks = _plan(n_sites, len(chunks), executor.workers, many=sites is not None)
+    for _, results in executor.map_unordered(_price_task, work, tasks):
+        for item in results:
+            kind, k = item[0], item[1]
+            if kind == "site":
+                sites[0][k] = item[2]
+                done += work.replicates
+            elif kind == "costs":
+                sites[1].add_site(k, item[2], item[3])
+            elif kind == "group":
+                sites[1].add_group(k, item[2], item[3])
+            else:
+                block = item[3]
+                waiting[k][item[2]] = block
+                done += block.model.shape[0]
+                if len(waiting[k]) < len(chunks):
+                    continue
+                parts = waiting.pop(k)
+                block = _join([parts[c] for c in range(len(chunks))])
+                if sites is None:
+                    block_done(k, block)
                 else:
-                    block = item[3]
-                    waiting[k][item[2]] = block
-                    done += block.model.shape[0]
-                    if len(waiting[k]) < len(chunks):
-                        continue
-                    parts = waiting.pop(k)
-                    block = _join([parts[c] for c in range(len(chunks))])
-                    if sites is None:
-                        block_done(k, block)
-                    else:
-                        sites[0][k] = _site_result(work, k, block)
-                        sites[1].add_site(k, block.model, block.baselines)
-            if progress is not None:
-                progress(step, done, total)
+                    sites[0][k] = _site_result(work, k, block)
+                    sites[1].add_site(k, block.model, block.baselines)
+        if progress is not None:
+            progress(step, done, total)
 
 
 def _plan(n_sites: int, n_chunks: int, workers: int, many: bool) -> list[tuple[int, int, int | None]]:

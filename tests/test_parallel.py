@@ -26,17 +26,20 @@ run_module = importlib.import_module("simulator.run")
 parallel = importlib.import_module("simulator.parallel")
 report = importlib.import_module("simulator.report")
 
-COMPARED = ("summary.json", "cutoffs.csv", "sites.csv")
+COMPARED = ("summary.json", "cutoffs.csv", "sites.csv", "stress.csv")
 
 
 @pytest.fixture
 def scenario_path(tmp_path, monkeypatch):
     """Three correlated sites, one with operating rules of its own; enough replicates for three
-    chunks of seeded blocks, so the tasks finish in an order of their own."""
+    chunks of seeded blocks, so the tasks finish in an order of their own. A validation period and a
+    stress case, so each site's own checks are shared out too."""
     monkeypatch.setattr(report, "render_report", lambda result, contents: {})
     correlated_sites(7, names=("North", "South", "East"), years=4).to_csv(tmp_path / "history.csv", index=False)
-    text = SITES_TOML.replace("[history]\n", '[history]\npath = "history.csv"\n').replace(
-        "replicates = 400", "replicates = 2100")
+    text = SITES_TOML.replace("[history]\n", '[history]\npath = "history.csv"\nvalidation_from = 2018-10-01\n')
+    text = text.replace("replicates = 400", "replicates = 2100")
+    text += '[[stress]]\nname = "a costlier miss"\ncost_multipliers = { miss = 1.5 }\n'
+
     text += ('[sites."East".operations]\ncrews_out_on = "acting"\nspoiled_on = "no_event"\n'
              "day_rate = 900\nwork = 60\n")
     (tmp_path / "s.toml").write_text(text)
@@ -68,9 +71,12 @@ def test_one_worker_two_workers_and_a_dask_cluster_write_the_same_bytes(scenario
 
 def test_progress_counts_every_site_replicate_season_once(scenario_path):
     seen = []
-    run(read_scenario(scenario_path), replicates=1100, progress=lambda step, done, total: seen.append((done, total)))
-    assert seen[-1] == (3 * 1100, 3 * 1100)
-    assert [d for d, _ in seen] == sorted(d for d, _ in seen)
+    run(read_scenario(scenario_path), replicates=1100, progress=lambda *args: seen.append(args))
+    priced = [(done, total) for step, done, total in seen if step.startswith("replicate seasons")]
+    assert priced[-1] == (3 * 1100, 3 * 1100)
+    assert [d for d, _ in priced] == sorted(d for d, _ in priced)
+    checked = [(done, total) for step, done, total in seen if step.startswith("checking each site")]
+    assert checked == [(1, 3), (2, 3), (3, 3)]
 
 
 def _closed_port() -> int:
