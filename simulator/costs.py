@@ -105,8 +105,10 @@ class SeasonPricer:
         actions = baseline_actions(history, costs)
         # every history row has one of a few patterns of (event, what each baseline does); a
         # replicate's baseline counts follow from how often it holds each pattern
-        table = np.column_stack([history.event] + [actions[name] for name in BASELINES])
-        patterns, pattern = np.unique(table, axis=0, return_inverse=True)
+        columns = [history.event] + [actions[name] for name in BASELINES]
+        code = sum(column.astype(np.int64) << bit for bit, column in enumerate(columns))  # one int a row
+        codes, pattern = np.unique(code, return_inverse=True)
+        patterns = ((codes[:, None] >> np.arange(len(columns))) & 1).astype(bool)  # a column a bit
         self._pattern = pattern.ravel().astype(np.int64)
         self._n_patterns = patterns.shape[0]
         event, acts = patterns[:, :1], patterns[:, 1:]
