@@ -588,6 +588,7 @@ def _pricer(work: _Work, k: int):
 def _forget(work: _Work) -> None:
     for key in [key for key in _PRICERS if key[0] == work.token]:
         _PRICERS.pop(key, None)
+    _DRAWN.forget(work.token)
 
 
 def _price_task(work: _Work, first_site: int, last_site: int, chunk: int | None) -> list[tuple]:
@@ -611,7 +612,10 @@ def _price_task(work: _Work, first_site: int, last_site: int, chunk: int | None)
         return work.resampler.draw_block(work.seed, b)[: min(BLOCK, work.replicates - b * BLOCK)]
 
     size = len(blocks) * BLOCK * work.resampler.n_occasions * 8
-    rows = [drawn(b) for b in blocks] if len(sites) > 1 and size <= _MAX_DRAWN_BYTES else None
+    rows = None
+    if len(sites) > 1 and size <= _MAX_DRAWN_BYTES:
+        # every task of a run with many sites draws every block: a process draws each once
+        rows = [_DRAWN.get(work, b, drawn) if chunk is None else drawn(b) for b in blocks]
     out: list[tuple] = []
     group: list = [None, None, None]  # the whole group being summed: number, model, baselines
     for k in sites:
@@ -638,6 +642,31 @@ def _price_task(work: _Work, first_site: int, last_site: int, chunk: int | None)
 
 
 _MAX_DRAWN_BYTES = 256 * 2**20  # a task keeps its drawn replicate rows for reuse up to this size
+
+
+class _DrawnBlocks:
+    """The seeded blocks of one run drawn in this process, kept for its later tasks (at most
+    :data:`_MAX_DRAWN_BYTES`: a task of all chunks keeps no more); a new run replaces them."""
+
+    def __init__(self):
+        self.token: str | None = None
+        self.blocks: dict[int, np.ndarray] = {}
+
+    def get(self, work: _Work, b: int, draw: Callable[[int], np.ndarray]) -> np.ndarray:
+        if self.token != work.token:
+            self.forget()
+            self.token = work.token
+        rows = self.blocks.get(b)
+        if rows is None:
+            rows = self.blocks[b] = draw(b)
+        return rows
+
+    def forget(self, token: str | None = None) -> None:
+        if token is None or token == self.token:
+            self.token, self.blocks = None, {}
+
+
+_DRAWN = _DrawnBlocks()
 
 
 def _join(blocks: Sequence[PricedBlock]) -> PricedBlock:
