@@ -383,10 +383,12 @@ def _checked_sites(work: "_Work", executor: Executor, sites: tuple[SiteResult, .
     tasks = [(k, site.decision, float(site.model_cost.mean()), check, walk_forward, label)
              for k, site in enumerate(sites)]
     out = list(sites)
+    what = ", ".join(w for w, wanted in (("later seasons", check), ("stress cases", work.scenarios[0].stress))
+                     if wanted)
     for done, (k, (selection, stress)) in enumerate(executor.map_unordered(_check_task, work, tasks), 1):
         out[k] = dataclasses.replace(out[k], selection=selection, stress=stress)
         if progress is not None:
-            progress("checking each site on later seasons and under stress", done, len(out))
+            progress(f"checking each site ({what})", done, len(out))
     return tuple(out)
 
 
