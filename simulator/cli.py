@@ -233,6 +233,60 @@ def _selection_tables(result: RunResult) -> list:
     return out
 
 
+SITES_SHOWN = 12  # sites listed in the terminal; sites.csv has them all
+
+
+def _sites_tables(result: RunResult) -> list:
+    """With many sites: each site at its own cutoff, ranked by the value of the forecast, and, when
+    they ran, each site's checks on later seasons and its stress headline (from sites.csv)."""
+    if result.portfolio is None:
+        return []
+    cur = result.scenario.currency
+    frame = result.portfolio.table.sort_values("value_rank", kind="stable")
+    shown = frame.head(SITES_SHOWN)
+    more = (f"... and {len(frame) - len(shown)} more sites: sites.csv" if len(frame) > len(shown)
+            else "Per site, with every figure: sites.csv")
+    rows = [[r.site, f"{r.recommended_cutoff:.2f}", f"{r.recommended_cutoff_low:.2f}-{r.recommended_cutoff_high:.2f}",
+             f"{r.mean_cost:,.0f}", f"{r.mean_savings:,.0f} ({r.prob_saving:.0%})", f"{r.forecast_value:,.0f}"]
+            for r in shown.itertuples()]
+    out: list = [_fitted_table(f"Each site at its own cutoff ({cur} a season; by the value of the forecast)",
+                               [("", "Site"), ("Own", "cutoff"), ("90%", "interval"), ("Mean", "cost"),
+                                ("Saving against", f"{result.reference} (share)"), ("Value of", "forecast")],
+                               rows), more]
+    checked = [c for c in ("validation_chosen_cutoff", "walk_forward_cost") if c in frame.columns]
+    if checked:
+        headers, rows = [("", "Site")], []
+        if "validation_chosen_cutoff" in frame.columns:
+            headers += [("Validation", "cutoff"), ("Validation", "optimism"), ("", "Flag")]
+        if "walk_forward_cost" in frame.columns:
+            headers += [("Walk-forward", "optimism"), ("Seasons", "flagged")]
+        for r in shown.itertuples():
+            row = [r.site]
+            if "validation_chosen_cutoff" in frame.columns:
+                row += [f"{r.validation_chosen_cutoff:.2f}", f"{r.validation_optimism:,.0f}",
+                        "worse" if r.validation_flag else ""]
+            if "walk_forward_cost" in frame.columns:
+                flagged = r.walk_forward_flagged_seasons
+                row += [f"{r.walk_forward_optimism:,.0f}", flagged if isinstance(flagged, str) and flagged else ""]
+            rows.append(row)
+        out.append(_fitted_table(f"Each site's cutoff chosen on the past, priced on later seasons ({cur})", headers,
+                                 rows))
+        notes = []
+        if "validation_flag" in frame.columns:
+            notes.append(f"validation cost worse than the training range at {int(frame['validation_flag'].sum())} "
+                         f"of {len(frame)} sites")
+        if "walk_forward_flagged_seasons" in frame.columns:
+            some = frame["walk_forward_flagged_seasons"].fillna("").astype(str).str.len() > 0
+            notes.append(f"seasons dearer than their training range at {int(some.sum())} of {len(frame)} sites")
+        out.append("Optimism: how much more choosing on the past cost than the best cutoff in hindsight; "
+                   + "; ".join(notes) + ".")
+    stressed = [site for site in result.portfolio.ranking[:SITES_SHOWN] if site.stress]
+    if stressed:
+        out.append("Stress cases of each site (all of them: stress.csv):")
+        out += [f"- {site.name}: {case.views[0].headline}" for site in stressed for case in site.stress]
+    return out
+
+
 def _calibration_lines(result: RunResult) -> list:
     c = result.calibration
     if c is None:
@@ -259,8 +313,9 @@ def _report_run(result: RunResult, out: Path, written: list[Path], quiet: bool, 
     if hazard:  # said first, and again at the end
         out_console.print(caution)
     out_console.print(_headline(result))
-    for part in _stress_tables(result) + _selection_tables(result) + _calibration_lines(result):
-        out_console.print(part)
+    for part in (_sites_tables(result) + _stress_tables(result) + _selection_tables(result)
+                 + _calibration_lines(result)):
+        out_console.print(part, soft_wrap=isinstance(part, Text))  # tables keep their lines whole
     out_console.print(caution)
     out_console.print(f"Wrote {len(written)} files to {out}/; open {out / 'report.html'} to read the report")
 

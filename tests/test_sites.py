@@ -270,6 +270,32 @@ def test_command_line_writes_sites_csv_and_the_portfolio(tmp_path, frame, monkey
     sites = pd.read_csv(out / "sites.csv")
     assert list(sites["site"]) == ["North", "South"]
     assert set(json.loads((out / "summary.json").read_text())["portfolio"]) >= {"total_cost", "ranking"}
+    # the terminal lists each site at its own cutoff, as sites.csv has it
+    lines = {line.split()[0]: line.split() for line in result.output.splitlines() if line.split()[:1] in
+             (["North"], ["South"])}
+    for row in sites.itertuples():
+        assert lines[row.site][1:3] == [f"{row.recommended_cutoff:.2f}",
+                                        f"{row.recommended_cutoff_low:.2f}-{row.recommended_cutoff_high:.2f}"]
+    assert "later seasons" not in result.output
+
+
+def test_command_line_shows_each_sites_checks_and_stress_cases(tmp_path, frame, monkeypatch):
+    report = importlib.import_module("simulator.report")
+    monkeypatch.setattr(report, "render_report", lambda result, contents: {})
+    frame.to_csv(tmp_path / "history.csv", index=False)
+    text = SITES_TOML.replace("[history]\n", '[history]\npath = "history.csv"\nvalidation_from = 2020-10-01\n')
+    (tmp_path / "s.toml").write_text(text + '[[stress]]\nname = "dearer misses"\ncost_multipliers = { miss = 2 }\n')
+    out = tmp_path / "out"
+    result = CliRunner().invoke(app, ["run", str(tmp_path / "s.toml"), "--out", str(out), "--replicates", "60",
+                                      "--workers", "1", "--walk-forward"])
+    assert result.exit_code == 0, result.output
+    sites = pd.read_csv(out / "sites.csv", keep_default_na=False)
+    assert "priced on later seasons" in result.output
+    for row in sites.itertuples():
+        line = next(line for line in result.output.splitlines()
+                    if line.startswith(row.site) and f"{row.validation_optimism:,.0f}" in line)
+        assert f"{row.validation_chosen_cutoff:.2f}" in line and f"{row.walk_forward_optimism:,.0f}" in line
+        assert f"- {row.site}: Keep the cutoff at {row.recommended_cutoff:.2f}" in result.output
 
 
 def test_the_gritting_example_prices_five_depots_and_warns_of_the_missing_nights():
