@@ -20,8 +20,10 @@ from __future__ import annotations
 import dataclasses
 import uuid
 from collections.abc import Callable, Iterator, Sequence
+from concurrent.futures import ThreadPoolExecutor
 from contextlib import contextmanager
 from dataclasses import dataclass, field
+from typing import Any
 from pathlib import Path
 
 import numpy as np
@@ -34,7 +36,7 @@ from .errors import InputError
 from .history import History, read_history
 from .operations import OperationsResult, UserProcess, make_rules
 from .operations_fast import OperationsPricer
-from .parallel import Executor, open_executor, prepare
+from .parallel import Executor, InlineExecutor, open_executor, prepare
 from .resample import BLOCK, Calendar, Resampler, block_rng, n_blocks, season_calendar
 from .scenario import BASELINES, Scenario, break_even_probability, cost_warnings, read_scenario
 from .selection import Calibration, Selection, calibrate, select_honestly
@@ -332,6 +334,7 @@ def _run_sites(scenario: Scenario, history: History, *, replicates: int, seed: i
                 make_rules(site_scenario.operations, calendar.dates, site_scenario.season.weekdays,
                            f'{label} [sites."{names[k]}"]')
         with _executor(work, workers, cluster, walk_forward=forward) as executor:
+            scored = _alongside(executor, forecast_quality, history, cutoffs)  # all sites' rows
             _price_all(work, executor, None, (results, total), progress)
             sites = tuple(results[k] for k in range(len(names)))
             if check or scenario.stress:
@@ -350,7 +353,7 @@ def _run_sites(scenario: Scenario, history: History, *, replicates: int, seed: i
                       block_rng(seed, 0, _INTERVAL_STREAM))
     parts = [(site.history, site.scenario.costs) for site in sites]
     table = cutoff_table(parts, cutoffs, p_star, model_cost, baseline_cost[reference])
-    quality, value_curve, reliability = forecast_quality(history, cutoffs)
+    quality, value_curve, reliability = scored()
     own_cost = sites[0].model_cost.copy()
     for site in sites[1:]:
         own_cost += site.model_cost
@@ -499,9 +502,7 @@ def _sites_table(sites: Sequence[SiteResult], common: int) -> pd.DataFrame:
     rows = []
     for site, value, r in zip(sites, values, rank):
         d = site.decision
-        model = distribution(site.model_cost)
-        savings = site.baseline_cost[site.reference] - site.model_cost
-        p05, p95 = np.quantile(savings, [0.05, 0.95])
+        at = site.table.iloc[d.recommended_index]  # the percentiles of its season cost, made with it
         row = {"site": site.name, "rows": site.history.n_rows, "evaluated_rows": site.history.n_evaluated,
                "missing_dates": site.missing_dates, **site.quality,
                **{key: getattr(site.scenario.costs, key) for key in ("hit", "false_alarm", "miss",
@@ -511,9 +512,10 @@ def _sites_table(sites: Sequence[SiteResult], common: int) -> pd.DataFrame:
                "recommended_cutoff_high": d.recommended_cutoff_interval[1],
                "near_optimal_low": d.near_optimal_band[0], "near_optimal_high": d.near_optimal_band[1],
                "break_even": _ranges(d.break_even), "confident_break_even": _ranges(d.confident_break_even),
-               "mean_cost": model.mean, "p05_cost": model.p05, "p50_cost": model.p50, "p95_cost": model.p95,
+               "mean_cost": float(site.model_cost.mean()), "p05_cost": float(at["p05_cost"]),
+               "p50_cost": float(at["p50_cost"]), "p95_cost": float(at["p95_cost"]),
                "reference_mean_cost": float(site.baseline_cost[site.reference].mean()),
-               "mean_savings": d.savings.mean, "p05_savings": float(p05), "p95_savings": float(p95),
+               "mean_savings": d.savings.mean, "p05_savings": d.savings.p05, "p95_savings": d.savings.p95,
                "prob_saving": d.prob_saving, "forecast_value": value, "value_rank": int(r),
                "mean_cost_at_common_cutoff": float(site.table["mean_cost"].iloc[common])}
         check = site.selection.validation if site.selection is not None else None
@@ -691,6 +693,18 @@ def _executor(work: _Work, workers: int | None, cluster, walk_forward: bool = Fa
     small = size < INLINE_BELOW and not (walk_forward and len(work.scenarios) > 1)
     with open_executor(workers, cluster, inline=small or (bool(work.processes) and cluster is None)) as executor:
         yield executor
+
+
+def _alongside(executor: Executor, fn: Callable, *args) -> Callable[[], Any]:
+    """``fn(*args)``, made in a thread of this process while workers elsewhere price (this process
+    mostly waits on them meanwhile), or when asked for when the pricing runs in this process. Returns
+    the function that gives the result."""
+    if isinstance(executor, InlineExecutor):
+        return lambda: fn(*args)
+    thread = ThreadPoolExecutor(max_workers=1)
+    future = thread.submit(fn, *args)
+    thread.shutdown(wait=False)  # the thread ends once its one task is done
+    return future.result
 
 
 def _price_all(work: _Work, executor: Executor, block_done: Callable[[int, PricedBlock], None] | None,
