@@ -23,6 +23,7 @@ from .errors import InputError
 from .history import read_history
 from .outputs import check_out_folder, render_files, summary, write_files
 from .parallel import CLUSTER_ENV
+from .report import share
 from .run import RunResult, run
 from .scenario import Costs, Scenario, read_scenario
 
@@ -99,7 +100,7 @@ def _headline(result: RunResult) -> Table:
     sv = s["savings"]
     table.add_row(f"Saving against {ref}", f"{_money(sv['mean'], cur)}  (90% range {_money(sv['p05'], cur)} to "
                                            f"{_money(sv['p95'], cur)}; saves money in "
-                                           f"{sv['prob_saving']:.0%} of seasons)")
+                                           f"{share(sv['prob_saving'])} of seasons)")
     table.add_row(f"Cutoffs that beat {ref}", _ranges(s["break_even"]) + "  (on average); "
                   + _ranges(s["confident_break_even"]) + " (in 95% of seasons)")
     table.add_row("Season", f"{s['season_occasions']} occasions, {s['replicates']} replicate seasons, "
@@ -119,7 +120,7 @@ def _headline(result: RunResult) -> Table:
         finish = (f"work done by {done['p50']} in half the seasons (90%: {done['p05']} to {done['p95']}); "
                   if done.get("p50") else "")
         table.add_row("Under the operating rules",
-                      f"{finish}late in {at['share_late']:.0%} of seasons "
+                      f"{finish}late in {share(at['share_late'])} of seasons "
                       f"(mean {at['days_late']['mean']:.1f} days late); safety stop decided "
                       f"{at['safety_stop_days']['mean']:.1f} days a season")
     for name, d in s["strategies"].items():
@@ -155,7 +156,7 @@ def _stress_tables(result: RunResult) -> list:
     base = result.strategies["model"]
     savings = result.baseline_cost[ref] - result.model_cost[:, result.decision.recommended_index]
     rows = [["base case", f"{result.quality['event_rate']:.3f}", f"{base.mean:,.0f}", "",
-             f"{base_cutoff:.2f}", "", f"{savings.mean():,.0f} ({(savings > 0).mean():.0%})"]]
+             f"{base_cutoff:.2f}", "", f"{savings.mean():,.0f} ({share((savings > 0).mean())})"]]
     sentences = []
     for case in result.stress:
         rate = case.event_rate
@@ -166,7 +167,7 @@ def _stress_tables(result: RunResult) -> list:
             label = case.name if v.probabilities == "as_forecast" else "  adapted"
             rows.append([label, shown, f"{v.strategies['model'].mean:,.0f}", f"{v.extra_cost:+,.0f}",
                          f"{v.best_cutoff:.2f}", f"{v.saved_by_moving:,.0f}",
-                         f"{v.savings.mean:,.0f} ({v.prob_saving:.0%})"])
+                         f"{v.savings.mean:,.0f} ({share(v.prob_saving)})"])
             sentences.append(f"- {v.headline}")
     table = _fitted_table(f"Stress tests, {cur} a season (means over replicate seasons)",
                           [("", "Case"), ("Event", "rate"), ("Cost at", f"{base_cutoff:.2f}"), ("", "Change"),
@@ -247,7 +248,7 @@ def _sites_tables(result: RunResult) -> list:
     more = (f"... and {len(frame) - len(shown)} more sites: sites.csv" if len(frame) > len(shown)
             else "Per site, with every figure: sites.csv")
     rows = [[r.site, f"{r.recommended_cutoff:.2f}", f"{r.recommended_cutoff_low:.2f}-{r.recommended_cutoff_high:.2f}",
-             f"{r.mean_cost:,.0f}", f"{r.mean_savings:,.0f} ({r.prob_saving:.0%})", f"{r.forecast_value:,.0f}"]
+             f"{r.mean_cost:,.0f}", f"{r.mean_savings:,.0f} ({share(r.prob_saving)})", f"{r.forecast_value:,.0f}"]
             for r in shown.itertuples()]
     out: list = [_fitted_table(f"Each site at its own cutoff ({cur} a season; by the value of the forecast)",
                                [("", "Site"), ("Own", "cutoff"), ("90%", "interval"), ("Mean", "cost"),
