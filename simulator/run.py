@@ -752,16 +752,19 @@ def _plan(n_sites: int, n_chunks: int, workers: int, many: bool) -> list[tuple[i
     It changes speed, never results. One site, or fewer sites than twice the workers: tasks by chunk
     of blocks, for groups of sites as large as :data:`MAX_GROUP` allows while leaving
     :data:`TASKS_PER_WORKER` tasks per worker. Otherwise each task prices all the replicates of one
-    group of :data:`SUM_GROUP` sites, or of part of one when there would be too few tasks.
+    group of :data:`SUM_GROUP` sites, or of part of one when there would be too few tasks; the groups
+    left over after the last round in which every worker takes a whole group are cut in one part per
+    worker, so that no worker waits long for the others at the end.
     """
     if not many or (workers > 1 and n_sites < 2 * workers):
         size = max(1, min(MAX_GROUP, (n_sites * n_chunks) // (TASKS_PER_WORKER * max(1, workers))))
         return [(a, min(a + size, n_sites), c) for a in range(0, n_sites, size) for c in range(n_chunks)]
     groups = [(a, min(a + SUM_GROUP, n_sites)) for a in range(0, n_sites, SUM_GROUP)]
     parts = 1 if workers == 1 else -(-TASKS_PER_WORKER * workers // len(groups))
+    left_over = len(groups) % workers if parts == 1 else 0
     tasks = []
-    for a, b in groups:
-        size = max(1, -(-(b - a) // parts))
+    for i, (a, b) in enumerate(groups):
+        size = max(1, -(-(b - a) // (workers if i >= len(groups) - left_over else parts)))
         tasks += [(first, min(first + size, b), None) for first in range(a, b, size)]
     return tasks
 

@@ -150,3 +150,16 @@ def test_how_the_sites_are_shared_out_changes_no_byte(plan, monkeypatch):
     assert kinds[plan]()
     result = run_history(scenario, history)
     assert json.dumps(summary(result)) == json.dumps(baseline)
+
+
+@pytest.mark.parametrize("n_sites, workers", [(1, 1), (5, 2), (20, 3), (50, 2), (200, 1), (200, 2), (200, 3), (97, 8)])
+def test_the_plan_covers_every_site_and_chunk_once_and_shares_out_the_last_groups(n_sites, workers):
+    """Whatever the shape, each (site, chunk) is priced by exactly one task; with many whole groups,
+    the groups left over after the last full round go to every worker in parts."""
+    n_chunks = 3
+    tasks = run_module._plan(n_sites, n_chunks, workers, many=True)
+    covered = [(k, c) for a, b, chunk in tasks for k in range(a, b)
+               for c in (range(n_chunks) if chunk is None else [chunk])]
+    assert sorted(covered) == [(k, c) for k in range(n_sites) for c in range(n_chunks)]
+    if (n_sites, workers) == (200, 2):  # 12 groups of 16 and one of 8: the 8 go to both workers
+        assert [b - a for a, b, _ in tasks] == [16] * 12 + [4, 4]
