@@ -143,12 +143,28 @@ class PeakMemory:
         self._thread.join()
 
 
-def timed(scenario, history, memory: PeakMemory, **where) -> tuple[float, PeakMemory]:
+def core_seconds() -> tuple[float, float] | None:
+    """(busy, idle) seconds of all the machine's cores since it started, from /proc/stat (Linux;
+    None elsewhere)."""
+    try:
+        with open("/proc/stat") as stat:
+            ticks = [int(x) for x in stat.readline().split()[1:9]]  # user .. steal
+    except (OSError, ValueError):
+        return None
+    idle = ticks[3] + ticks[4]  # idle, iowait
+    return (sum(ticks) - idle) / os.sysconf("SC_CLK_TCK"), idle / os.sysconf("SC_CLK_TCK")
+
+
+def timed(scenario, history, memory: PeakMemory, **where) -> tuple[float, PeakMemory, tuple | None]:
+    """Wall time, peak memory, and the machine's busy and idle core time meanwhile (seconds)."""
+    before = core_seconds()
     with memory:
         start = time.perf_counter()
         run_history(scenario, history, **where)
         elapsed = time.perf_counter() - start
-    return elapsed, memory
+    after = core_seconds()
+    cores = None if before is None or after is None else (after[0] - before[0], after[1] - before[1])
+    return elapsed, memory, cores
 
 
 @contextmanager
@@ -189,6 +205,7 @@ def bench(label: str, text: str, n_sites: int, years: int, cluster: bool, repeat
             print(f"  Dask LocalCluster: 2 worker processes of 1 thread, Dask's default settings "
                   f"(workers see MALLOC_TRIM_THRESHOLD_={', '.join(dask['trim'])})")
         times = {way: [] for way in ways}
+        busy = {way: [] for way in ways}
         worker_memory = {way: 0 for way in ways}
         main_memory = 0
         for r in range(repeats):
@@ -196,8 +213,10 @@ def bench(label: str, text: str, n_sites: int, years: int, cluster: bool, repeat
             for way in order:
                 memory = (PeakMemory(pids=dask["workers"]) if way == "Dask"
                           else PeakMemory(ignore=dask["pids"] if dask else set()))
-                elapsed, memory = timed(scenario, history, memory, **ways[way])
+                elapsed, memory, cores = timed(scenario, history, memory, **ways[way])
                 times[way].append(elapsed)
+                if cores is not None:
+                    busy[way].append(cores)
                 if way != "1 worker":
                     worker_memory[way] = max(worker_memory[way], memory.worker)
                 main_memory = max(main_memory, memory.main)
@@ -212,7 +231,16 @@ def bench(label: str, text: str, n_sites: int, years: int, cluster: bool, repeat
         print(f"    {way:9} {t:6.1f} s  {priced / cores:12,.0f} site-season-cutoffs a second per core{memory}")
     print(f"    this process: peak memory {main_memory / 2**20:,.0f} MB")
     print(f"  speed-up from 1 to 2 local workers: {median['1 worker'] / median['2 workers']:.2f} "
-          f"(target at least 1.8)")
+          f"(target at least 1.8); round by round "
+          + ", ".join(f"{a / b:.2f}" for a, b in zip(times["1 worker"], times["2 workers"])))
+    if all(busy.values()):
+        # where a shortfall comes from: extra work on two workers, cores left idle, or the machine's
+        # speed drifting between rounds (the same work taking more or less core time)
+        used = ", ".join(f"{way} {np.median([b for b, _ in busy[way]]):.1f} s" for way in ways)
+        idle = np.median([i / (b + i) for b, i in busy["2 workers"]])
+        print(f"  core time used (median, whole machine): {used}; idle on 2 local workers: {idle:.0%} of "
+              f"the {os.cpu_count()} cores' time; one worker took {min(times['1 worker']):.1f}-"
+              f"{max(times['1 worker']):.1f} s for the same work over the rounds")
     if "Dask" in median:
         ratio = median["Dask"] / median["2 workers"]
         print(f"  Dask LocalCluster against the local pool: {ratio:.2f} x its time (target at most 1.25)")
