@@ -95,52 +95,62 @@ def sites_frame(n_sites: int, years: int, seed: int = 1) -> pd.DataFrame:
 
 
 class PeakMemory:
-    """Largest resident set of this process and of the worker processes, sampled in a thread.
+    """Peak resident set of this process and of the largest worker process, watched by a thread.
 
-    Workers are this process's descendants (local worker processes), or the given ``pids`` (the
-    Dask workers); processes in ``ignore`` (the Dask cluster, while the local pool is timed) are
-    left out.
+    Each process's own high-water mark (``VmHWM`` in /proc/<pid>/status, Linux; else the resident
+    set at the time) is read every half second, so a short peak between readings is not missed and
+    the watching costs little. Workers are this process's descendants (local worker processes), or
+    the given ``pids`` (Dask workers).
     """
 
-    def __init__(self, pids: set[int] | None = None, ignore: set[int] = frozenset()):
+    def __init__(self, pids: set[int] | None = None):
         import psutil
 
         self._me = psutil.Process()
-        self._pids, self._ignore = pids, ignore
+        self._pids = pids
         self.worker = 0
         self.main = 0
         self._stop = threading.Event()
 
     def __enter__(self):
-        self._thread = threading.Thread(target=self._sample, daemon=True)
+        self._thread = threading.Thread(target=self._watch, daemon=True)
         self._thread.start()
         return self
 
-    def _workers(self):
+    @staticmethod
+    def _peak(process) -> int:
+        try:
+            with open(f"/proc/{process.pid}/status") as status:
+                for line in status:
+                    if line.startswith("VmHWM:"):
+                        return int(line.split()[1]) * 1024
+        except (OSError, ValueError):
+            pass
+        return process.memory_info().rss
+
+    def _read(self) -> None:
         import psutil
 
-        if self._pids is not None:
-            return [psutil.Process(pid) for pid in self._pids]
-        return [p for p in self._me.children(recursive=True) if p.pid not in self._ignore]
+        try:
+            self.main = max(self.main, self._peak(self._me))
+            workers = ([psutil.Process(pid) for pid in self._pids] if self._pids is not None else
+                       self._me.children(recursive=True))
+            for worker in workers:
+                try:
+                    self.worker = max(self.worker, self._peak(worker))
+                except psutil.Error:
+                    pass
+        except psutil.Error:
+            pass
 
-    def _sample(self):
-        import psutil
-
-        while not self._stop.is_set():
-            try:
-                self.main = max(self.main, self._me.memory_info().rss)
-                for worker in self._workers():
-                    try:
-                        self.worker = max(self.worker, worker.memory_info().rss)
-                    except psutil.Error:
-                        pass
-            except psutil.Error:
-                pass
-            self._stop.wait(0.1)
+    def _watch(self):
+        while not self._stop.wait(0.5):
+            self._read()
 
     def __exit__(self, *exc):
         self._stop.set()
         self._thread.join()
+        self._read()  # Dask workers live on; local workers have gone (their last reading stands)
 
 
 def core_seconds() -> tuple[float, float] | None:
@@ -168,13 +178,10 @@ def timed(scenario, history, memory: PeakMemory, **where) -> tuple[float, PeakMe
 
 
 @contextmanager
-def dask_cluster(wanted: bool):
-    """A two-worker Dask LocalCluster with Dask's default settings (one thread per worker
-    process), its workers having loaded gonogo, as on a cluster that is up; None when not wanted."""
-    if not wanted:
-        yield None
-        return
-    import psutil
+def dask_cluster():
+    """A two-worker Dask LocalCluster with Dask's default settings (one thread per worker process),
+    its workers having loaded gonogo, as on a cluster that is up. Brought up for its own timings
+    only, so that its idle processes do not load the machine while the local pool is timed."""
     from distributed import Client, LocalCluster
 
     with LocalCluster(n_workers=2, threads_per_worker=1, processes=True, dashboard_address=None) as cluster:
@@ -182,9 +189,7 @@ def dask_cluster(wanted: bool):
             client.run(importlib.import_module, "simulator.run")
             workers = set(client.run(os.getpid).values())
             trim = sorted(set(map(str, client.run(os.environ.get, "MALLOC_TRIM_THRESHOLD_").values())))
-        cluster_pids = {p.pid for p in psutil.Process().children(recursive=True)
-                        if p.pid in workers or any(c.pid in workers for c in p.children())}
-        yield {"address": cluster.scheduler_address, "workers": workers, "pids": cluster_pids, "trim": trim}
+        yield {"address": cluster.scheduler_address, "workers": workers, "trim": trim}
 
 
 def bench(label: str, text: str, n_sites: int, years: int, cluster: bool, repeats: int) -> None:
@@ -198,30 +203,32 @@ def bench(label: str, text: str, n_sites: int, years: int, cluster: bool, repeat
     print(f"\n{label}: {n_sites} sites x {years} years daily ({history.n_rows:,} rows, read in "
           f"{loaded:.1f} s) x {replicates:,} replicates x {n_cutoffs} cutoffs; season of {n_occasions} "
           f"occasions; {'operating rules played day by day' if scenario.operations else 'fixed costs'}")
-    with dask_cluster(cluster) as dask:
-        ways = {"1 worker": {"workers": 1}, "2 workers": {"workers": 2}}
-        if dask is not None:
-            ways["Dask"] = {"cluster": dask["address"]}
-            print(f"  Dask LocalCluster: 2 worker processes of 1 thread, Dask's default settings "
-                  f"(workers see MALLOC_TRIM_THRESHOLD_={', '.join(dask['trim'])})")
-        times = {way: [] for way in ways}
-        busy = {way: [] for way in ways}
-        worker_memory = {way: 0 for way in ways}
-        main_memory = 0
-        for r in range(repeats):
-            order = list(ways)[r % len(ways):] + list(ways)[: r % len(ways)]  # each way first in turn
-            for way in order:
-                memory = (PeakMemory(pids=dask["workers"]) if way == "Dask"
-                          else PeakMemory(ignore=dask["pids"] if dask else set()))
-                elapsed, memory, cores = timed(scenario, history, memory, **ways[way])
-                times[way].append(elapsed)
-                if cores is not None:
-                    busy[way].append(cores)
-                if way != "1 worker":
-                    worker_memory[way] = max(worker_memory[way], memory.worker)
-                main_memory = max(main_memory, memory.main)
-            print(f"  round {r + 1} ({', '.join(order)}): "
-                  + ", ".join(f"{way} {times[way][-1]:.1f} s" for way in ways), flush=True)
+    ways = ["1 worker", "2 workers"] + (["Dask"] if cluster else [])
+    times = {way: [] for way in ways}
+    busy = {way: [] for way in ways}
+    worker_memory = {way: 0 for way in ways}
+    main_memory = 0
+    for r in range(repeats):
+        order = ways[r % len(ways):] + ways[: r % len(ways)]  # each way first in turn
+        for way in order:
+            if way == "Dask":
+                with dask_cluster() as dask:
+                    if r == 0:
+                        print(f"  Dask LocalCluster: 2 worker processes of 1 thread, Dask's default settings "
+                              f"(workers see MALLOC_TRIM_THRESHOLD_={', '.join(dask['trim'])})")
+                    elapsed, memory, cores = timed(scenario, history, PeakMemory(pids=dask["workers"]),
+                                                   cluster=dask["address"])
+            else:
+                elapsed, memory, cores = timed(scenario, history, PeakMemory(),
+                                               workers=1 if way == "1 worker" else 2)
+            times[way].append(elapsed)
+            if cores is not None:
+                busy[way].append(cores)
+            if way != "1 worker":
+                worker_memory[way] = max(worker_memory[way], memory.worker)
+            main_memory = max(main_memory, memory.main)
+        print(f"  round {r + 1} ({', '.join(order)}): "
+              + ", ".join(f"{way} {times[way][-1]:.1f} s" for way in ways), flush=True)
     median = {way: float(np.median(t)) for way, t in times.items()}
     print(f"  median of {repeats} rounds:")
     for way, t in median.items():
