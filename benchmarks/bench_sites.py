@@ -12,15 +12,17 @@ chain of regional events; each site has the event on 80% of regional event days 
 Timings are of ``simulator.run_history`` (the history is read once, beforehand), from the call to
 the finished result, the start of the local worker processes included. As ``simulator.run`` does
 while it reads the history, the process that forks local workers is started (and loads gonogo)
-before the timings; the Dask workers likewise load gonogo before they are timed, as on a cluster that
-is up, and run with Dask's default settings. This machine's speed drifts from minute to minute, so
-the three ways (1 worker, 2 workers, Dask) are timed in rounds, each way first in turn, and the
-medians are compared: same data, same seed, same results. Peak memory: the largest resident set of
-any worker process (sampled every 0.1 s with psutil), and of this process. Targets from issue 6:
-speed-up of at least 1.8 from 1 to 2 workers, under 2 GB a worker, the cluster within 25% of the
-local pool.
+before the timings. The Dask cluster runs with Dask's default settings and is brought up for each of
+its timings (its workers load gonogo before the clock starts, as on a cluster that is up), so that
+its idle processes do not load the machine while the local pool is timed. This machine's speed
+drifts from minute to minute, so the three ways (1 worker, 2 workers, Dask) are timed in rounds, each
+way first in turn, and the medians are compared: same data, same seed, same results. The speed-up is
+also printed round by round, with the core time each way used (from /proc/stat), to tell parallel
+overhead from drift. Peak memory: each process's own high-water mark (VmHWM), the largest worker's,
+and this process's. Targets from issue 6: speed-up of at least 1.8 from 1 to 2 workers, under 2 GB
+a worker, the cluster within 25% of the local pool.
 
-    .venv/bin/python benchmarks/bench_sites.py                 # the issue's sizes: a few minutes
+    .venv/bin/python benchmarks/bench_sites.py                 # the issue's sizes: about 15 minutes
     .venv/bin/python benchmarks/bench_sites.py --sites 40 --rule-sites 10 --replicates 2000
 """
 
