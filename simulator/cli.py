@@ -254,29 +254,27 @@ def _sites_tables(result: RunResult) -> list:
                                [("", "Site"), ("Own", "cutoff"), ("90%", "interval"), ("Mean", "cost"),
                                 ("Saving against", f"{result.reference} (share)"), ("Value of", "forecast")],
                                rows), more]
-    checked = [c for c in ("validation_chosen_cutoff", "walk_forward_cost") if c in frame.columns]
-    if checked:
-        headers, rows = [("", "Site")], []
-        if "validation_chosen_cutoff" in frame.columns:
-            headers += [("Validation", "cutoff"), ("Validation", "optimism"), ("", "Flag")]
-        if "walk_forward_cost" in frame.columns:
-            headers += [("Walk-forward", "optimism"), ("Seasons", "flagged")]
+    validation, forward = "validation_chosen_cutoff" in frame.columns, "walk_forward_cost" in frame.columns
+    if validation or forward:
+        headers = [("", "Site")]
+        headers += [("Validation", "cutoff"), ("Validation", "optimism"), ("", "Flag")] if validation else []
+        headers += [("Walk-forward", "optimism"), ("Seasons", "flagged")] if forward else []
+        rows, notes = [], []
         for r in shown.itertuples():
             row = [r.site]
-            if "validation_chosen_cutoff" in frame.columns:
+            if validation:
                 row += [f"{r.validation_chosen_cutoff:.2f}", f"{r.validation_optimism:,.0f}",
                         "worse" if r.validation_flag else ""]
-            if "walk_forward_cost" in frame.columns:
+            if forward:
                 flagged = r.walk_forward_flagged_seasons
-                row += [f"{r.walk_forward_optimism:,.0f}", flagged if isinstance(flagged, str) and flagged else ""]
+                row += [f"{r.walk_forward_optimism:,.0f}", flagged if isinstance(flagged, str) else ""]
             rows.append(row)
         out.append(_fitted_table(f"Each site's cutoff chosen on the past, priced on later seasons ({cur})", headers,
                                  rows))
-        notes = []
-        if "validation_flag" in frame.columns:
+        if validation:
             notes.append(f"validation cost worse than the training range at {int(frame['validation_flag'].sum())} "
                          f"of {len(frame)} sites")
-        if "walk_forward_flagged_seasons" in frame.columns:
+        if forward:
             some = frame["walk_forward_flagged_seasons"].fillna("").astype(str).str.len() > 0
             notes.append(f"seasons dearer than their training range at {int(some.sum())} of {len(frame)} sites")
         out.append("Optimism: how much more choosing on the past cost than the best cutoff in hindsight; "
