@@ -8,11 +8,14 @@ from its seeded block, and results are put together in a fixed order.
 from __future__ import annotations
 
 import builtins
-import json
 import importlib
+import json
+import pickle
 import socket
 import time
+from multiprocessing.shared_memory import SharedMemory
 
+import numpy as np
 import pytest
 from typer.testing import CliRunner
 
@@ -57,6 +60,7 @@ def test_one_worker_two_workers_and_a_dask_cluster_write_the_same_bytes(scenario
     scenario = read_scenario(scenario_path)
     one = _files(run(scenario, workers=1))
     monkeypatch.setattr(run_module, "INLINE_BELOW", 0)  # share out even this small run
+    monkeypatch.setattr(parallel, "OUT_OF_BAND_BYTES", 1)  # every array through shared memory
     used = []
     monkeypatch.setattr(parallel.PoolExecutor, "close",
                         lambda self, close=parallel.PoolExecutor.close: (used.append(self.workers), close(self)))
@@ -67,6 +71,23 @@ def test_one_worker_two_workers_and_a_dask_cluster_write_the_same_bytes(scenario
         on_cluster = _files(run(scenario, cluster=cluster.scheduler_address))
     assert two == one
     assert on_cluster == one
+
+
+def test_shared_inputs_reach_local_workers_through_shared_memory_read_only(monkeypatch):
+    shared = {"p": np.linspace(0.0, 1.0, 20_000), "dates": np.arange(20_000).astype("datetime64[D]"),
+              "small": np.arange(3), "name": "North"}
+    shipped = parallel._InSharedMemory.make(shared)
+    assert len(shipped.pickled) < 2_000  # the large arrays travel out of band
+    loaded = pickle.loads(pickle.dumps(shipped)).load()  # as a worker gets and installs it
+    for key in ("p", "dates", "small"):
+        assert loaded[key].dtype == shared[key].dtype and np.array_equal(loaded[key], shared[key])
+    assert loaded["name"] == "North"
+    assert not loaded["p"].flags.writeable and not loaded["dates"].flags.writeable
+    shipped.release()
+    with pytest.raises(FileNotFoundError):
+        SharedMemory(name=shipped.name)
+    monkeypatch.setattr(parallel, "_room_for", lambda size: False)  # a full /dev/shm: sent as they are
+    assert parallel._InSharedMemory.make(shared) is None
 
 
 def test_progress_counts_every_site_replicate_season_once(scenario_path):
