@@ -116,15 +116,20 @@ def _joint_dates(history: History) -> tuple[_Dates, np.ndarray]:
                    day_of_season=day, step_days=history.step_days)
     site_rows = np.empty((history.n_sites, dates.size), dtype=np.int64)
     span = int(history.day_of_season.max()) + 1  # keys season * span + day order rows by date
+    joint_key = season * span + day
     for k in range(history.n_sites):
         own = history.for_site(k)
         rows = np.flatnonzero(own.evaluated)
         own_season, own_day = own.season[rows], own.day_of_season[rows]
-        seasons = np.unique(own_season)
+        key = own_season * span + own_day
+        if np.array_equal(key, joint_key):  # a row on every joint date
+            site_rows[k] = rows
+            continue
+        seasons = own_season[np.r_[True, own_season[1:] != own_season[:-1]]]  # sorted, as the keys are
         j = np.searchsorted(seasons, season)
         left, right = seasons[np.maximum(j - 1, 0)], seasons[np.minimum(j, seasons.size - 1)]
         target = np.where(np.abs(season - left) <= np.abs(right - season), left, right)
-        key, want = own_season * span + own_day, target * span + day
+        want = target * span + day
         right_i = np.minimum(np.searchsorted(key, want), key.size - 1)
         left_i = np.maximum(right_i - 1, 0)
         left_ok, right_ok = own_season[left_i] == target, own_season[right_i] == target
