@@ -41,7 +41,7 @@ from .resample import BLOCK, Calendar, Resampler, block_rng, n_blocks, season_ca
 from .scenario import BASELINES, Scenario, break_even_probability, cost_warnings, read_scenario
 from .selection import Calibration, Selection, calibrate, select_honestly
 from .stress import ReplicatePricer, StressResult, run_stress
-from .tables import cutoff_table, forecast_quality, forecast_scores
+from .tables import cutoff_table, forecast_quality, forecast_scores, history_table, with_replicates
 
 __all__ = ["run", "run_history", "RunResult", "SiteResult", "Portfolio", "Progress", "CHUNK_BLOCKS"]
 
@@ -323,6 +323,12 @@ def _run_sites(scenario: Scenario, history: History, *, replicates: int, seed: i
     results: dict[int, SiteResult] = {}
     forward = sim.walk_forward if walk_forward is None else walk_forward
     check = history.has_validation or forward
+    stars = {break_even_probability(s.costs) for s in scenarios}
+    p_star = stars.pop() if len(stars) == 1 else float("nan")
+
+    def tables_of_history():  # the portfolio's, from all sites' rows
+        parts = [(history.for_site(k), s.costs) for k, s in enumerate(scenarios)]
+        return forecast_quality(history, cutoffs), history_table(parts, cutoffs, p_star)
 
     try:
         checked = False
@@ -334,7 +340,7 @@ def _run_sites(scenario: Scenario, history: History, *, replicates: int, seed: i
                 make_rules(site_scenario.operations, calendar.dates, site_scenario.season.weekdays,
                            f'{label} [sites."{names[k]}"]')
         with _executor(work, workers, cluster, walk_forward=forward) as executor:
-            scored = _alongside(executor, forecast_quality, history, cutoffs)  # all sites' rows
+            scored = _alongside(executor, tables_of_history)
             _price_all(work, executor, None, (results, total), progress)
             sites = tuple(results[k] for k in range(len(names)))
             if check or scenario.stress:
@@ -346,14 +352,11 @@ def _run_sites(scenario: Scenario, history: History, *, replicates: int, seed: i
     reference = sim.reference
     model_cost, baseline_matrix = total.model, total.baselines
     baseline_cost = {name: baseline_matrix[:, i] for i, name in enumerate(BASELINES)}
-    stars = {break_even_probability(s.costs) for s in scenarios}
-    p_star = stars.pop() if len(stars) == 1 else float("nan")
     seasons_per_history = max(1, round(joint_dates / calendar.n_occasions))
     decision = decide(model_cost, baseline_cost[reference], cutoffs, seasons_per_history,
                       block_rng(seed, 0, _INTERVAL_STREAM))
-    parts = [(site.history, site.scenario.costs) for site in sites]
-    table = cutoff_table(parts, cutoffs, p_star, model_cost, baseline_cost[reference])
-    quality, value_curve, reliability = scored()
+    (quality, value_curve, reliability), table = scored()
+    table = with_replicates(table, model_cost, baseline_cost[reference])
     own_cost = sites[0].model_cost.copy()
     for site in sites[1:]:
         own_cost += site.model_cost
@@ -502,7 +505,9 @@ def _sites_table(sites: Sequence[SiteResult], common: int) -> pd.DataFrame:
     rows = []
     for site, value, r in zip(sites, values, rank):
         d = site.decision
-        at = site.table.iloc[d.recommended_index]  # the percentiles of its season cost, made with it
+        # the percentiles of its season cost, made with its table
+        percentiles = {key: _cell(site.table, d.recommended_index, key)
+                       for key in ("p05_cost", "p50_cost", "p95_cost")}
         row = {"site": site.name, "rows": site.history.n_rows, "evaluated_rows": site.history.n_evaluated,
                "missing_dates": site.missing_dates, **site.quality,
                **{key: getattr(site.scenario.costs, key) for key in ("hit", "false_alarm", "miss",
@@ -512,12 +517,11 @@ def _sites_table(sites: Sequence[SiteResult], common: int) -> pd.DataFrame:
                "recommended_cutoff_high": d.recommended_cutoff_interval[1],
                "near_optimal_low": d.near_optimal_band[0], "near_optimal_high": d.near_optimal_band[1],
                "break_even": _ranges(d.break_even), "confident_break_even": _ranges(d.confident_break_even),
-               "mean_cost": float(site.model_cost.mean()), "p05_cost": float(at["p05_cost"]),
-               "p50_cost": float(at["p50_cost"]), "p95_cost": float(at["p95_cost"]),
+               "mean_cost": float(site.model_cost.mean()), **percentiles,
                "reference_mean_cost": float(site.baseline_cost[site.reference].mean()),
                "mean_savings": d.savings.mean, "p05_savings": d.savings.p05, "p95_savings": d.savings.p95,
                "prob_saving": d.prob_saving, "forecast_value": value, "value_rank": int(r),
-               "mean_cost_at_common_cutoff": float(site.table["mean_cost"].iloc[common])}
+               "mean_cost_at_common_cutoff": _cell(site.table, common, "mean_cost")}
         check = site.selection.validation if site.selection is not None else None
         if check is not None:
             row.update({"validation_chosen_cutoff": check.chosen_cutoff,
@@ -534,6 +538,11 @@ def _sites_table(sites: Sequence[SiteResult], common: int) -> pd.DataFrame:
                         "mean_days_late": at["days_late"]["mean"]})
         rows.append(row)
     return pd.DataFrame(rows)
+
+
+def _cell(table: pd.DataFrame, row: int, column: str) -> float:
+    """One number of a table (quicker than a row of mixed types, or a column made a Series)."""
+    return float(table.iat[row, table.columns.get_loc(column)])
 
 
 def _ranges(ranges) -> str:
@@ -632,7 +641,8 @@ def _price_task(work: _Work, first_site: int, last_site: int, chunk: int | None)
         if chunk is not None:
             out.append(("chunk", k, chunk, block))
             continue
-        out.append(("site", k, _site_result(work, k, block)))
+        # without its rows, which the caller holds already (a site's rows outweigh its results)
+        out.append(("site", k, dataclasses.replace(_site_result(work, k, block), history=None)))
         g = k // SUM_GROUP
         whole = first_site <= g * SUM_GROUP and min((g + 1) * SUM_GROUP, len(work.scenarios)) <= last_site
         if not whole:
@@ -723,7 +733,7 @@ def _price_all(work: _Work, executor: Executor, block_done: Callable[[int, Price
         for item in results:
             kind, k = item[0], item[1]
             if kind == "site":
-                sites[0][k] = item[2]
+                sites[0][k] = dataclasses.replace(item[2], history=work.resampler.history.for_site(k))
                 done += work.replicates
             elif kind == "costs":
                 sites[1].add_site(k, item[2], item[3])

@@ -20,13 +20,26 @@ from .history import History
 from .scenario import Costs
 from .scoring import Contingency
 
-__all__ = ["cutoff_table", "forecast_scores", "forecast_quality"]
+__all__ = ["cutoff_table", "history_table", "with_replicates", "forecast_scores", "forecast_quality"]
 
 
 def cutoff_table(parts: Sequence[tuple[History, Costs]], cutoffs: np.ndarray, p_star: float,
-                  model_cost: np.ndarray, reference_cost: np.ndarray) -> pd.DataFrame:
+                 model_cost: np.ndarray, reference_cost: np.ndarray) -> pd.DataFrame:
     """One row per cutoff: the classification counts and rates on the history, the historical
-    cost, net benefit and relative value, and the replicate seasons' cost and savings.
+    cost, net benefit and relative value (:func:`history_table`), and the replicate seasons' cost
+    and savings (:func:`with_replicates`)."""
+    return with_replicates(history_table(parts, cutoffs, p_star), model_cost, reference_cost)
+
+
+def with_replicates(table: pd.DataFrame, model_cost: np.ndarray, reference_cost: np.ndarray) -> pd.DataFrame:
+    """A :func:`history_table` with the replicate seasons' cost and savings at each cutoff
+    (:func:`simulator.decision.per_cutoff`) added on the right."""
+    return pd.concat([table, pd.DataFrame(per_cutoff(model_cost, reference_cost))], axis=1)
+
+
+def history_table(parts: Sequence[tuple[History, Costs]], cutoffs: np.ndarray, p_star: float) -> pd.DataFrame:
+    """One row per cutoff: the classification counts and rates on the history, the historical
+    cost, net benefit and relative value.
 
     ``parts`` are (history, costs) of each site (one for a single site); counts and costs are
     summed over them, so with many sites the table is the portfolio's under one common cutoff.
@@ -59,7 +72,6 @@ def cutoff_table(parts: Sequence[tuple[History, Costs]], cutoffs: np.ndarray, p_
             columns["net_benefit"] = (scoring.net_benefit(counts.hits, counts.false_alarms, n, p_star)
                                       if not np.isnan(p_star) else np.full(cutoffs.size, np.nan))
             columns["relative_value"] = scoring.relative_value_from_costs(expense, never, always, perfect)
-    columns.update(per_cutoff(model_cost, reference_cost))
     return pd.DataFrame(columns)
 
 
