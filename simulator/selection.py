@@ -34,7 +34,6 @@ from dataclasses import dataclass
 
 import numpy as np
 import pandas as pd
-from scipy.optimize import isotonic_regression
 
 from . import scoring
 from .costs import SeasonPricer, baseline_actions, occasion_costs, price
@@ -79,6 +78,8 @@ def fit_recalibration(p: np.ndarray, event: np.ndarray) -> Recalibration:
     pool-adjacent-violators solution is found over the distinct values. The fit keeps the sum:
     over the training occasions the recalibrated probabilities add up to the number of events.
     """
+    from scipy.optimize import isotonic_regression  # imported here: only the calibrated mode needs it
+
     p = np.asarray(p, dtype=float)
     event = np.asarray(event, dtype=float)
     knots, inverse, counts = np.unique(p, return_inverse=True, return_counts=True)

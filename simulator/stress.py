@@ -23,6 +23,9 @@ changes only costs or the forecast is priced on exactly the base replicates (its
 the base are paired), and ``event_rate = 1`` reproduces the base case exactly. Cases that change how
 replicates are built (tilt, block length, seasons) reuse the same random numbers, which keeps them
 close to the base without making them identical.
+
+scipy is imported inside the functions that use it: its modules take about a second to import, at
+every start of the command and of every worker, and most runs need none of them.
 """
 
 from __future__ import annotations
@@ -33,9 +36,6 @@ from collections.abc import Callable
 from dataclasses import dataclass, field
 
 import numpy as np
-from scipy.optimize import brentq
-from scipy.signal import lfilter
-from scipy.special import expit, logit
 
 from .costs import PricedBlock, SeasonPricer, baseline_actions, occasion_costs, price
 from .decision import Decision, Distribution, decide, distribution
@@ -105,6 +105,8 @@ def log_odds_noise(p: np.ndarray, sd: float, rng: np.random.Generator) -> np.nda
 
     Probabilities of exactly 0 or 1 are first moved to 0.001 or 0.999, so noise can reach them.
     """
+    from scipy.special import expit, logit  # imported here: see the module docstring
+
     p = np.clip(np.asarray(p, dtype=float), 1e-3, 1 - 1e-3)
     return expit(logit(p) + sd * rng.standard_normal(p.shape))
 
@@ -119,6 +121,8 @@ def run_event_share(expected_event: np.ndarray, history: History, mean_block: fl
     r + j with probability (1 - 1/m)^j, so the share is sum_j a^j e_{r+j} / sum_j a^j, a = 1 - 1/m,
     over the evaluated rows of r's season. Rows outside the evaluated history get 0.
     """
+    from scipy.signal import lfilter  # imported here: see the module docstring
+
     out = np.zeros(history.n_rows)
     rows = np.flatnonzero(history.evaluated)
     a = 1.0 - 1.0 / mean_block
@@ -164,6 +168,8 @@ def tilt_to_rate(resampler: Resampler, expected_event: np.ndarray, target: float
     ``expected_event`` is the event (0/1) of each history row in the replay, or its recalibrated
     probability in the calibrated mode.
     """
+    from scipy.optimize import brentq  # imported here: see the module docstring
+
     expected_event = np.asarray(expected_event, dtype=float)
     share = run_event_share(expected_event, resampler.history, resampler.mean_block) - 0.5
 
@@ -209,6 +215,8 @@ def odds_shift_to_rate(expected: np.ndarray, target: float) -> Tilt:
     reachable range runs from the share of occasions certain to have the event to the share that
     may have it.
     """
+    from scipy.optimize import brentq  # imported here: see the module docstring
+
     expected = np.asarray(expected, dtype=float).ravel()
     lowest, highest = float((expected >= 1).mean()), float((expected > 0).mean())
     reachable = lowest < target < highest

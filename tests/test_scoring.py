@@ -5,6 +5,7 @@ import numpy as np
 import pytest
 from sklearn.calibration import calibration_curve
 from sklearn.linear_model import LogisticRegression
+from scipy.stats import rankdata
 from sklearn.metrics import brier_score_loss, confusion_matrix, roc_auc_score, roc_curve
 
 from simulator.scoring import (
@@ -15,6 +16,7 @@ from simulator.scoring import (
     count_at_cutoffs,
     false_alarm_rate,
     hit_rate,
+    mid_ranks,
     net_benefit,
     net_benefit_treat_all,
     peirce_score,
@@ -252,6 +254,14 @@ def test_roc_auc_matches_sklearn_and_pair_count(rng, decimals):
     p, event = _random_history(rng, decimals=decimals)
     assert roc_auc(p, event) == pytest.approx(roc_auc_score(event, p), rel=1e-12)
     assert roc_auc(p, event) == pytest.approx(_auc_by_pairs(p, event), rel=1e-12)
+
+
+@pytest.mark.parametrize("shape", [(1,), (7,), (500,), (3, 200)])
+def test_mid_ranks_match_scipy_rankdata(rng, shape):
+    # reference: scipy.stats.rankdata, method "average" (its default), along the last axis
+    x = np.round(rng.random(shape), 1)  # many ties
+    assert np.array_equal(mid_ranks(x), rankdata(x, axis=-1))
+    assert np.array_equal(mid_ranks(np.full(5, 0.3)), rankdata(np.full(5, 0.3)))
 
 
 def test_roc_auc_of_sklearn_docs_example():
