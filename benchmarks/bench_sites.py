@@ -14,15 +14,20 @@ the finished result, the start of the local worker processes included. As ``simu
 while it reads the history, the process that forks local workers is started (and loads gonogo)
 before the timings. The Dask cluster runs with Dask's default settings and is brought up for each of
 its timings (its workers load gonogo before the clock starts, as on a cluster that is up), so that
-its idle processes do not load the machine while the local pool is timed. This machine's speed
-drifts from minute to minute, so the three ways (1 worker, 2 workers, Dask) are timed in rounds, each
-way first in turn, and the medians are compared: same data, same seed, same results. The speed-up is
-also printed round by round, with the core time each way used (from /proc/stat), to tell parallel
-overhead from drift. Peak memory: each process's own high-water mark (VmHWM), the largest worker's,
+its idle processes do not load the machine while the local pool is timed.
+
+A fourth way measures the machine rather than gonogo: the sites cut in two halves, each half run on
+one worker in a process of its own, both at once, with nothing shared or sent back. One worker's
+time over the halves' time is the speed-up the machine itself allows for this work at that moment
+(two busy cores may each run slower than one), and the pool's time over the halves' time is what
+sharing out the work costs. This machine's speed drifts from minute to minute, so the four ways are
+timed in rounds, each way first in turn, and the medians are compared: same data, same seed, same
+results. The speed-up is also printed round by round, with the core time each way used (from
+/proc/stat), to tell parallel overhead from drift. Peak memory: each process's own high-water mark (VmHWM), the largest worker's,
 and this process's. Targets from issue 6: speed-up of at least 1.8 from 1 to 2 workers, under 2 GB
 a worker, the cluster within 25% of the local pool.
 
-    .venv/bin/python benchmarks/bench_sites.py                 # the issue's sizes: about 15 minutes
+    .venv/bin/python benchmarks/bench_sites.py                 # the issue's sizes: about 20 minutes
     .venv/bin/python benchmarks/bench_sites.py --sites 40 --rule-sites 10 --replicates 2000
 """
 
@@ -30,6 +35,7 @@ from __future__ import annotations
 
 import argparse
 import importlib
+import multiprocessing
 import os
 import threading
 import time
@@ -194,18 +200,51 @@ def dask_cluster():
         yield {"address": cluster.scheduler_address, "workers": workers, "trim": trim}
 
 
+def _run_half(scenario, history, ready, go, done) -> None:
+    ready.put(os.getpid())
+    go.wait()
+    run_history(scenario, history, workers=1)
+    done.put(time.monotonic())
+
+
+def two_halves(scenario, halves) -> tuple[float, tuple | None]:
+    """The machine's own ceiling for this work: the sites cut in two halves, each run on one worker
+    in a process of its own, both at once, nothing shared or sent back. Wall time from the start
+    signal (the processes are up and hold their half) to the last one finishing, and core time."""
+    context = multiprocessing.get_context("forkserver")
+    ready, go, done = context.Queue(), context.Event(), context.Queue()
+    processes = [context.Process(target=_run_half, args=(scenario, half, ready, go, done)) for half in halves]
+    for process in processes:
+        process.start()
+    for _ in processes:
+        ready.get()
+    before = core_seconds()
+    start = time.monotonic()
+    go.set()
+    elapsed = max(done.get() for _ in processes) - start
+    after = core_seconds()
+    for process in processes:
+        process.join()
+    cores = None if before is None or after is None else (after[0] - before[0], after[1] - before[1])
+    return elapsed, cores
+
+
 def bench(label: str, text: str, n_sites: int, years: int, cluster: bool, repeats: int) -> None:
     scenario = scenario_from_text(text)
     start = time.perf_counter()
-    history = history_from_frame(sites_frame(n_sites, years), scenario, label="invented")
+    frame = sites_frame(n_sites, years)
+    history = history_from_frame(frame, scenario, label="invented")
     loaded = time.perf_counter() - start
+    names = list(history.site_names)
+    halves = [history_from_frame(frame[frame["site"].isin(part)], scenario, label="invented")
+              for part in (names[: n_sites // 2], names[n_sites // 2:])]
     n_cutoffs = scenario.cutoffs.size
     replicates = scenario.simulation.replicates
     n_occasions = season_calendar(history, scenario.season).n_occasions
     print(f"\n{label}: {n_sites} sites x {years} years daily ({history.n_rows:,} rows, read in "
           f"{loaded:.1f} s) x {replicates:,} replicates x {n_cutoffs} cutoffs; season of {n_occasions} "
           f"occasions; {'operating rules played day by day' if scenario.operations else 'fixed costs'}")
-    ways = ["1 worker", "2 workers"] + (["Dask"] if cluster else [])
+    ways = ["1 worker", "2 workers", "2 halves"] + (["Dask"] if cluster else [])
     times = {way: [] for way in ways}
     busy = {way: [] for way in ways}
     worker_memory = {way: 0 for way in ways}
@@ -220,15 +259,19 @@ def bench(label: str, text: str, n_sites: int, years: int, cluster: bool, repeat
                               f"(workers see MALLOC_TRIM_THRESHOLD_={', '.join(dask['trim'])})")
                     elapsed, memory, cores = timed(scenario, history, PeakMemory(pids=dask["workers"]),
                                                    cluster=dask["address"])
+            elif way == "2 halves":
+                elapsed, cores = two_halves(scenario, halves)
+                memory = None
             else:
                 elapsed, memory, cores = timed(scenario, history, PeakMemory(),
                                                workers=1 if way == "1 worker" else 2)
             times[way].append(elapsed)
             if cores is not None:
                 busy[way].append(cores)
-            if way != "1 worker":
-                worker_memory[way] = max(worker_memory[way], memory.worker)
-            main_memory = max(main_memory, memory.main)
+            if memory is not None:
+                if way != "1 worker":
+                    worker_memory[way] = max(worker_memory[way], memory.worker)
+                main_memory = max(main_memory, memory.main)
         print(f"  round {r + 1} ({', '.join(order)}): "
               + ", ".join(f"{way} {times[way][-1]:.1f} s" for way in ways), flush=True)
     median = {way: float(np.median(t)) for way, t in times.items()}
@@ -236,12 +279,17 @@ def bench(label: str, text: str, n_sites: int, years: int, cluster: bool, repeat
     for way, t in median.items():
         cores = 1 if way == "1 worker" else 2
         priced = n_sites * replicates * n_cutoffs / t
-        memory = f", peak memory per worker {worker_memory[way] / 2**20:,.0f} MB" if cores > 1 else ""
+        memory = f", peak memory per worker {worker_memory[way] / 2**20:,.0f} MB" if worker_memory[way] else ""
         print(f"    {way:9} {t:6.1f} s  {priced / cores:12,.0f} site-season-cutoffs a second per core{memory}")
     print(f"    this process: peak memory {main_memory / 2**20:,.0f} MB")
     print(f"  speed-up from 1 to 2 local workers: {median['1 worker'] / median['2 workers']:.2f} "
           f"(target at least 1.8); round by round "
           + ", ".join(f"{a / b:.2f}" for a, b in zip(times["1 worker"], times["2 workers"])))
+    ceiling = [a / b for a, b in zip(times["1 worker"], times["2 halves"])]
+    reached = [b / a for a, b in zip(times["2 workers"], times["2 halves"])]
+    print(f"  the machine's own ceiling (1 worker against 2 halves at once, nothing shared): "
+          f"{float(np.median(ceiling)):.2f}; round by round {', '.join(f'{x:.2f}' for x in ceiling)}; the local "
+          f"pool took {float(np.median([1 / x for x in reached])):.2f} times the halves' time (median of rounds)")
     if all(busy.values()):
         # where a shortfall comes from: extra work on two workers, cores left idle, or the machine's
         # speed drifting between rounds (the same work taking more or less core time)
@@ -262,7 +310,10 @@ def main() -> None:
     parser.add_argument("--years", type=int, default=10, help="years of daily history (default 10)")
     parser.add_argument("--replicates", type=int, default=5000, help="replicate seasons (default 5000)")
     parser.add_argument("--cutoff-step", type=float, default=0.01, help="cutoff step (default 0.01: 101 cutoffs)")
-    parser.add_argument("--repeats", type=int, default=3, help="rounds of timings; medians are reported (default 3)")
+    parser.add_argument("--repeats", type=int, default=5,
+                        help="rounds of timings with fixed costs; medians are reported (default 5)")
+    parser.add_argument("--rule-repeats", type=int, default=3,
+                        help="rounds of timings with operating rules (default 3: each takes minutes)")
     parser.add_argument("--no-cluster", action="store_true", help="skip the Dask LocalCluster runs")
     args = parser.parse_args()
     print(f"bench_sites: {os.cpu_count()} cores seen; numpy {np.__version__}")
@@ -272,7 +323,7 @@ def main() -> None:
         bench("(a) fixed costs", FIXED.format(**fill), args.sites, args.years, not args.no_cluster, args.repeats)
     if args.rule_sites:
         bench("(b) operating rules", RULES.format(**fill), args.rule_sites, args.years, not args.no_cluster,
-              args.repeats)
+              args.rule_repeats)
 
 
 if __name__ == "__main__":
