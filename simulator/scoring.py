@@ -413,8 +413,9 @@ def mid_ranks(x) -> np.ndarray:
     new_value[..., 1:] = ordered[..., 1:] != ordered[..., :-1]
     last_of_run = np.ones(x.shape, dtype=bool)
     last_of_run[..., :-1] = new_value[..., 1:]
-    first = np.maximum.accumulate(np.where(new_value, position, 0), axis=-1)
-    last = np.flip(np.minimum.accumulate(np.flip(np.where(last_of_run, position, n), axis=-1), axis=-1), axis=-1)
+    first = np.maximum.accumulate(np.where(new_value, position, 0), axis=-1)  # of each value's run
+    last = np.flip(np.minimum.accumulate(np.flip(np.where(last_of_run, position, n), axis=-1), axis=-1),
+                   axis=-1)
     ranks = np.empty(x.shape)
     np.put_along_axis(ranks, order, (first + last) / 2.0 + 1.0, axis=-1)
     return ranks

@@ -3,9 +3,9 @@ reference libraries (scikit-learn, scipy) on random data and on an open daily we
 
 import numpy as np
 import pytest
+from scipy.stats import rankdata
 from sklearn.calibration import calibration_curve
 from sklearn.linear_model import LogisticRegression
-from scipy.stats import rankdata
 from sklearn.metrics import brier_score_loss, confusion_matrix, roc_auc_score, roc_curve
 
 from simulator.scoring import (
