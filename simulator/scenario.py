@@ -7,8 +7,10 @@ always best produces a warning (returned, never printed: ``cli.py`` prints).
 
 from __future__ import annotations
 
+import codecs
 import hashlib
 import math
+import re
 import tomllib
 import typing
 from datetime import date
@@ -22,11 +24,14 @@ from pydantic import (BaseModel, ConfigDict, Field, ValidationError, create_mode
 from .errors import InputError, did_you_mean, read_input_file
 
 __all__ = ["Scenario", "Costs", "read_scenario", "scenario_from_text", "cutoff_grid",
-           "break_even_probability", "cost_warnings", "WEEKDAYS", "BASELINES",
+           "break_even_probability", "cost_warnings", "WEEKDAYS", "BASELINES", "COST_KEYS", "COST_PLACEHOLDER",
            "OperationsSection", "StressCase", "CostChanges", "OperationsChanges", "STRESS_CHANGES",
            "SiteSection", "SiteOperations"]
 
 WEEKDAYS = ("mon", "tue", "wed", "thu", "fri", "sat", "sun")
+COST_KEYS = ("hit", "false_alarm", "miss", "correct_negative")
+COST_PLACEHOLDER = "fill in"
+"""What ``gonogo init`` writes for each cost: text, so that the schema refuses it until replaced."""
 BASELINES = ("never_act", "always_act", "persistence", "seasonal_rate", "perfect")
 
 
@@ -45,6 +50,57 @@ class HistorySection(_Section):
     side: Literal["above", "below"] | None = None
     direction: Literal["up", "down"] | None = None
     validation_from: date | None = None
+    # how the file is written; each found from the file when not given (simulator.sheets)
+    sheet: str | None = None  # an .xlsx workbook's sheet; default the first
+    separator: Literal[",", ";", "\t"] | None = None
+    decimal: Literal[".", ","] | None = None
+    encoding: str | None = None
+    date_format: str | None = None  # strftime codes, e.g. "%d.%m.%Y"; default ISO or found
+
+    @field_validator("separator", mode="before")
+    @classmethod
+    def _tab_by_name(cls, value):
+        return "\t" if isinstance(value, str) and value.lower() in ("tab", "\\t") else value
+
+    @field_validator("encoding")
+    @classmethod
+    def _known_encoding(cls, value):
+        if value is None:
+            return value
+        try:
+            codecs.lookup(value)
+        except LookupError:
+            raise ValueError(f'"{value}" is not an encoding Python knows; use for example "utf-8" or '
+                             '"cp1252"') from None
+        return value
+
+    @field_validator("date_format")
+    @classmethod
+    def _strftime_codes(cls, value):
+        if value is None:
+            return value
+        codes = set(re.findall(r"%(.)", value))
+        if not codes & {"d", "j"} or not codes & {"Y", "y"} or not codes & {"m", "b", "B", "j"}:
+            raise ValueError(f'"{value}" needs codes for the day, month and year, for example "%d.%m.%Y" '
+                             'or "%m/%d/%Y"')
+        return value
+
+    @model_validator(mode="after")
+    def _distinct_columns(self):
+        roles = [("date_column", self.date_column), ("probability_column", self.probability_column),
+                 ("value_column" if self.value_column else "outcome_column", self.outcome_source),
+                 ("site_column", self.site_column)]
+        seen: dict[str, str] = {}
+        for key, column in roles:
+            if column is None:
+                continue
+            if column in seen:
+                raise ValueError(f'{seen[column]} and {key} both name column "{column}"; the outcome must '
+                                 "come from a column of its own (a forecast judged against itself looks perfect)"
+                                 if "probability_column" in (seen[column], key) else
+                                 f'{seen[column]} and {key} both name column "{column}"; give each its own column')
+            seen[column] = key
+        return self
 
     @model_validator(mode="after")
     def _one_way_to_the_outcome(self):
@@ -102,6 +158,16 @@ class Costs(_Section):
     false_alarm: float
     miss: float
     correct_negative: float = 0.0
+
+    @model_validator(mode="before")
+    @classmethod
+    def _filled_in(cls, data):
+        if isinstance(data, dict) and any(isinstance(v, str) for v in data.values()):
+            blank = [k for k, v in data.items() if isinstance(v, str)]
+            raise ValueError(f"fill in the four costs ({', '.join(COST_KEYS)}: money per occasion in the "
+                             f"scenario's currency, negative for income); {', '.join(blank)} "
+                             f"{'is' if len(blank) == 1 else 'are'} not a number yet")
+        return data
 
     def as_array(self) -> np.ndarray:
         """(hit, false_alarm, miss, correct_negative) as float64."""
