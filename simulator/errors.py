@@ -63,6 +63,7 @@ def read_input_file(path: Path, what: str, expected: str, limit: int | None = No
     except OSError as exc:
         raise InputError(f"{path}: cannot be read ({exc.strerror or exc}); check the file") from None
     if limit is not None and len(raw) > limit:
-        raise InputError(f"{path}: is larger than the {limit // 2**20} MiB that gonogo reads from a {what} "
+        size = f"{limit / 2**20:g} MiB" if limit >= 2**20 else f"{limit / 2**10:g} KiB"
+        raise InputError(f"{path}: is larger than the {size} that gonogo reads from a {what} "
                          f"file; keep only the rows that matter (for example fewer years or sites)")
     return raw

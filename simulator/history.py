@@ -183,7 +183,8 @@ def history_from_frame(frame: pd.DataFrame, scenario: Scenario, *, label: str = 
     for role, name in _required_columns(spec):
         if name not in columns:
             raise InputError(f'{label}: no column "{name}" (the {role}){did_you_mean(name, columns)}; '
-                             f"name it in the scenario's [history] {role}_column")
+                             f"name it in the scenario's [history] {role}_column (gonogo init writes a scenario that "
+                             "names the columns it finds)")
 
     codes, site_names = None, ()
     if spec.site_column is not None:
