@@ -20,6 +20,7 @@ import numpy as np
 import pandas as pd
 
 from . import __version__
+from .datapackage import datapackage
 from .errors import InputError
 from .run import RunResult
 from .selection import Calibration, Selection
@@ -119,6 +120,8 @@ def render_files(result: RunResult) -> dict[str, bytes]:
         files["selection.csv"] = _csv(_selection_frame(result.selection))
     if result.portfolio is not None:
         files["sites.csv"] = _csv(result.portfolio.table)
+    scenario = result.scenario
+    files["datapackage.json"] = datapackage(files, scenario.slug, scenario.name, scenario.currency)
     files.update(render_report(result, contents))
     return files
 
