@@ -502,9 +502,23 @@ def init_command(
     out_console.print(table)
     for note in layout.notes:
         err_console.print(f"note: {note}", markup=False, highlight=False, soft_wrap=True)
+    prog = _program()
     out_console.print(Text(f"Wrote {scenario}. Next: fill in the four costs in its [costs] (and any line "
-                           f"marked CHOSEN that is not right), then run:\n  gonogo check {history} "
-                           f"--scenario {scenario}\n  gonogo run {scenario}"))
+                           f"marked CHOSEN that is not right), then run:\n  {prog} check {history} "
+                           f"--scenario {scenario}\n  {prog} run {scenario}"), soft_wrap=True)
+
+
+def _program() -> str:
+    """How the user called gonogo, for commands to copy: "gonogo" when that is on the PATH,
+    else the path they typed (such as .venv/bin/gonogo)."""
+    import os
+    import shutil
+
+    called = sys.argv[0] if sys.argv and Path(sys.argv[0]).name == "gonogo" else "gonogo"
+    found = shutil.which("gonogo")
+    if called == "gonogo" or (found and os.path.realpath(found) == os.path.realpath(called)):
+        return "gonogo"
+    return called
 
 
 @app.callback(invoke_without_command=True)
