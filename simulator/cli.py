@@ -433,6 +433,7 @@ def check_command(
     table = Table(title=f"{history}: ok", show_header=False, title_justify="left")
     table.add_column(style="bold")
     table.add_column()
+    table.add_row("File", Text(h.read_as))
     table.add_row("Rows", f"{h.n_rows} ({h.n_evaluated} in the season, {len(h.seasons)} seasons)")
     table.add_row("Period", f"{h.start} to {h.end}")
     if h.has_sites:

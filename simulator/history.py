@@ -61,6 +61,7 @@ class History:
     warnings: tuple[str, ...] = field(default=())
     site: np.ndarray | None = None  # int64 (n_rows,), an index into site_names; None: one site
     site_names: tuple[str, ...] = ()
+    read_as: str = ""  # how the file was read ("CSV, semicolon-separated, ..."); empty for a frame
 
     @property
     def n_rows(self) -> int:
@@ -154,8 +155,9 @@ def read_history(scenario: Scenario, path: str | Path | None = None) -> History:
     spec = scenario.history
     table = read_table(Path(path), sheet=spec.sheet, separator=spec.separator, decimal=spec.decimal,
                        encoding=spec.encoding)
-    return history_from_frame(table.frame, scenario, label=str(path), sha256=table.sha256,
-                              first_row=table.first_row)
+    history = history_from_frame(table.frame, scenario, label=str(path), sha256=table.sha256,
+                                 first_row=table.first_row)
+    return dataclasses.replace(history, read_as=table.dialect.describe())
 
 
 def _scenario_label(scenario: Scenario) -> str:

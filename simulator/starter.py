@@ -177,7 +177,7 @@ def find_layout(path: Path) -> Layout:
 
 def _s(text: str) -> str:
     """A TOML basic string (JSON's escapes are TOML's)."""
-    return json.dumps(text, ensure_ascii=False)
+    return json.dumps(text, ensure_ascii=False).replace("\x7f", "\\u007f")  # TOML refuses a raw DEL
 
 
 def _plain(text: str) -> str:

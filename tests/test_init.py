@@ -273,3 +273,19 @@ def test_results_go_to_outputs_named_after_the_scenario_file(tmp_path, monkeypat
     assert (tmp_path / "outputs" / "north yard" / "summary.json").exists()
     assert ran.stdout.strip().splitlines()[-1].startswith("Wrote ")
     assert "outputs/north yard/" in ran.stdout.strip().splitlines()[-1]
+
+
+def test_odd_column_names_are_written_as_valid_toml(tmp_path):
+    # quotes, a backslash, a control character and console markup in headers stay plain text
+    names = {"date": 'day "local"', "probability": "P(rain) \\ supplier\x7f", "outcome": "[bold]wet[/bold]"}
+    path = tmp_path / "odd.csv"
+    invented().assign(date=lambda f: f["date"].dt.strftime("%Y-%m-%d")).rename(columns=names).to_csv(
+        path, index=False)
+    scenario = tmp_path / "odd.toml"
+    made = gonogo("init", path, scenario)
+    assert made.exit_code == 0, made.output
+    config = tomllib.loads(scenario.read_text(encoding="utf-8"))["history"]
+    assert (config["date_column"], config["probability_column"], config["outcome_column"]) == tuple(names.values())
+    assert "[bold]wet[/bold]" in made.stdout
+    fill_in_costs(scenario)
+    assert gonogo("check", path, "--scenario", scenario).exit_code == 0
