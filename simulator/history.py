@@ -23,11 +23,12 @@ from .errors import InputError, closest, did_you_mean
 from .scenario import HistorySection, Scenario, SeasonSection
 from .sheets import read_table
 
-__all__ = ["History", "read_history", "history_from_frame", "season_start_month", "MIN_CLASS_COUNT"]
+__all__ = ["History", "read_history", "history_from_frame", "season_start_month", "MIN_CLASS_COUNT",
+           "TRUE_WORDS", "FALSE_WORDS"]
 
 MIN_CLASS_COUNT = 5
-_TRUE = {"1", "1.0", "true", "yes", "y", "t"}
-_FALSE = {"0", "0.0", "false", "no", "n", "f"}
+TRUE_WORDS = {"1", "1.0", "true", "yes", "y", "t"}
+FALSE_WORDS = {"0", "0.0", "false", "no", "n", "f"}
 
 
 @dataclass(frozen=True)
@@ -409,8 +410,8 @@ def _parse_outcome(frame: pd.DataFrame, spec: HistorySection, where: _Where,
             raise where.error(np.flatnonzero(blank)[0], column, "the outcome is missing; write 1 or 0")
         text = values.astype(str).str.strip().str.lower()
         number = pd.to_numeric(text, errors="coerce").to_numpy(dtype=float)  # 1.00 and 0.00 as exported
-        is_true = text.isin(_TRUE).to_numpy() | (number == 1)
-        is_false = text.isin(_FALSE).to_numpy() | (number == 0)
+        is_true = text.isin(TRUE_WORDS).to_numpy() | (number == 1)
+        is_false = text.isin(FALSE_WORDS).to_numpy() | (number == 0)
         bad = ~(is_true | is_false)
         if bad.any():
             i = np.flatnonzero(bad)[0]

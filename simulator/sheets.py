@@ -111,10 +111,7 @@ def read_table(path: Path, *, sheet: str | None = None, separator: str | None = 
         reason = str(exc).splitlines()[0] if str(exc) else type(exc).__name__
         raise InputError(f"{label}: cannot be read as CSV ({reason}); save it as CSV with a header row "
                          "and one row per occasion") from None
-    # blank lines are kept as rows so that row numbers match the spreadsheet's; only blank lines
-    # at the end of the file are dropped
-    filled = frame.apply(lambda column: column.str.strip().ne("")).any(axis=1).to_numpy()
-    frame = frame.iloc[: int(np.flatnonzero(filled)[-1]) + 1 if filled.any() else 0]
+    frame = _without_blank_tail(frame)
     _check_one_column(frame, label, separator, "separator" in found)
     if decimal is None:
         decimal = _sniff_decimal(frame, label, separator)
@@ -124,6 +121,12 @@ def read_table(path: Path, *, sheet: str | None = None, separator: str | None = 
                                                         column.str.replace(",", ".", regex=False)))
     dialect = Dialect("csv", encoding=used, separator=separator, decimal=decimal, found=tuple(found))
     return Table(_capped(frame, label, 2), 2, sha256, dialect)
+
+
+def _without_blank_tail(frame: pd.DataFrame) -> pd.DataFrame:
+    """Blank rows are kept so that row numbers match the spreadsheet's; only those at the end go."""
+    filled = frame.apply(lambda column: column.str.strip().ne("")).any(axis=1).to_numpy()
+    return frame.iloc[: int(np.flatnonzero(filled)[-1]) + 1 if filled.any() else 0]
 
 
 def _capped(frame: pd.DataFrame, label: str, first_row: int) -> pd.DataFrame:
@@ -279,8 +282,7 @@ def _read_excel(raw: bytes, label: str, sheet: str | None) -> tuple[pd.DataFrame
         raise InputError(f'{label} sheet "{sheet}": cannot be read ({reason}); save it again as .xlsx or as CSV') from None
     frame.columns = [str(c) for c in frame.columns]
     text = frame.apply(lambda column: column.map(_cell_text)).astype(str) if len(frame) else frame.astype(str)
-    filled = text.apply(lambda column: column.str.strip().ne("")).any(axis=1).to_numpy()
-    return text.iloc[: int(np.flatnonzero(filled)[-1]) + 1 if filled.any() else 0], sheet
+    return _without_blank_tail(text), sheet
 
 
 def _cell_text(value) -> str:

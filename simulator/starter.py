@@ -21,13 +21,13 @@ import pandas as pd
 
 from .dates import ISO, DateProblem, find_date_format, human_format, parse_dates
 from .errors import InputError
+from .history import FALSE_WORDS as _FALSE
+from .history import TRUE_WORDS as _TRUE
 from .scenario import COST_KEYS, COST_PLACEHOLDER, WEEKDAYS
 from .sheets import SEPARATORS, Dialect, read_table
 
 __all__ = ["Layout", "find_layout", "starter_scenario", "write_scenario"]
 
-_TRUE = {"1", "true", "yes", "y", "t"}
-_FALSE = {"0", "false", "no", "n", "f"}
 _DATE_SHAPE = re.compile(r"^\s*\d{1,4}[-/.]\d{1,2}[-/.]\d{1,4}")
 _RARE_WEEKDAY = 0.1  # a weekday with under a tenth of the busiest weekday's rows is left out
 
