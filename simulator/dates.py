@@ -13,7 +13,6 @@ from __future__ import annotations
 
 import re
 from collections.abc import Callable
-from datetime import date
 
 import numpy as np
 import pandas as pd
@@ -32,9 +31,6 @@ _SERIAL = re.compile(r"^\d{5}(?:\.\d+)?$")
 _MAX_YEARS_APART = 100  # a date further from the median date is a typing slip (the project's own rule)
 _FIRST_YEAR, _LAST_YEAR = 1850, 2200
 
-Error = Callable[[int, str, str], InputError]
-
-
 class DateProblem(Exception):
     """A column whose dates cannot be read: ``index`` is the first row it concerns."""
 
@@ -45,6 +41,8 @@ class DateProblem(Exception):
 
     def worded(self, row: Callable[[int], int]) -> str:
         """The message with row numbers as a spreadsheet counts them (``row(index)``)."""
+        if not self.rows:  # the message may quote braces from the file: leave it as it is
+            return str(self)
         return str(self).format(*(row(k) for k in self.rows))
 
 
@@ -161,7 +159,7 @@ def parse_dates(values: pd.Series, date_format: str | None, where, column: str) 
     return dates
 
 
-def _check_years(dates: np.ndarray, error: Error, column: str) -> None:
+def _check_years(dates: np.ndarray, error: Callable[[int, str, str], InputError], column: str) -> None:
     """A date far outside the others (a slip of the year) is refused, naming its row."""
     years = dates.astype("datetime64[Y]").astype(np.int64) + 1970
     median = int(np.median(years))

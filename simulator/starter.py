@@ -147,8 +147,8 @@ def find_layout(path: Path) -> Layout:
                 site = name
                 break
         if site is None:
-            notes.append(f'some dates appear on more than one row and no column tells the rows apart; if the '
-                         f'file holds many sites, set [history] site_column')
+            notes.append('some dates appear on more than one row and no column tells the rows apart; if the '
+                         'file holds many sites, set [history] site_column')
     months: tuple[int, ...] = ()
     weekdays: tuple[str, ...] = ()
     rare: tuple[str, ...] = ()
@@ -190,6 +190,8 @@ def starter_scenario(layout: Layout, scenario_path: Path) -> str:
     """The commented TOML of a starter scenario for ``layout``, to be written at ``scenario_path``."""
     d = layout.dialect
     rel = Path(os.path.relpath(layout.path.resolve(), scenario_path.resolve().parent)).as_posix()
+    if rel.startswith("../.."):  # far from the scenario: the full path reads better
+        rel = layout.path.resolve().as_posix()
     lines = [
         f"# Starter scenario written by gonogo init from {_plain(layout.path.name)}.",
         "# Each key says what init found in the file (\"found\") or the choice it made (\"CHOSEN\"):",
