@@ -361,7 +361,7 @@ AsJson = Annotated[bool, typer.Option("--json", help="Print summary.json to stan
 def run_command(
     scenario: Annotated[Path, typer.Argument(help="The scenario file (.toml): costs, season, cutoffs, "
                                              "and where the history is.")],
-    history: Annotated[Path | None, typer.Option(help="The history file (CSV or Parquet), instead of "
+    history: Annotated[Path | None, typer.Option(help="The history file (CSV, Excel .xlsx or Parquet), instead of "
                                                  "the scenario's [history] path.")] = None,
     out: Annotated[Path | None, typer.Option(help="Folder for the results (default: outputs/<the "
                                              "scenario file's name without .toml>).")] = None,
@@ -416,7 +416,7 @@ def demo_command(
 
 @app.command("check")
 def check_command(
-    history: Annotated[Path, typer.Argument(help="The history file (CSV or Parquet) to check.")],
+    history: Annotated[Path, typer.Argument(help="The history file (CSV, Excel .xlsx or Parquet) to check.")],
     scenario: Annotated[Path | None, typer.Option(help="A scenario whose [history], [event] and "
                                                   "[season] say how to read the history.")] = None,
 ) -> None:

@@ -52,7 +52,35 @@ def _tokens(values: pd.Series) -> pd.Series:
 
 
 def find_date_format(values: pd.Series) -> str:
-    """The strftime format of a column of date text, :data:`ISO`, or a :class:`DateProblem`."""
+    """The strftime format of a column of date text, :data:`ISO`, or a :class:`DateProblem`.
+
+    The column's distinct cells are looked at once each, so a file of many sites costs no more
+    than one of its sites; a problem names the first row holding the cell concerned.
+    """
+    codes, cells = _distinct(values)
+    try:
+        return _format_of(cells)
+    except DateProblem as problem:
+        raise _in_rows(problem, _first_rows(codes)) from None
+
+
+def _distinct(values: pd.Series) -> tuple[np.ndarray, pd.Series]:
+    """Each row's code and the distinct cells (stripped text), in order of first appearance."""
+    codes, uniques = pd.factorize(values.astype(str).str.strip())
+    return codes, pd.Series(np.asarray(uniques, dtype=object), dtype=object)
+
+
+def _in_rows(problem: DateProblem, first: np.ndarray) -> DateProblem:
+    """A problem found among the distinct cells, told by the first rows that hold them."""
+    return DateProblem(int(first[problem.index]), str(problem), tuple(int(first[k]) for k in problem.rows))
+
+
+def _first_rows(codes: np.ndarray) -> np.ndarray:
+    """The first row holding each distinct cell (codes count up in order of first appearance)."""
+    return np.unique(codes, return_index=True)[1]
+
+
+def _format_of(values: pd.Series) -> str:
     tokens = _tokens(values)
     year_first = tokens.str.match(_YEAR_FIRST)
     if year_first.all():
@@ -125,36 +153,45 @@ def parse_dates(values: pd.Series, date_format: str | None, where, column: str) 
     ``where.row(index)`` gives a row's number as a spreadsheet counts it.
     """
     error = where.error
-    blank = values.isna().to_numpy() | values.astype(str).str.strip().isin(["", "nan", "NaT", "None"]).to_numpy()
-    if blank.any():
-        raise error(int(np.flatnonzero(blank)[0]), column, "the date is missing; fill it in")
     if pd.api.types.is_datetime64_any_dtype(values):
+        blank = values.isna().to_numpy()
+        if blank.any():
+            raise error(int(np.flatnonzero(blank)[0]), column, "the date is missing; fill it in")
         parsed = pd.to_datetime(values)
         if getattr(parsed.dt, "tz", None) is not None:
             parsed = parsed.dt.tz_localize(None)  # the wall-clock time where it was written
-    elif date_format is not None:
-        fmt, text = date_format, values.astype(str).str.strip()
+        dates = parsed.to_numpy().astype("datetime64[D]")
+        _check_years(dates, error, column)
+        return dates
+    codes, cells = _distinct(values)  # each distinct cell is read once
+    first = _first_rows(codes)
+    blank = (values.isna().to_numpy()
+             | cells.isin(["", "nan", "NaT", "None", "<NA>"]).to_numpy()[codes])
+    if blank.any():
+        raise error(int(np.flatnonzero(blank)[0]), column, "the date is missing; fill it in")
+    if date_format is not None:
+        fmt, text = date_format, cells
         if "%z" in fmt or "%Z" in fmt:  # the local date: drop the offset, whatever it is on each row
             fmt = re.sub(r"\s*%[zZ]", "", fmt)
             text = text.str.replace(_OFFSET, "", regex=True)
         parsed = pd.to_datetime(text, format=fmt, errors="coerce")
         bad = parsed.isna().to_numpy()
         if bad.any():
-            i = int(np.flatnonzero(bad)[0])
-            raise error(i, column, f"{str(values.iloc[i])[:40]!r} does not match date_format "
-                                   f'"{date_format}"; fix the date or the format')
+            k = int(np.flatnonzero(bad)[0])
+            raise error(int(first[k]), column, f"{cells.iloc[k][:40]!r} does not match date_format "
+                                               f'"{date_format}"; fix the date or the format')
     else:
         try:
-            fmt = find_date_format(values)
+            fmt = _format_of(cells)
         except DateProblem as problem:
+            problem = _in_rows(problem, first)
             raise error(problem.index, column, problem.worded(where.row)) from None
-        tokens = _tokens(values)
-        parsed = pd.to_datetime(tokens, format="ISO8601" if fmt == ISO else fmt, errors="coerce")
+        parsed = pd.to_datetime(_tokens(cells), format="ISO8601" if fmt == ISO else fmt, errors="coerce")
         bad = parsed.isna().to_numpy()
         if bad.any():  # e.g. 31.02.2025: the shape fits but the day does not exist
-            i = int(np.flatnonzero(bad)[0])
-            raise error(i, column, f"{str(values.iloc[i])[:40]!r} is not a date of the calendar; fix it")
-    dates = parsed.to_numpy().astype("datetime64[D]")
+            k = int(np.flatnonzero(bad)[0])
+            raise error(int(first[k]), column, f"{cells.iloc[k][:40]!r} is not a date of the calendar; fix it")
+    dates = parsed.to_numpy().astype("datetime64[D]")[codes]
     _check_years(dates, error, column)
     return dates
 

@@ -1,4 +1,4 @@
-"""Read a forecast history (CSV or Parquet), check it, and derive the binary outcome.
+"""Read a forecast history (CSV, Excel .xlsx or Parquet), check it, and derive the binary outcome.
 
 One row per forecast occasion: a date, the forecast probability of the event and the observed
 outcome, given directly (0/1, true/false, yes/no) or derived from a numeric column by a threshold

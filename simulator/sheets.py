@@ -117,8 +117,7 @@ def read_table(path: Path, *, sheet: str | None = None, separator: str | None = 
         decimal = _sniff_decimal(frame, label, separator)
         found.append("decimal")
     if decimal == ",":
-        frame = frame.apply(lambda column: column.where(~column.str.match(_COMMA_NUMBER),
-                                                        column.str.replace(",", ".", regex=False)))
+        frame = frame.apply(_with_decimal_points)
     dialect = Dialect("csv", encoding=used, separator=separator, decimal=decimal, found=tuple(found))
     return Table(_capped(frame, label, 2), 2, sha256, dialect)
 
@@ -198,7 +197,7 @@ def _undecodable(raw: bytes, exc: UnicodeDecodeError, label: str, encoding: str,
 
 def _sniff_separator(text: str) -> str:
     """The separator that splits the first lines into the same number of fields, most of them."""
-    lines = [line for line in text.splitlines()[:50] if line.strip()]
+    lines = [line for line in text[:200_000].splitlines()[:50] if line.strip()]
     best, best_score = ",", (0, 0)
     for sep in SEPARATORS:
         counts = [len(row) for row in csv.reader(lines, delimiter=sep)]
@@ -230,20 +229,46 @@ def _toml_string(text: str) -> str:
     return '"\\t"' if text == "\t" else f'"{text}"'
 
 
+def _distinct(column: pd.Series) -> tuple[np.ndarray, np.ndarray]:
+    """Each row's code and the column's distinct cells in order of first appearance: patterns are
+    looked for once per distinct cell (a file of many sites repeats its dates and numbers)."""
+    codes, uniques = pd.factorize(column)
+    return codes, np.asarray(uniques, dtype=object)
+
+
+def _with_decimal_points(column: pd.Series) -> pd.Series:
+    codes, cells = _distinct(column)
+    comma = pd.Series(cells, dtype=object).str.match(_COMMA_NUMBER).to_numpy(dtype=bool)
+    if not comma.any():
+        return column
+    cells[comma] = [cell.replace(",", ".") for cell in cells[comma]]
+    return pd.Series(cells[codes], index=column.index, name=column.name, dtype=column.dtype)
+
+
 def _sniff_decimal(frame: pd.DataFrame, label: str, separator: str) -> str:
     """"," when numbers are written with a decimal comma and none with a decimal point, else "."."""
     if separator == "," or frame.empty:
         return "."
-    cells = frame.stack()
-    comma = cells.str.match(_COMMA_NUMBER)
-    point = cells.str.match(_POINT_NUMBER)
-    if not comma.any():
+    comma_at = point_at = None  # (row index, column) of the first cell of each kind
+    for name in frame.columns:
+        codes, cells = _distinct(frame[name])
+        text = pd.Series(cells, dtype=object)
+        first = np.unique(codes, return_index=True)[1]
+        for pattern, kind in ((_COMMA_NUMBER, "comma"), (_POINT_NUMBER, "point")):
+            hits = np.flatnonzero(text.str.match(pattern).to_numpy(dtype=bool))
+            if hits.size:
+                at = (int(first[hits].min()), name)
+                if kind == "comma" and (comma_at is None or at[0] < comma_at[0]):
+                    comma_at = at
+                if kind == "point" and (point_at is None or at[0] < point_at[0]):
+                    point_at = at
+    if comma_at is None:
         return "."
-    if point.any():
-        (i, a), (j, b) = comma[comma].index[0], point[point].index[0]
-        raise InputError(f'{label}: numbers are written both with a decimal comma (row {int(i) + 2}, column '
-                         f'"{a}": {cells[(i, a)]!r}) and with a decimal point (row {int(j) + 2}, column '
-                         f'"{b}": {cells[(j, b)]!r}); set [history] decimal = "," or "."')
+    if point_at is not None:
+        (i, a), (j, b) = comma_at, point_at
+        raise InputError(f'{label}: numbers are written both with a decimal comma (row {i + 2}, column '
+                         f'"{a}": {frame[a].iloc[i]!r}) and with a decimal point (row {j + 2}, column '
+                         f'"{b}": {frame[b].iloc[j]!r}); set [history] decimal = "," or "."')
     return ","
 
 

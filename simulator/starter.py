@@ -205,7 +205,7 @@ def starter_scenario(layout: Layout, scenario_path: Path) -> str:
         'currency = "EUR"  # CHOSEN: the currency of every cost below; write yours',
         "",
         "[history]",
-        f"path = {_s(rel)}  # relative to this file; {layout.n_rows:,} rows, {layout.start} to {layout.end}",
+        f"path = {_s(rel)}  # found: {layout.n_rows:,} rows, {layout.start} to {layout.end}; a relative path starts from this file's folder",
     ]
     if d.kind == "csv":
         lines += [f"separator = {_s(d.separator)}  # found: {SEPARATORS[d.separator]}-separated",
