@@ -19,6 +19,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
+from . import decimals
 from .errors import InputError, closest, did_you_mean, read_input_file
 from .scenario import HistorySection, Scenario, SeasonSection
 
@@ -219,7 +220,7 @@ def history_from_frame(frame: pd.DataFrame, scenario: Scenario, *, label: str = 
         first_of_site[1:] = codes[1:] != codes[:-1]
 
     if scenario.event.flip:
-        p = 1.0 - p
+        p = decimals.complement(p)  # exact: the complement of 0.56 is 0.44 (see decimals.py)
         event = ~event
 
     season_rule = scenario.season
@@ -410,6 +411,7 @@ def _parse_numbers(values: pd.Series, where: _Where, column: str, missing: str, 
 def _parse_probability(values: pd.Series, where: _Where, column: str) -> np.ndarray:
     numbers = _parse_numbers(values, where, column, "the probability is missing; fill it in (0 to 1)",
                              "; write a probability from 0 to 1")
+    numbers = decimals.snap(numbers)  # kept as 12-decimal values, the grid every comparison uses
     outside = (numbers < 0) | (numbers > 1)
     if outside.any():
         i = np.flatnonzero(outside)[0]

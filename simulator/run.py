@@ -29,6 +29,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
+from . import decimals
 from .blocklength import optimal_block_length
 from .costs import PricedBlock, SeasonPricer, occasion_costs
 from .decision import Decision, Distribution, decide, distribution
@@ -805,6 +806,6 @@ def choose_mean_block(history: History, scenarios: Sequence[Scenario]) -> float:
         own = site == k
         p_star = break_even_probability(scenario.costs)
         series = (event[own].astype(float) if np.isnan(p_star)
-                  else occasion_costs(p[own] >= p_star, event[own], scenario.costs))
+                  else occasion_costs(decimals.reaches(p[own], p_star), event[own], scenario.costs))
         total += np.bincount(index[own], weights=series, minlength=dates.size)
     return max(1.0, float(optimal_block_length(total)))
