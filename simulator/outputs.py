@@ -307,7 +307,8 @@ def _portfolio_entry(result: RunResult) -> dict[str, Any]:
                 "prob_saving": float(cheaper(cost, reference).mean())}
 
     own, common = portfolio.own_cost, portfolio.common_cost
-    independent = math.sqrt(sum(float(site.model_cost.var(ddof=1)) for site in portfolio.sites))
+    # fsum: exactly rounded, so the order the sites are listed in changes no bit of it
+    independent = math.sqrt(math.fsum(float(site.model_cost.var(ddof=1)) for site in portfolio.sites))
     return {
         "site_column": portfolio.site_column,
         "sites": len(portfolio.sites),
