@@ -41,7 +41,8 @@ class History:
     ``prev_event`` is the outcome of the previous row (False for the first), for persistence.
 
     A history of many sites (``[history] site_column``) holds every site's rows, grouped by site in
-    the order the sites first appear in the file and in date order within each: ``site`` gives each
+    the order of the sites' names (so the order they are listed in changes no figure of a run, not
+    even the last bit of a sum over sites) and in date order within each: ``site`` gives each
     row's site as an index into ``site_names``, and ``prev_event`` looks back within the site.
     :meth:`for_site` gives one site's rows as a history of its own. Without a site column ``site``
     is None and ``site_names`` empty.
@@ -301,11 +302,11 @@ def _missing_site_dates(union: np.ndarray, site_dates: list[np.ndarray], names: 
 
 
 def _parse_sites(values: pd.Series, where: "_Where", column: str) -> tuple[np.ndarray, tuple[str, ...]]:
-    """Each row's site as an index into the site names, in order of first appearance."""
+    """Each row's site as an index into the site names, sorted by name (see :class:`History`)."""
     blank = _blank(values)
     if blank.any():
         raise where.error(np.flatnonzero(blank)[0], column, "the site is missing; name the site on every row")
-    codes, names = pd.factorize(values.astype(str).str.strip())
+    codes, names = pd.factorize(values.astype(str).str.strip(), sort=True)
     return codes.astype(np.int64), tuple(str(n) for n in names)
 
 

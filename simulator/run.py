@@ -113,7 +113,7 @@ class Portfolio:
     beside the run's common cutoff (the one cutoff for all sites with the lowest mean total).
 
     ``own_cost``, ``common_cost`` and ``reference_cost`` are totals over the sites, each
-    (n_replicates,). ``table`` is ``sites.csv``: one row per site in the order of the history.
+    (n_replicates,). ``table`` is ``sites.csv``: one row per site in the order of the history (by name).
     """
 
     site_column: str
@@ -498,7 +498,7 @@ def _site_result(work: "_Work", k: int, block: PricedBlock) -> SiteResult:
 
 
 def _sites_table(sites: Sequence[SiteResult], common: int) -> pd.DataFrame:
-    """``sites.csv``: one row per site, in the order of the history."""
+    """``sites.csv``: one row per site, in the order of the history (by name)."""
     values = [site.forecast_value for site in sites]
     order = sorted(range(len(sites)), key=lambda i: -values[i])
     rank = np.empty(len(sites), dtype=np.int64)

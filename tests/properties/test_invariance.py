@@ -28,7 +28,7 @@ from simulator.scenario import scenario_from_text
 SETTINGS = settings(max_examples=int(os.environ.get("GONOGO_EXAMPLES", 20)), deadline=None, derandomize=True,
                     suppress_health_check=[HealthCheck.function_scoped_fixture])
 SEASON = {"months": [4, 5, 6, 7, 8, 9]}
-SIMULATION = {"replicates": 40, "seed": 3, "block_days": 3}
+SIMULATION = {"replicates": 40, "seed": 3}
 MONEY_COLUMNS = ["historical_cost", "mean_cost", "p05_cost", "p50_cost", "p95_cost", "mean_savings"]
 REFERENCES = ("never_act", "always_act", "persistence", "seasonal_rate")
 
@@ -63,9 +63,9 @@ def complemented(frame: pd.DataFrame) -> pd.DataFrame:
     return frame.assign(probability=frame["probability"].map(one), outcome=1 - frame["outcome"])
 
 
-def scenario(costs: dict, reference: str = "never_act", **sections):
-    return scenario_from_text(scenario_toml(costs=costs, season=SEASON,
-                                            simulation={**SIMULATION, "reference": reference}, **sections))
+def scenario(costs: dict, reference: str = "never_act", block_days=3, **sections):
+    simulation = {**SIMULATION, "reference": reference, "block_days": block_days}
+    return scenario_from_text(scenario_toml(costs=costs, season=SEASON, simulation=simulation, **sections))
 
 
 def files(result) -> tuple[dict, bytes]:
@@ -90,10 +90,11 @@ costs_st = st.fixed_dictionaries({"hit": st.integers(0, 3000), "false_alarm": st
 def test_complemented_history_with_flip_gives_the_original_results(seed, places, costs, reference):
     # Derived: the event of "p, outcome" and of "1 - p, not outcome" flipped back are the same
     # occasions with the same probabilities, so every figure is the same (a two-decimal file
-    # included: 1 - 0.56 must reach 0.44 as 0.44 does).
+    # included: 1 - 0.56 must reach 0.44 as 0.44 does). The automatic block length too, as it
+    # prices the history at the break-even probability.
     frame = history_text(seed, places)
-    plain = scenario(costs, reference)
-    flipped = scenario(costs, reference, event={"flip": True})
+    plain = scenario(costs, reference, block_days="auto")
+    flipped = scenario(costs, reference, block_days="auto", event={"flip": True})
     a = run_history(plain, history_from_frame(frame, plain))
     b = run_history(flipped, history_from_frame(complemented(frame), flipped))
     (sa, ca), (sb, cb) = files(a), files(b)
@@ -159,8 +160,8 @@ def test_listing_sites_in_another_order_changes_no_portfolio_figure(seed, order)
     # Derived: the portfolio is a sum over sites, and the sites are replayed on the same dates
     # whatever their order (invented depots).
     frame = history_text(seed, 2, sites=("Aldmere", "Brackwell", "Corsey"))
-    costs = {"hit": 300, "false_alarm": 1800, "miss": 2500}
-    sc = scenario(costs, history={"site_column": "site"})
+    costs = {"hit": 300.1, "false_alarm": 1800.7, "miss": 2500.3}  # decimals: sums depend on order
+    sc = scenario(costs, block_days="auto", history={"site_column": "site"})
     reordered = pd.concat([frame[frame["site"] == name] for name in order], ignore_index=True)
     a = run_history(sc, history_from_frame(frame, sc))
     b = run_history(sc, history_from_frame(reordered, sc))
