@@ -358,7 +358,7 @@ def render_report(result, summary: Mapping[str, Any]) -> dict[str, bytes]:
     scenario, history, decision, table = result.scenario, result.history, result.decision, result.table
     currency = scenario.currency
     action, event = scenario.decision.action, scenario.event.name
-    occasion = "day" if history.step_days == 1 else "occasion"
+    occasion = "day" if history.frequency.is_daily else "occasion"
     decimals = _decimals(scenario.decision.cutoffs[2])
     words = Words(event=event, action=action, currency=currency, occasion=occasion,
                   reference=result.reference, decimals=decimals,
