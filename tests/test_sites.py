@@ -229,6 +229,26 @@ def test_a_repeated_date_at_one_site_names_the_rows_and_the_site(frame):
                               '"North" (first at row 4); keep one row per site and date')
 
 
+def test_sites_with_rows_at_different_spacings_are_refused(frame):
+    scenario = scenario_from_text(SITES_TOML)
+    dates = pd.to_datetime(frame["date"])
+    weekly_south = frame[(frame["site"] == "North") | (dates.dt.day_of_week == 0)]  # South: Mondays only
+    with pytest.raises(InputError) as err:
+        history_from_frame(weekly_south, scenario, label="history.csv")
+    assert str(err.value) == ('history.csv: site "North" has a row every day and site "South" every week; '
+                              "give every site forecasts at the same spacing")
+
+
+def test_sites_on_different_weekdays_are_daily_on_all_of_them(frame):
+    # North reports on working days, South every day: the joint calendar is every day
+    scenario = scenario_from_text(SITES_TOML)
+    dates = pd.to_datetime(frame["date"])
+    mixed = frame[(frame["site"] == "South") | (dates.dt.day_of_week < 5)]
+    history = history_from_frame(mixed, scenario, label="history.csv")
+    assert history.frequency.describe() == "daily"
+    assert history.for_site(0).frequency.is_daily
+
+
 @pytest.mark.parametrize("extra, fragment", [
     ('[sites."South"]\ncost = { miss = 1 }\n', '[sites."South"]: unknown key "cost"; did you mean "costs"?'),
     ('[sites."South".costs]\nmis = 1\n', '[sites."South".costs]: unknown key "mis"; did you mean "miss"?'),
