@@ -29,7 +29,7 @@ from __future__ import annotations
 
 import copy
 from collections.abc import Iterator
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from datetime import date
 
 import numpy as np
@@ -49,6 +49,8 @@ class Calendar:
     year: int
     dates: np.ndarray  # datetime64[D]
     day_of_season: np.ndarray  # int64
+    holidays: np.ndarray = field(default_factory=lambda: np.array([], dtype="datetime64[D]"))
+    """The ``[season] holidays`` that took a date out of this season (dates it would otherwise hold)."""
 
     @property
     def n_occasions(self) -> int:
@@ -78,8 +80,10 @@ def season_calendar(history: History, rule: SeasonSection) -> Calendar:
     first = np.datetime64(date(year, start_month, 1), "D")
     following = np.datetime64(date(year + 1, start_month, 1), "D")
     days = history.frequency.dates_between(first, following)
-    dates = days[season_mask(days, rule)]
-    return Calendar(year=year, dates=dates, day_of_season=(dates - first).astype(np.int64))
+    keep = season_mask(days, rule)
+    dates = days[keep]
+    skipped = days[~keep & season_mask(days, rule.model_copy(update={"holidays": ()}))]
+    return Calendar(year=year, dates=dates, day_of_season=(dates - first).astype(np.int64), holidays=skipped)
 
 
 def n_blocks(n_replicates: int) -> int:

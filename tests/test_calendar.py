@@ -211,3 +211,19 @@ def test_a_gap_of_many_days_is_not_taken_for_holidays(every_day, make_scenario):
     (warning,) = history_frame_checked(frame, make_scenario()).warnings
     assert warning.endswith("the replay joins across the gaps")
     assert "holidays" not in warning
+
+
+def test_the_report_names_the_days_priced_and_the_holidays_skipped(trading_days, make_scenario):
+    from types import SimpleNamespace
+
+    from simulator.report import _occasion_days
+
+    # 2019-01-01 (a Tuesday) and 2019-01-21 (a Monday) are occasions of a Monday-Tuesday season;
+    # 2019-07-04 (a Thursday) is not, so it takes nothing out
+    scenario = make_scenario(season={"holidays": ["2019-01-01", "2019-01-21", "2019-07-04"],
+                                     "weekdays": ["mon", "tue", "sat"]})
+    history = history_frame_checked(trading_days, scenario)
+    calendar = season_calendar(history, scenario.season)
+    np.testing.assert_array_equal(calendar.holidays, np.array(["2019-01-01", "2019-01-21"], dtype="datetime64[D]"))
+    shown = _occasion_days(SimpleNamespace(history=history, scenario=scenario, calendar=calendar))
+    assert shown == "Monday, Tuesday, less 2 holidays"  # no Saturday: the market has no Saturday rows
