@@ -148,7 +148,7 @@ class Frequency:
         return self.kind == "daily"
 
     def describe(self) -> str:
-        """The frequency in words, for messages: "daily", "daily on mon-fri", "weekly", ..."""
+        """The frequency in words: "daily", "daily on mon, tue, wed, thu, fri", "weekly", ..."""
         if self.kind == "daily":
             if len(self.weekdays) == 7:
                 return "daily"
@@ -343,6 +343,10 @@ def history_from_frame(frame: pd.DataFrame, scenario: Scenario, *, label: str = 
         raise InputError(f"{_scenario_label(scenario)} [season] weekdays: {label} has a row "
                          f"{_every(frequency)}, and weekdays choose the occasions of daily data only; "
                          "leave weekdays out of [season]")
+    if frequency.is_daily and not set(season_rule.weekday_numbers) & set(frequency.weekdays):
+        raise InputError(f"{_scenario_label(scenario)} [season] weekdays: {label} has rows "
+                         f"{frequency.describe()} only, none on {', '.join(season_rule.weekdays)}; "
+                         "choose weekdays it has rows on")
     season, day_of_season, in_season = _season_labels(dates, season_rule)
     evaluated = in_season & defined
     if not evaluated.any():

@@ -157,6 +157,14 @@ def test_weekdays_on_a_history_that_is_not_daily_are_refused_in_one_line(freq, m
     assert "[season] weekdays:" in message and "daily data only; leave weekdays out of [season]" in message
 
 
+def test_weekdays_the_history_has_no_rows_on_are_refused_in_one_line(trading_days, make_scenario):
+    scenario = make_scenario(season={"weekdays": ["sat", "sun"]})
+    with pytest.raises(InputError) as caught:
+        history_frame_checked(trading_days, scenario)
+    assert str(caught.value) == ("scenario [season] weekdays: history.csv has rows daily on mon, tue, wed, "
+                                 "thu, fri only, none on sat, sun; choose weekdays it has rows on")
+
+
 # ------------------------------------------------------------------------------------------------
 # [season] holidays
 

@@ -233,6 +233,13 @@ def test_validation_date_outside_the_history_is_refused(when, write_history, wri
                    "pick a date inside it")
 
 
+def test_check_command_names_the_historys_calendar(write_history, history_frame):
+    workdays = history_frame[pd.to_datetime(history_frame["date"]).dt.day_of_week < 5]
+    result = gonogo("check", write_history(workdays))
+    assert result.exit_code == 0, result.output
+    assert "daily on mon, tue, wed, thu, fri" in result.stdout
+
+
 def test_check_command_refuses_bad_input_the_same_way(write_history, text_frame, tmp_path):
     text_frame.loc[12, "probability"] = "17"
     path = write_history(text_frame)
