@@ -336,7 +336,8 @@ def history_from_frame(frame: pd.DataFrame, scenario: Scenario, *, label: str = 
         p = 1.0 - p
         event = ~event
 
-    site_rows = [np.ones(len(dates), dtype=bool)] if codes is None else [codes == k for k in range(len(site_names))]
+    site_rows = ([np.ones(len(dates), dtype=bool)] if codes is None
+                 else [codes == k for k in range(len(site_names))])
     frequency = _frequency_of_sites(dates, site_rows, site_names, label)
     season_rule = scenario.season
     if not frequency.is_daily and set(season_rule.weekdays) != set(WEEKDAYS):
