@@ -37,7 +37,7 @@ import numpy as np
 from .history import History, nearest_position, season_mask, season_start_month
 from .scenario import SeasonSection
 
-__all__ = ["BLOCK", "Calendar", "Resampler", "season_calendar", "block_rng", "n_blocks", "nearest_position"]
+__all__ = ["BLOCK", "Calendar", "Resampler", "season_calendar", "calendar_warnings", "block_rng", "n_blocks", "nearest_position"]
 
 BLOCK = 500  # replicates per seeded block; part of the reproducibility contract, never change lightly
 
@@ -84,6 +84,15 @@ def season_calendar(history: History, rule: SeasonSection) -> Calendar:
     dates = days[keep]
     skipped = days[~keep & season_mask(days, rule.model_copy(update={"holidays": ()}))]
     return Calendar(year=year, dates=dates, day_of_season=(dates - first).astype(np.int64), holidays=skipped)
+
+
+def calendar_warnings(calendar: Calendar, rule: SeasonSection, label: str) -> list[str]:
+    """A warning when ``[season] holidays`` are given but none falls on a date of the priced season
+    (only past holidays listed, say), so that season is priced with its own holidays as occasions."""
+    if not rule.holidays or calendar.holidays.size:
+        return []
+    return [f"{label} [season] holidays: none of the {len(rule.holidays)} dates is a date of the priced "
+            f"{calendar.year} season, which keeps its own holidays as occasions; list them too"]
 
 
 def n_blocks(n_replicates: int) -> int:

@@ -37,7 +37,7 @@ from .history import History, read_history
 from .operations import OperationsResult, UserProcess, make_rules
 from .operations_fast import OperationsPricer
 from .parallel import Executor, InlineExecutor, open_executor, prepare
-from .resample import BLOCK, Calendar, Resampler, block_rng, n_blocks, season_calendar
+from .resample import BLOCK, Calendar, Resampler, block_rng, calendar_warnings, n_blocks, season_calendar
 from .scenario import BASELINES, Scenario, break_even_probability, cost_warnings, read_scenario
 from .selection import Calibration, Selection, calibrate, select_honestly
 from .stress import ReplicatePricer, StressResult, run_stress
@@ -274,7 +274,8 @@ def run_history(scenario: Scenario, history: History, *, replicates: int | None 
     if operations is not None:
         table = pd.concat([table, pd.DataFrame(operations.per_cutoff())], axis=1)
     quality, value_curve, reliability = forecast_quality(history, cutoffs)
-    warnings = tuple(history.warnings) + tuple(cost_warnings(costs, scenario.decision.action))
+    warnings = (tuple(history.warnings) + tuple(calendar_warnings(calendar, scenario.season, _label(scenario)))
+                + tuple(cost_warnings(costs, scenario.decision.action)))
     stress = None
     if scenario.stress:
         stress = run_stress(scenario, history, calendar=calendar, resampler=resampler, cutoffs=cutoffs,
@@ -366,7 +367,7 @@ def _run_sites(scenario: Scenario, history: History, *, replicates: int, seed: i
                           common_cost=model_cost[:, common], reference_cost=baseline_cost[reference],
                           table=_sites_table(sites, common))
 
-    warnings = list(history.warnings)
+    warnings = list(history.warnings) + calendar_warnings(calendar, scenario.season, label)
     if any(site.scenario.costs == scenario.costs for site in sites):
         warnings += cost_warnings(scenario.costs, scenario.decision.action)
     for site in sites:  # the warnings of sites with costs of their own

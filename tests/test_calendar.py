@@ -250,3 +250,12 @@ def test_a_weekly_history_missing_weeks_names_them_on_its_own_calendar(make_scen
     (warning,) = _checked(frame, make_scenario()).warnings
     assert warning == (f"history.csv: 2 dates of its weekly calendar inside the season have no row "
                        f"({dates[30].date()}, {dates[31].date()}); the replay joins across the gaps")
+
+
+def test_listing_only_past_holidays_warns_that_the_priced_season_keeps_its_own(every_day, make_scenario):
+    scenario = make_scenario(season={"holidays": ["2014-12-25", "2015-12-25"]}, simulation={"replicates": 20})
+    result = run_history(scenario, _checked(every_day, scenario))
+    assert ("scenario [season] holidays: none of the 2 dates is a date of the priced 2016 season, which keeps "
+            "its own holidays as occasions; list them too") in result.warnings
+    listed = make_scenario(season={"holidays": ["2015-12-25", "2016-12-25"]}, simulation={"replicates": 20})
+    assert not any("[season] holidays" in w for w in run_history(listed, _checked(every_day, listed)).warnings)
