@@ -499,8 +499,9 @@ def init_command(
     if layout.site_column is not None:
         add("Sites", f'column "{layout.site_column}"')
     if layout.months:
-        add("Season", f"months {', '.join(str(m) for m in layout.months)}; "
-                                f"weekdays {', '.join(layout.weekdays)}")
+        days = f"weekdays {', '.join(layout.weekdays)}" if layout.weekdays else f"a row {layout.frequency}"
+        add("Season", f"months {', '.join(str(m) for m in layout.months)}; {days}")
+
     out_console.print(table)
     for note in layout.notes:
         err_console.print(f"note: {note}", markup=False, highlight=False, soft_wrap=True)

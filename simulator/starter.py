@@ -21,6 +21,7 @@ import pandas as pd
 
 from .dates import ISO, DateProblem, find_date_format, human_format, parse_dates
 from .errors import InputError
+from .history import history_frequency
 from .history import FALSE_WORDS as _FALSE
 from .history import TRUE_WORDS as _TRUE
 from .scenario import COST_KEYS, COST_PLACEHOLDER, WEEKDAYS
@@ -29,7 +30,6 @@ from .sheets import SEPARATORS, Dialect, read_table
 __all__ = ["Layout", "find_layout", "starter_scenario", "write_scenario"]
 
 _DATE_SHAPE = re.compile(r"^\s*\d{1,4}[-/.]\d{1,2}[-/.]\d{1,4}")
-_RARE_WEEKDAY = 0.1  # a weekday with under a tenth of the busiest weekday's rows is left out
 
 
 @dataclass(frozen=True)
@@ -53,6 +53,7 @@ class Layout:
     rare_weekdays: tuple[str, ...] = ()
     start: str = ""
     end: str = ""
+    frequency: str = ""  # history.Frequency.describe() of the dates: "daily", "weekly", ...
     event_rate: float | None = None
     notes: tuple[str, ...] = field(default=())
 
@@ -152,13 +153,16 @@ def find_layout(path: Path) -> Layout:
     months: tuple[int, ...] = ()
     weekdays: tuple[str, ...] = ()
     rare: tuple[str, ...] = ()
-    start = end = ""
+    start = end = every = ""
     if dates is not None:
         stamps = pd.DatetimeIndex(dates)
         months = tuple(int(m) for m in np.unique(stamps.month))
-        counts = np.bincount(stamps.day_of_week, minlength=7)
-        weekdays = tuple(WEEKDAYS[d] for d in range(7) if counts[d] >= _RARE_WEEKDAY * counts.max())
-        rare = tuple(WEEKDAYS[d] for d in range(7) if 0 < counts[d] < _RARE_WEEKDAY * counts.max())
+        frequency = history_frequency(np.unique(dates))  # the same rule the run uses
+        every = frequency.describe()
+        if frequency.is_daily:  # weekdays apply to daily histories only
+            weekdays = tuple(WEEKDAYS[d] for d in frequency.weekdays)
+            present = np.unique(stamps.day_of_week)
+            rare = tuple(WEEKDAYS[d] for d in present if d not in frequency.weekdays)
         start, end = str(dates.min()), str(dates.max())
     event_rate = None
     if outcome is not None:
@@ -168,7 +172,8 @@ def find_layout(path: Path) -> Layout:
                   date_column=date_column, date_format=date_format, date_doubt=doubt,
                   probability_columns=tuple(probabilities), outcome_column=outcome, value_column=value,
                   value_median=median, site_column=site, months=months, weekdays=weekdays,
-                  rare_weekdays=rare, start=start, end=end, event_rate=event_rate, notes=tuple(notes))
+                  rare_weekdays=rare, start=start, end=end, frequency=every, event_rate=event_rate,
+                  notes=tuple(notes))
 
 
 # ------------------------------------------------------------------------------------------------
@@ -260,8 +265,11 @@ def starter_scenario(layout: Layout, scenario_path: Path) -> str:
     lines += ["", "[season]"]
     if layout.months:
         lines.append(f"months = {list(layout.months)}  # found: the months with rows")
-        rare = (f"; left out, with few rows: {', '.join(layout.rare_weekdays)}" if layout.rare_weekdays else "")
-        lines.append(f"weekdays = {json.dumps(list(layout.weekdays))}  # found: the weekdays with rows{rare}")
+        if layout.weekdays:
+            rare = (f"; left out, with few rows: {', '.join(layout.rare_weekdays)}" if layout.rare_weekdays else "")
+            lines.append(f"weekdays = {json.dumps(list(layout.weekdays))}  # found: the weekdays with rows{rare}")
+        else:
+            lines.append(f"# weekdays: not for this history, which has a row {layout.frequency} (found)")
     else:
         lines.append("# months and weekdays: set them once the dates read one way (default: all)")
     return "\n".join(lines) + "\n"

@@ -289,3 +289,18 @@ def test_odd_column_names_are_written_as_valid_toml(tmp_path):
     assert "[bold]wet[/bold]" in made.stdout
     fill_in_costs(scenario)
     assert gonogo("check", path, "--scenario", scenario).exit_code == 0
+
+
+def test_weekly_history_gets_no_weekdays_and_runs(tmp_path):
+    # a forecast a week (invented): weekdays apply to daily histories only
+    frame = invented(n_days=7 * 300, seed=17).iloc[::7].reset_index(drop=True)
+    path = tmp_path / "weekly.csv"
+    frame.assign(date=frame["date"].dt.strftime("%Y-%m-%d")).to_csv(path, index=False)
+    scenario = tmp_path / "weekly.toml"
+    made = gonogo("init", path, scenario)
+    assert made.exit_code == 0, made.output
+    assert "weekdays" not in tomllib.loads(scenario.read_text())["season"]
+    assert "a row weekly" in scenario.read_text()
+    fill_in_costs(scenario)
+    ran = gonogo("run", scenario, "--replicates", 20, "--out", tmp_path / "out", "--quiet")
+    assert ran.exit_code == 0, ran.output
