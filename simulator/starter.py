@@ -59,13 +59,14 @@ class Layout:
 
 
 class _Rows:
-    """Row numbers as a spreadsheet counts them, for messages about the file."""
+    """Row numbers as a spreadsheet counts them, for messages about the cells of one column that
+    are filled in (``index``: their positions in the file)."""
 
-    def __init__(self, label: str, first_row: int):
-        self.label, self.first_row = label, first_row
+    def __init__(self, label: str, first_row: int, index: pd.Index):
+        self.label, self.first_row, self.index = label, first_row, index
 
-    def row(self, index: int) -> int:
-        return int(index) + self.first_row
+    def row(self, position: int) -> int:
+        return int(self.index[position]) + self.first_row
 
     def error(self, index: int, column: str, message: str) -> InputError:
         return InputError(f'{self.label} row {self.row(index)}, column "{column}": {message}')
@@ -95,8 +96,13 @@ def find_layout(path: Path) -> Layout:
         frame = frame.apply(lambda c: c.dt.strftime("%Y-%m-%d") if pd.api.types.is_datetime64_any_dtype(c)
                             else c.astype(str))
     frame.columns = [str(c) for c in frame.columns]
-    rows = _Rows(label, table.first_row)
-    filled = {c: frame[c] for c in frame.columns if not frame[c].str.strip().eq("").any()}
+    # a column is looked at in its filled-in cells (the newest forecast may have no outcome yet;
+    # check names such rows); one mostly blank has no role
+    filled = {}
+    for name in frame.columns:
+        given = frame[name].str.strip().ne("")
+        if given.mean() >= 0.5:
+            filled[name] = frame[name][given]
 
     date_column, date_format, doubt = None, None, ""
     for name, values in filled.items():
@@ -107,7 +113,7 @@ def find_layout(path: Path) -> Layout:
         except DateProblem as problem:
             if not problem.rows:  # not an ambiguity: not a date column
                 continue
-            doubt = problem.worded(rows.row)
+            doubt = problem.worded(_Rows(label, table.first_row, values.index).row)
         date_column = name
         break
     if date_column is None:
@@ -136,14 +142,16 @@ def find_layout(path: Path) -> Layout:
     notes: list[str] = []
     dates = None
     if date_format is not None:
-        dates = parse_dates(frame[date_column], None if date_format == ISO else date_format, rows, date_column)
+        on = filled[date_column]
+        dates = parse_dates(on, None if date_format == ISO else date_format, _Rows(label, table.first_row, on.index),
+                            date_column)
     site = None
     if dates is not None and np.unique(dates).size < dates.size:
         used = {date_column, outcome, value, *probabilities}
         for name, values in filled.items():
             if name in used or name in numeric:
                 continue
-            pairs = pd.DataFrame({"site": values.str.strip(), "date": dates})
+            pairs = pd.DataFrame({"site": values.str.strip(), "date": pd.Series(dates, index=on.index)}).dropna()
             if not pairs.duplicated().any() and values.nunique() < len(values):
                 site = name
                 break

@@ -304,3 +304,17 @@ def test_weekly_history_gets_no_weekdays_and_runs(tmp_path):
     fill_in_costs(scenario)
     ran = gonogo("run", scenario, "--replicates", 20, "--out", tmp_path / "out", "--quiet")
     assert ran.exit_code == 0, ran.output
+
+
+def test_newest_forecast_without_an_outcome_yet_is_found_then_named_by_check(tmp_path):
+    frame = invented(seed=18).assign(date=lambda f: f["date"].dt.strftime("%Y-%m-%d")).astype(str)
+    frame.loc[len(frame) - 1, "outcome"] = ""  # tomorrow's forecast: no outcome yet
+    path = tmp_path / "log.csv"
+    frame.to_csv(path, index=False)
+    scenario = tmp_path / "log.toml"
+    assert gonogo("init", path, scenario).exit_code == 0
+    assert 'outcome_column = "outcome"' in scenario.read_text()
+    fill_in_costs(scenario)
+    result = gonogo("check", path, "--scenario", scenario)
+    assert result.exit_code == 2
+    assert f'row {len(frame) + 1}, column "outcome": the outcome is missing' in result.stderr
