@@ -5,7 +5,7 @@ or without a byte-order mark, UTF-16 with one, else the Western single-byte code
 office exports) are found from the file unless ``[history] separator``, ``decimal`` or
 ``encoding`` say them; an Excel workbook (``.xlsx``) is read from its first sheet unless
 ``[history] sheet`` names one. Every cell of a CSV or a workbook comes back as text, numbers with a
-decimal point, so that :mod:`simulator.history` parses one kind of frame whatever the file was;
+decimal point (and a CSV's percentages, "35%", as the numbers they stand for, "0.35"), so that :mod:`simulator.history` parses one kind of frame whatever the file was;
 what was found is returned beside it (:class:`Dialect`) for ``gonogo init`` and ``check`` to show.
 
 Only a regular file is read, and at most :data:`MAX_BYTES` of it and :data:`MAX_ROWS` rows.
@@ -38,6 +38,7 @@ _CSV_SUFFIXES = (".csv", ".txt", ".tsv", "")
 _EXCEL_SUFFIXES = (".xlsx", ".xlsm")
 _COMMA_NUMBER = re.compile(r"^\s*[+-]?\d*,\d+\s*$")
 _POINT_NUMBER = re.compile(r"^\s*[+-]?\d*\.\d+\s*$")
+_PERCENT = re.compile(r"^\s*([+-]?\d*\.?\d+)\s*%\s*$")  # "35%", "12.5 %": cells formatted as percentages
 
 
 @dataclass(frozen=True)
@@ -118,6 +119,7 @@ def read_table(path: Path, *, sheet: str | None = None, separator: str | None = 
         found.append("decimal")
     if decimal == ",":
         frame = frame.apply(_with_decimal_points)
+    frame = frame.apply(_without_percent_signs)
     dialect = Dialect("csv", encoding=used, separator=separator, decimal=decimal, found=tuple(found))
     return Table(_capped(frame, label, 2), 2, sha256, dialect)
 
@@ -242,6 +244,18 @@ def _with_decimal_points(column: pd.Series) -> pd.Series:
     if not comma.any():
         return column
     cells[comma] = [cell.replace(",", ".") for cell in cells[comma]]
+    return pd.Series(cells[codes], index=column.index, name=column.name, dtype=column.dtype)
+
+
+def _without_percent_signs(column: pd.Series) -> pd.Series:
+    """Cells formatted as percentages in the spreadsheet ("35%") as the numbers they stand for
+    ("0.35"), as the spreadsheet itself computes with them."""
+    codes, cells = _distinct(column)
+    found = pd.Series(cells, dtype=object).str.extract(_PERCENT)[0]
+    given = found.notna().to_numpy()
+    if not given.any():
+        return column
+    cells[given] = [f"{float(number) / 100:.12g}" for number in found[given]]
     return pd.Series(cells[codes], index=column.index, name=column.name, dtype=column.dtype)
 
 

@@ -232,3 +232,13 @@ def test_rows_over_the_limit_are_refused_naming_the_limit(tmp_path, history_fram
     history_frame.to_csv(path, index=False)
     monkeypatch.setattr(sheets, "MAX_ROWS", 1000)
     refused(check(path), "more than 1,000 rows", "the most gonogo reads")
+
+
+def test_cells_formatted_as_percentages_read_as_the_numbers_they_stand_for(tmp_path, history_frame):
+    # a spreadsheet shows 0.35 formatted as a percentage as "35%" and exports that text
+    path = tmp_path / "h.csv"
+    shown = [f"{round(p * 100, 1):g}%" for p in history_frame["probability"]]
+    history_frame.assign(probability=shown).to_csv(path, sep=";", index=False)
+    table = read_table(path)
+    np.testing.assert_allclose(table.frame["probability"].astype(float), history_frame["probability"], atol=1e-12)
+    assert check(path).exit_code == 0
