@@ -271,12 +271,12 @@ def account(summary: Mapping[str, Any]) -> Account:
         f"following the forecast saves money in {share(sv['prob_saving'])} of simulated seasons.",
         f"per season, at cutoff {at}, against the reference rule on the same simulated seasons"))
 
-    beats = _beats(s, grid, decimals, ref_label)
+    beats = _beats(s, grid, decimals)
     if beats is not None:
         out.append(beats)
 
     if ops:
-        out += _operations(s, ops, cut, at, ref, ref_label)
+        out += _operations(ops, at, ref)
 
     portfolio = s.get("portfolio")
     if portfolio:
@@ -285,7 +285,7 @@ def account(summary: Mapping[str, Any]) -> Account:
         out.append(Finding(
             "sites", f"{portfolio['sites']} sites",
             f"totals above at one cutoff for all; each site at its own cutoff {money(own['mean'], cur)} a season "
-            f"(90% of seasons {money(own['p05'], cur)} to {money(own['p95'], cur)}); forecast worth most at "
+            f"(90% of seasons {money_range(own['p05'], own['p95'], cur)}); forecast worth most at "
             f"\u201c{best['site']}\u201d ({money(best['forecast_value'], cur)} a season); per site: sites.csv",
             f"The costs above are totals over {portfolio['sites']} sites at one cutoff for all; each site at its "
             f"own cutoff, the total is {money(own['mean'], cur)} a season on average.",
@@ -324,7 +324,7 @@ def account(summary: Mapping[str, Any]) -> Account:
     return Account(title=title, findings=tuple(out))
 
 
-def _beats(s, grid, decimals: int, ref_label: str) -> Finding | None:
+def _beats(s: Mapping[str, Any], grid: Sequence[float], decimals: int) -> Finding | None:
     """One range of cutoffs cheaper than the reference: in 95% of seasons when there is one, else on
     average; none when the range is every cutoff tried (it would say nothing)."""
     confident, average = s.get("confident_break_even") or [], s.get("break_even") or []
@@ -341,11 +341,13 @@ def _beats(s, grid, decimals: int, ref_label: str) -> Finding | None:
         return None
     text = ranges_text(ranges, decimals)
     return Finding("beats_reference", "Cutoffs that beat the reference", f"{text}  ({basis})",
-                   f"Any cutoff from {text} costs less than the reference rule ({ref_label}) {basis.split(';')[0]}.",
+                   f"Any cutoff from {text} costs less than the reference rule {basis.split(';')[0]}.",
                    f"per season, {basis.split(';')[0]}")
 
 
-def _operations(s, ops, cut, at: str, ref: str, ref_label: str) -> list[Finding]:
+def _operations(ops: Mapping[str, Any], at: str, ref: str) -> list[Finding]:
+    """Under ``[operations]``: lateness at the cutoff beside the reference rule's, completion, the
+    safety stop (from ``summary["operations"]``)."""
     out = []
     here = ops["at_recommended_cutoff"]
     there = (ops.get("baselines") or {}).get(ref) or {}
@@ -353,14 +355,13 @@ def _operations(s, ops, cut, at: str, ref: str, ref_label: str) -> list[Finding]
     if deadline:
         late = here.get("days_late") or {}
         versus = f" (reference rule: {share(there['share_late'])})" if "share_late" in there else ""
-        against = (f" against {share(there['share_late'])} under the reference rule ({ref_label})"
-                   if "share_late" in there else "")
+        against = f" against {share(there['share_late'])} under the reference rule" if "share_late" in there else ""
         out.append(Finding(
             "deadline", f"Late (deadline {deadline})",
             f"in {share(here['share_late'])} of seasons at {at}{versus}; {late.get('mean', float('nan')):.1f} "
-            f"days late on average at {at}",
+            f"days late on average over all seasons",
             f"The work is finished after the deadline ({deadline}) in {share(here['share_late'])} of simulated "
-            f"seasons at {at}{against}, {late.get('mean', float('nan')):.1f} days late on average.",
+            f"seasons at {at}{against}, {late.get('mean', float('nan')):.1f} days late on average over all seasons.",
             f"share of simulated seasons, at cutoff {at} and under the reference rule"))
     done = here.get("completion_date") or {}
     if done.get("p50"):

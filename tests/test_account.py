@@ -194,3 +194,33 @@ def test_the_report_names_files_not_folders_and_lists_every_file_beside_it(demo,
         if not name.startswith("figures/") and name != "report.html":
             assert name in html.split("Beside this report", 1)[1]
     assert str(Path(demo.history.label).parent) not in json.dumps(summary(demo)["warnings"])
+
+
+def test_a_warning_names_the_history_file_never_its_folder(tmp_path):
+    folder = tmp_path / "somewhere" / "private"
+    folder.mkdir(parents=True)
+    scenario = read_scenario(write_demo_files(folder))
+    history = Path(scenario.history.path if Path(scenario.history.path).is_absolute()
+                   else folder / scenario.history.path)
+    lines = history.read_text().splitlines(keepends=True)
+    history.write_text("".join(lines[:150] + lines[154:]))  # a gap of four dates in May
+    result = run(scenario, replicates=40)
+    assert any(str(folder) in w for w in result.warnings)  # the terminal may say where it is
+    s = summary(result)
+    html = render_files(result)["report.html"].decode()
+    assert s["warnings"] and all(str(folder) not in w for w in s["warnings"])
+    assert history.name in s["warnings"][0]
+    assert str(folder) not in html
+
+
+def test_a_verdict_is_stated_first(demo):
+    s = summary(demo)
+    s["verdict"] = {"use_forecast": False, "best_rule_without_forecast": "always_act",
+                    "saving_against_best_rule": {"mean": 10.0, "p05": -5.0, "p95": 20.0, "prob_saving": 0.6},
+                    "reason": "the saving is no larger than choosing among many cutoffs gives a useless forecast"}
+    told = account(s)
+    assert told.first[0].key == "verdict"
+    assert "always send the crews out" in told.first[0].text
+    assert told.sentences[0].startswith("The saving is no larger")
+    assert told.get("cutoff").label == "Cheapest cutoff (not advised)"
+    assert "not advised" in told.get("cutoff").sentence
