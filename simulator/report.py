@@ -251,7 +251,7 @@ def _plain_setting(key: str, value: Any, currency: str, action: str, event: str)
     if key == "skill":
         return label, f"{value:.0%} of each probability's distance from the event rate kept"
     if key == "noise":
-        return label, f"noise of standard deviation {value:g} on the log-odds scale"
+        return label, f"standard deviation {value:g} on the log-odds scale"
     if key == "block_days":
         return "spells", f"runs of {value:g} days on average"
     if key == "worst_seasons":
