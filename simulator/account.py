@@ -26,7 +26,7 @@ from .history import season_start_month
 
 __all__ = ["Finding", "Account", "account", "money", "money_exact", "signed_money", "share", "rate",
            "cutoff_text", "format_value", "ranges_text", "season_name", "seasons_text", "strategy_label",
-           "occasion_unit", "cutoff_decimals", "short_label", "money_range", "SIGNIFICANT"]
+           "cutoff_decimals", "short_label", "money_range", "SIGNIFICANT"]
 
 SIGNIFICANT = 3  # significant figures of money written for a reader
 
@@ -126,12 +126,6 @@ def seasons_text(start: str, end: str, months: Sequence[int] | None = None) -> s
 
     a, b = season(start), season(end)
     return season_name(a, months) if a == b else f"{season_name(a, months)} to {season_name(b, months)}"
-
-
-def occasion_unit(step_days: int, sites: int = 1) -> str:
-    """What one occasion is called: ``day`` (daily), ``occasion``; ``site-day`` with many sites."""
-    unit = "day" if step_days == 1 else "occasion"
-    return f"site-{unit}" if sites > 1 else unit
 
 
 def strategy_label(name: str, action: str, event: str, occasion: str = "day") -> str:

@@ -99,7 +99,7 @@ def _fitted_table(title: str, headers: list[tuple[str, str]], rows: list[list[st
 def _labels(result: RunResult) -> tuple[str, str, list[int]]:
     """The reference rule in plain words, the unit of an occasion, and the season's months."""
     s = result.scenario
-    unit = "day" if result.history.step_days == 1 else "occasion"
+    unit = "day" if result.history.frequency.is_daily else "occasion"
     return (strategy_label(result.reference, s.decision.action, s.event.name, unit), unit,
             list(s.season.months))
 
@@ -389,6 +389,7 @@ def check_command(
     table.add_column()
     table.add_row("Rows", f"{h.n_rows} ({h.n_evaluated} in the season, {len(h.seasons)} seasons)")
     table.add_row("Period", f"{h.start} to {h.end}")
+    table.add_row("Calendar", f"{h.frequency.describe()} (the priced season is laid on it)")
     if h.has_sites:
         names = ", ".join(h.site_names[:5]) + (", ..." if h.n_sites > 5 else "")
         table.add_row("Sites", f"{h.n_sites} (column \"{spec.history.site_column}\"): {names}")

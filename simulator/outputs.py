@@ -71,7 +71,7 @@ def summary(result: RunResult) -> dict[str, Any]:
         "currency": scenario.currency,
         "season_year": result.calendar.year,
         "season_occasions": result.calendar.n_occasions,
-        "occasion_unit": "day" if history.step_days == 1 else "occasion",
+        "occasion_unit": "day" if history.frequency.is_daily else "occasion",
         "replicates": result.replicates,
         "seed": result.seed,
         "mean_block_days": result.mean_block_days,
