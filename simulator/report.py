@@ -28,6 +28,7 @@ from . import __version__, figures
 from .account import (cutoff_decimals, account, cutoff_text, format_value, money, money_exact, rate, ranges_text,
                       season_name, seasons_text, share, short_label, signed_money, strategy_label)
 from .figures import Words
+from .scenario import BASELINES
 from .scenario import WEEKDAYS
 
 __all__ = ["render_report", "headline_numbers", "recommendation", "format_value", "money", "share",
@@ -343,16 +344,23 @@ def _portfolio(summary: Mapping[str, Any], currency: str, decimals: int) -> dict
             "sd_independent": money(spread["sd_if_independent"], currency)}
 
 
-def _completion_by_day(result) -> tuple[list[str], list[float]] | None:
+def _completion_by_day(result) -> tuple[list[str], list[float], list[float]] | None:
     """Share of simulated seasons with the work finished by the end of each day of the season, at
-    the recommended cutoff (from the replicates' completion days; None without a backlog)."""
+    the recommended cutoff and under the reference rule (from the replicates' completion days; None
+    without a backlog): dates, shares at the cutoff, shares under the reference."""
     ops = result.operations
     if ops is None or "completion_index" not in ops.extras or not ops.rules.limited:
         return None
-    index = ops.lane("completion_index", result.decision.recommended_index)
     days = ops.rules.n_occasions
-    finished = np.bincount(index[index >= 0], minlength=days)[:days]
-    return [str(d) for d in ops.rules.dates[:days]], list(np.cumsum(finished) / index.size)
+
+    def by_day(lane: int) -> list[float]:
+        index = ops.lane("completion_index", lane)
+        finished = np.bincount(index[index >= 0], minlength=days)[:days]
+        return list(np.cumsum(finished) / index.size)
+
+    reference = ops.n_cutoffs + BASELINES.index(result.reference)
+    return ([str(d) for d in ops.rules.dates[:days]], by_day(result.decision.recommended_index),
+            by_day(reference))
 
 
 def render_report(result, summary: Mapping[str, Any]) -> dict[str, bytes]:
@@ -402,7 +410,8 @@ def render_report(result, summary: Mapping[str, Any]) -> dict[str, bytes]:
             operations["names"], operations["values"], operations["reference_values"], words)
     by_day = _completion_by_day(result) if operations else None
     if by_day is not None:
-        charts["completion"] = figures.completion_chart(*by_day, operations["deadline"], words)
+        charts["completion"] = figures.completion_chart(*by_day, operations["deadline"], words,
+                                                        reference_label=short_label(result.reference, action, occasion))
 
     months = list(scenario.season.months)
     honest = (summary.get("selection") or {}).get("validation")

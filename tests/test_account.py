@@ -175,11 +175,14 @@ def test_lateness_is_on_the_headline_the_first_screen_and_the_slider(rules):
 def test_completion_curve_by_day_reads_the_share_on_time_at_the_deadline(rules):
     from simulator.report import _completion_by_day
 
-    dates, shares = _completion_by_day(rules)
+    dates, shares, reference = _completion_by_day(rules)
     deadline = summary(rules)["operations"]["deadline"]
     on_time = shares[dates.index(deadline)]
-    late = summary(rules)["operations"]["at_recommended_cutoff"]["share_late"]
+    s = summary(rules)
+    late = s["operations"]["at_recommended_cutoff"]["share_late"]
     assert on_time == pytest.approx(1 - late)
+    reference_late = s["operations"]["baselines"][s["reference"]]["share_late"]
+    assert reference[dates.index(deadline)] == pytest.approx(1 - reference_late)
     assert np.all(np.diff(shares) >= 0)
 
 
