@@ -352,10 +352,10 @@ def _operations(ops: Mapping[str, Any], at: str, ref: str) -> list[Finding]:
         against = f" against {share(there['share_late'])} under the reference rule" if "share_late" in there else ""
         out.append(Finding(
             "deadline", f"Late (deadline {deadline})",
-            f"in {share(here['share_late'])} of seasons at {at}{versus}; {late.get('mean', float('nan')):.1f} "
+            f"in {share(here['share_late'])} of seasons at {at}{versus}; {format_value('days', late.get('mean'), '')} "
             f"days late on average over all seasons",
             f"The work is finished after the deadline ({deadline}) in {share(here['share_late'])} of simulated "
-            f"seasons at {at}{against}, {late.get('mean', float('nan')):.1f} days late on average over all seasons.",
+            f"seasons at {at}{against}, {format_value('days', late.get('mean'), '')} days late on average over all seasons.",
             f"share of simulated seasons, at cutoff {at} and under the reference rule"))
     done = here.get("completion_date") or {}
     if done.get("p50"):
@@ -366,7 +366,7 @@ def _operations(ops: Mapping[str, Any], at: str, ref: str) -> list[Finding]:
     if ops.get("safety_stop_at") is not None:
         stop = here.get("safety_stop_days") or {}
         out.append(Finding(
-            "safety_stop", "Safety stop", f"decided {stop.get('mean', float('nan')):.1f} days a season at {at}",
+            "safety_stop", "Safety stop", f"decided {format_value('days', stop.get('mean'), '')} days a season at {at}",
             "", f"per season, mean over the simulated seasons, at cutoff {at}"))
     return out
 
