@@ -2,12 +2,17 @@
 
 Each command's docstring is its ``--help`` text. A user's mistake (an :class:`InputError`) is
 printed as one line on standard error with exit status 2, and nothing is written.
+
+Every string from a scenario or a history is untrusted: the consoles interpret no markup (square
+brackets print as they are), and each such string passes through :func:`_plain`, which writes its
+control characters as escapes, before it reaches the terminal.
 """
 
 from __future__ import annotations
 
 import json
 import sys
+import warnings
 from contextlib import contextmanager
 from pathlib import Path
 from typing import Annotated
@@ -19,7 +24,7 @@ from rich.table import Table
 from rich.text import Text
 
 from . import __version__
-from .errors import InputError
+from .errors import InputError, printable
 from .history import read_history
 from .outputs import check_out_folder, render_files, summary, write_files
 from .parallel import CLUSTER_ENV
@@ -31,24 +36,49 @@ app = typer.Typer(add_completion=False, no_args_is_help=True, pretty_exceptions_
                   rich_markup_mode=None,
                   help="gonogo: choose the probability cutoff at which to act on a yes/no forecast, "
                        "and price what a season will cost at it.")
-out_console = Console()
-err_console = Console(stderr=True)
+# no console markup and no highlighting: user strings print as they are written
+out_console = Console(markup=False, highlight=False)
+err_console = Console(stderr=True, markup=False, highlight=False)
 
 CAUTION = ("A cost-optimal cutoff never overrides safety rules, site risk assessments, local "
            "regulations or licensed professional judgement.")
 
 
+def _plain(value):
+    """A user's string (or every string in a dict or list of them, such as the summary) with its
+    control characters written as escapes, so that it cannot move the cursor, clear the screen or
+    retitle the window. The one gate for user strings on their way to the terminal."""
+    if isinstance(value, str):
+        return printable(value)
+    if isinstance(value, dict):
+        return {k: _plain(v) for k, v in value.items()}
+    if isinstance(value, list | tuple):
+        return type(value)(_plain(v) for v in value)
+    return value
+
+
+def _warn(message: str) -> None:
+    err_console.print(f"warning: {_plain(message)}", soft_wrap=True)
+
+
 def _fail(error: InputError) -> None:
-    err_console.print(f"error: {error}", markup=False, highlight=False, soft_wrap=True)
+    err_console.print(f"error: {_plain(str(error))}", soft_wrap=True)
     raise typer.Exit(code=2)
+
+
+def _show_warning(message, category, filename, lineno, file=None, line=None) -> None:
+    """Python's warnings (numpy's among them) as one line without a source path."""
+    _warn(str(message))
 
 
 @contextmanager
 def _user_errors():
-    try:
-        yield
-    except InputError as error:
-        _fail(error)
+    with warnings.catch_warnings():
+        warnings.showwarning = _show_warning
+        try:
+            yield
+        except InputError as error:
+            _fail(error)
 
 
 @contextmanager
@@ -56,21 +86,21 @@ def _progress_bar(enabled: bool):
     if not enabled:
         yield None
         return
-    columns = (TextColumn("{task.description}"), BarColumn(), MofNCompleteColumn(),
+    columns = (TextColumn("{task.description}", markup=False), BarColumn(), MofNCompleteColumn(),
                TimeRemainingColumn())
     with Progress(*columns, console=err_console, transient=True) as bar:
         tasks: dict[str, int] = {}
 
         def update(step: str, done: int, total: int) -> None:
             if step not in tasks:
-                tasks[step] = bar.add_task(step, total=total)
+                tasks[step] = bar.add_task(_plain(step), total=total)
             bar.update(tasks[step], completed=done, total=total)
 
         yield update
 
 
 def _money(value: float, currency: str) -> str:
-    return f"{value:,.0f} {currency}"
+    return f"{value:,.0f} {_plain(currency)}"
 
 
 def _ranges(ranges: list) -> str:
@@ -78,7 +108,7 @@ def _ranges(ranges: list) -> str:
 
 
 def _headline(result: RunResult) -> Table:
-    s = summary(result)
+    s = _plain(summary(result))
     cur = s["currency"]
     model = s["strategies"]["model"]
     ref = s["reference"]
@@ -150,7 +180,7 @@ def _stress_tables(result: RunResult) -> list:
     """The stress cases as one table, then each case's headline sentence."""
     if not result.stress:
         return []
-    cur = result.scenario.currency
+    cur = _plain(result.scenario.currency)
     base_cutoff = result.decision.recommended_cutoff
     ref = result.reference
     base = result.strategies["model"]
@@ -164,11 +194,11 @@ def _stress_tables(result: RunResult) -> list:
             shown = ""
             if rate is not None:
                 shown = f"{rate.achieved:.3f}" + ("" if rate.reached else f" (aim {rate.target:.3f})")
-            label = case.name if v.probabilities == "as_forecast" else "  adapted"
+            label = _plain(case.name) if v.probabilities == "as_forecast" else "  adapted"
             rows.append([label, shown, f"{v.strategies['model'].mean:,.0f}", f"{v.extra_cost:+,.0f}",
                          f"{v.best_cutoff:.2f}", f"{v.saved_by_moving:,.0f}",
                          f"{v.savings.mean:,.0f} ({share(v.prob_saving)})"])
-            sentences.append(f"- {v.headline}")
+            sentences.append(f"- {_plain(v.headline)}")
     table = _fitted_table(f"Stress tests, {cur} a season (means over replicate seasons)",
                           [("", "Case"), ("Event", "rate"), ("Cost at", f"{base_cutoff:.2f}"), ("", "Change"),
                            ("Best", "cutoff"), ("Saved by", "moving"), ("Saving", "(share)")], rows)
@@ -182,7 +212,7 @@ def _selection_tables(result: RunResult) -> list:
     sel = result.selection
     if sel is None:
         return []
-    cur = result.scenario.currency
+    cur = _plain(result.scenario.currency)
     out: list = []
     if sel.validation is not None:
         v = sel.validation
@@ -204,13 +234,13 @@ def _selection_tables(result: RunResult) -> list:
         table.add_row("cost per occasion", _money(t.cost_per_occasion, cur), _money(val.cost_per_occasion, cur))
         out.append(table)
         lo, hi = v.expected_range
-        verdict = (f"[bold]worse than the training range ({_money(lo, cur)} to {_money(hi, cur)} per "
-                   "occasion): overfitted, or the world changed[/bold]" if v.flag else
+        verdict = ((f"worse than the training range ({_money(lo, cur)} to {_money(hi, cur)} per "
+                    "occasion): overfitted, or the world changed", "bold") if v.flag else
                    f"within what training leads one to expect (up to {_money(hi, cur)} per occasion)")
-        out.append(f"Validation cost at {v.chosen_cutoff:.2f}: {_money(val.cost, cur)}, {verdict}. With "
-                   f"hindsight the validation period's best cutoff, {v.validation_best_cutoff:.2f}, costs "
-                   f"{_money(v.validation_best_cost, cur)}: the optimism of choosing on the past is "
-                   f"{_money(v.optimism, cur)}.")
+        out.append(Text.assemble(f"Validation cost at {v.chosen_cutoff:.2f}: {_money(val.cost, cur)}, ", verdict,
+                                 f". With hindsight the validation period's best cutoff, "
+                                 f"{v.validation_best_cutoff:.2f}, costs {_money(v.validation_best_cost, cur)}: "
+                                 f"the optimism of choosing on the past is {_money(v.optimism, cur)}."))
     if sel.walk_forward is not None:
         w = sel.walk_forward
         rows = []
@@ -242,12 +272,12 @@ def _sites_tables(result: RunResult) -> list:
     they ran, each site's checks on later seasons and its stress headline (from sites.csv)."""
     if result.portfolio is None:
         return []
-    cur = result.scenario.currency
+    cur = _plain(result.scenario.currency)
     frame = result.portfolio.table.sort_values("value_rank", kind="stable")
     shown = frame.head(SITES_SHOWN)
     more = (f"... and {len(frame) - len(shown)} more sites: sites.csv" if len(frame) > len(shown)
             else "Per site, with every figure: sites.csv")
-    rows = [[r.site, f"{r.recommended_cutoff:.2f}", f"{r.recommended_cutoff_low:.2f}-{r.recommended_cutoff_high:.2f}",
+    rows = [[_plain(r.site), f"{r.recommended_cutoff:.2f}", f"{r.recommended_cutoff_low:.2f}-{r.recommended_cutoff_high:.2f}",
              f"{r.mean_cost:,.0f}", f"{r.mean_savings:,.0f} ({share(r.prob_saving)})", f"{r.forecast_value:,.0f}"]
             for r in shown.itertuples()]
     out: list = [_fitted_table(f"Each site at its own cutoff ({cur} a season; by the value of the forecast)",
@@ -261,7 +291,7 @@ def _sites_tables(result: RunResult) -> list:
         headers += [("Walk-forward", "optimism"), ("Seasons", "flagged")] if forward else []
         rows, notes = [], []
         for r in shown.itertuples():
-            row = [r.site]
+            row = [_plain(r.site)]
             if validation:
                 row += [f"{r.validation_chosen_cutoff:.2f}", f"{r.validation_optimism:,.0f}",
                         "worse" if r.validation_flag else ""]
@@ -282,7 +312,7 @@ def _sites_tables(result: RunResult) -> list:
     stressed = [site for site in result.portfolio.ranking[:SITES_SHOWN] if site.stress]
     if stressed:
         out.append("Stress cases of each site (all of them: stress.csv):")
-        out += [f"- {site.name}: {case.views[0].headline}" for site in stressed for case in site.stress]
+        out += [_plain(f"- {site.name}: {case.views[0].headline}") for site in stressed for case in site.stress]
     return out
 
 
@@ -300,15 +330,15 @@ def _calibration_lines(result: RunResult) -> list:
 
 def _report_run(result: RunResult, out: Path, written: list[Path], quiet: bool, as_json: bool) -> None:
     for warning in result.warnings:
-        err_console.print(f"warning: {warning}", markup=False, highlight=False, soft_wrap=True)
+        _warn(warning)
     if as_json:
         sys.stdout.write(json.dumps(summary(result), indent=2) + "\n")
         return
     if quiet:
         return
     hazard = result.scenario.event.hazard
-    caution = Text.assemble(("Caution: ", "bold"), (f'"{result.scenario.event.name}" is a hazard to people. '
-                                                    if hazard else "", "bold"), CAUTION)
+    caution = Text.assemble(("Caution: ", "bold"), (f'"{_plain(result.scenario.event.name)}" is a hazard to '
+                                                    "people. " if hazard else "", "bold"), CAUTION)
     if hazard:  # said first, and again at the end
         out_console.print(caution)
     out_console.print(_headline(result))
@@ -316,7 +346,7 @@ def _report_run(result: RunResult, out: Path, written: list[Path], quiet: bool, 
                  + _calibration_lines(result)):
         out_console.print(part, soft_wrap=isinstance(part, Text))  # tables keep their lines whole
     out_console.print(caution)
-    out_console.print(f"Wrote {len(written)} files to {out}/; open {out / 'report.html'} to read the report")
+    out_console.print(_plain(f"Wrote {len(written)} files to {out}/; open {out / 'report.html'} to read the report"))
 
 
 def _execute(scenario: Scenario, history: Path | None, out: Path | None, replicates: int | None,
@@ -424,19 +454,19 @@ def check_command(
                 else Scenario(name=history.stem, costs=Costs(hit=0, false_alarm=1, miss=1)))
         h = read_history(spec, history)
     for warning in h.warnings:
-        err_console.print(f"warning: {warning}", markup=False, highlight=False, soft_wrap=True)
+        _warn(warning)
     p, event = h.p[h.evaluated], h.event[h.evaluated]
-    table = Table(title=f"{history}: ok", show_header=False, title_justify="left")
+    table = Table(title=_plain(f"{history}: ok"), show_header=False, title_justify="left")
     table.add_column(style="bold")
     table.add_column()
     table.add_row("Rows", f"{h.n_rows} ({h.n_evaluated} in the season, {len(h.seasons)} seasons)")
     table.add_row("Period", f"{h.start} to {h.end}")
     if h.has_sites:
         names = ", ".join(h.site_names[:5]) + (", ..." if h.n_sites > 5 else "")
-        table.add_row("Sites", f"{h.n_sites} (column \"{spec.history.site_column}\"): {names}")
+        table.add_row("Sites", _plain(f"{h.n_sites} (column \"{spec.history.site_column}\"): {names}"))
     if h.has_validation:
         table.add_row("Training / validation", f"{int(h.training.sum())} / {int(h.validation.sum())} occasions")
-    table.add_row(f"Event rate (\"{spec.event.name}\")", f"{event.mean():.3f} ({int(event.sum())} occasions)")
+    table.add_row(_plain(f"Event rate (\"{spec.event.name}\")"), f"{event.mean():.3f} ({int(event.sum())} occasions)")
     table.add_row("Mean forecast probability", f"{p.mean():.3f}")
     table.add_row("Brier score", f"{scoring.brier_score(p, event):.4f} (skill against the base rate "
                                  f"{scoring.brier_skill_score(p, event):.3f})")
