@@ -36,9 +36,9 @@ app = typer.Typer(add_completion=False, no_args_is_help=True, pretty_exceptions_
                   rich_markup_mode=None,
                   help="gonogo: choose the probability cutoff at which to act on a yes/no forecast, "
                        "and price what a season will cost at it.")
-# no console markup and no highlighting: user strings print as they are written
-out_console = Console(markup=False, highlight=False)
-err_console = Console(stderr=True, markup=False, highlight=False)
+# no console markup, highlighting or emoji codes: user strings print as they are written
+out_console = Console(markup=False, highlight=False, emoji=False)
+err_console = Console(stderr=True, markup=False, highlight=False, emoji=False)
 
 CAUTION = ("A cost-optimal cutoff never overrides safety rules, site risk assessments, local "
            "regulations or licensed professional judgement.")

@@ -11,7 +11,7 @@ import difflib
 from collections.abc import Iterable
 from pathlib import Path
 
-__all__ = ["InputError", "closest", "did_you_mean", "excerpt", "printable", "read_input_file",
+__all__ = ["InputError", "closest", "did_you_mean", "excerpt", "quoted", "printable", "read_input_file",
            "EXCERPT_CHARS"]
 
 EXCERPT_CHARS = 60  # the most of a user's text an error message quotes back
@@ -32,16 +32,22 @@ def printable(text: str) -> str:
                    for ch in text)
 
 
-def excerpt(value: object, limit: int = EXCERPT_CHARS) -> str:
-    """A short, printable quotation of ``value`` for a message: strings in double quotes, cut to
-    about ``limit`` characters with their full length said, control characters escaped."""
+def excerpt(value: object, limit: int = EXCERPT_CHARS, quote: str | None = None) -> str:
+    """A short, printable quotation of ``value`` for a message: a string as Python writes it
+    (``'high'``), or between ``quote`` marks when given, cut to ``limit`` characters with its full
+    length said; control characters escaped either way. Other values as ``repr`` writes them."""
     if not isinstance(value, str):
-        value = repr(value) if isinstance(value, float) else str(value)
-        return printable(value[:limit]) + (f"... ({len(value):,} characters)" if len(value) > limit else "")
-    shown = printable(value[:limit])
+        text = repr(value)
+        return printable(text[:limit]) + (f"... ({len(text):,} characters)" if len(text) > limit else "")
+    shown = repr(value[:limit]) if quote is None else f"{quote}{printable(value[:limit])}{quote}"
     if len(value) > limit:
-        return f'"{shown}..." ({len(value):,} characters)'
-    return f'"{shown}"'
+        return f"{shown[:-1]}...{shown[-1]} ({len(value):,} characters)"
+    return shown
+
+
+def quoted(value: str) -> str:
+    """:func:`excerpt` between double quotes, as messages quote names and keys: "hit"."""
+    return excerpt(value, quote='"')
 
 
 def closest(word: str, choices: Iterable[str]) -> str | None:
@@ -55,8 +61,8 @@ def did_you_mean(word: str, choices: Iterable[str]) -> str:
     choices = list(choices)
     best = closest(word[:1000], choices)
     if best is not None:
-        return f"; did you mean {excerpt(best)}?"
-    listed = ", ".join(excerpt(c) for c in choices[:_CHOICES_LISTED])
+        return f"; did you mean {quoted(best)}?"
+    listed = ", ".join(quoted(c) for c in choices[:_CHOICES_LISTED])
     more = f" and {len(choices) - _CHOICES_LISTED:,} more" if len(choices) > _CHOICES_LISTED else ""
     return f"; expected one of {listed}{more}"
 

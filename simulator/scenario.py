@@ -27,7 +27,7 @@ import numpy as np
 from pydantic import (BaseModel, ConfigDict, Field, ValidationError, create_model, field_validator,
                       model_validator)
 
-from .errors import InputError, did_you_mean, excerpt, read_input_file
+from .errors import InputError, did_you_mean, excerpt, printable, quoted, read_input_file
 
 __all__ = ["Scenario", "Costs", "read_scenario", "scenario_from_text", "cutoff_grid",
            "break_even_probability", "cost_warnings", "WEEKDAYS", "BASELINES",
@@ -73,7 +73,7 @@ def _weekdays(value: tuple[str, ...]) -> tuple[str, ...]:
         day = next((d for d, full in zip(WEEKDAYS, _WEEKDAY_NAMES) if len(word) >= 3 and full.startswith(word)),
                    None)
         if day is None:
-            raise ValueError(f"{excerpt(str(v))} is not a weekday{did_you_mean(word[:20], WEEKDAYS)}")
+            raise ValueError(f"{quoted(str(v))} is not a weekday{did_you_mean(word[:20], WEEKDAYS)}")
         out.append(day)
     if len(set(out)) != len(out):
         raise ValueError("a weekday is listed twice")
@@ -494,7 +494,7 @@ def scenario_from_text(text: str, label: str = "scenario") -> Scenario:
     try:
         data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
-        raise InputError(f"{label}: not valid TOML ({excerpt(str(exc), 120)[1:-1]}); check the syntax "
+        raise InputError(f"{label}: not valid TOML ({printable(str(exc))[:120]}); check the syntax "
                          "near that line") from None
     except RecursionError:
         raise InputError(f"{label}: not valid TOML (nested too deeply); check the file") from None
@@ -510,7 +510,7 @@ def _check_sites(scenario: Scenario, label: str) -> None:
     """Every ``[sites."<name>"]`` table merged over the scenario must make a valid section."""
     if scenario.sites and scenario.history.site_column is None:
         first = next(iter(scenario.sites))
-        raise InputError(f"{label} [sites.{excerpt(first)}]: per-site tables need a site column; add "
+        raise InputError(f"{label} [sites.{quoted(first)}]: per-site tables need a site column; add "
                          'site_column = "<column naming each row\'s site>" to [history]')
     for name in scenario.sites:
         try:
@@ -520,7 +520,7 @@ def _check_sites(scenario: Scenario, label: str) -> None:
             section, model = ("costs", Costs) if exc.title == "Costs" else ("operations", OperationsSection)
             field, depth = _field_at(model, [str(p) for p in err["loc"]])
             key = ".".join(str(p) for p in err["loc"][:depth])
-            where = f"{label} [sites.{excerpt(name)}.{section}]"
+            where = f"{label} [sites.{quoted(name)}.{section}]"
             if err["type"] == "missing" and len(err["loc"]) == depth:
                 raise InputError(f"{where}: {key} is required and [{section}] does not give it; add it "
                                  f"here or to [{section}]") from None
@@ -540,7 +540,7 @@ def _first_problem(exc: ValidationError, label: str) -> str:
         if loc[0] == "stress" and len(loc) > 2:
             where = f"[[stress]] table {int(loc[1]) + 1}" + (f" {'.'.join(loc[2:-1])}" if len(loc) > 3 else "")
         valid = [k for k in model.model_fields if k not in ("source", "sha256")]
-        return f"{label} {where}: unknown key {excerpt(key)}{did_you_mean(key, valid)}"
+        return f"{label} {where}: unknown key {quoted(key)}{did_you_mean(key, valid)}"
     field, depth = _field_at(Scenario, loc)
     inside = len(loc) > depth  # the problem is inside the key's value (a list entry, a dict's key)
     loc = loc[:depth]
@@ -583,7 +583,7 @@ _SECTIONS = ("history", "event", "decision", "costs", "season", "simulation", "o
 
 def _table(loc: list[str]) -> str:
     """A table's name as TOML writes it: ``sites."North depot".costs``."""
-    return ".".join(excerpt(part) if i == 1 and loc[0] == "sites" else part for i, part in enumerate(loc))
+    return ".".join(quoted(part) if i == 1 and loc[0] == "sites" else part for i, part in enumerate(loc))
 
 
 def _submodel(annotation: Any) -> type[BaseModel] | None:
