@@ -372,7 +372,7 @@ class Scenario(_Section):
     costs: Costs
     season: SeasonSection = SeasonSection()
     simulation: SimulationSection = SimulationSection()
-    stress: Annotated[list[StressCase], Field(max_length=100)] = []
+    stress: Annotated[list[StressCase], Field(max_length=100, description="at most 100 [[stress]] tables")] = []
     operations: OperationsSection | None = None
     # per-site overrides, keyed by the site's name as the history's site column writes it
     sites: dict[Name, SiteSection] = {}
@@ -557,7 +557,7 @@ def _first_problem(exc: ValidationError, label: str) -> str:
         where = f'"{section[0]}"'  # a top-level key such as name
     if kind == "missing" and not inside:
         return f"{label} {where}: this key is required; add it"
-    if loc == ["sites"] and inside:  # a site's name, the key of a [sites."<name>"] table
+    if loc[:1] == ["sites"] and len(loc) == 2 and inside:  # a site's name: a [sites."<name>"] key
         return f"{label} [sites]: a site's name must be text of at most {MAX_TEXT} characters"
     return f"{label} {where}: {_what_is_wrong(err, field)}"
 
@@ -616,7 +616,8 @@ def _field_at(root: type[BaseModel], loc: list[str]) -> tuple[Any, int]:
         if model is None:
             break
         if part.isdigit() or (i == 1 and loc[0] == "sites" and root is Scenario):
-            continue  # a list entry, or a site's name
+            depth = i + 1  # a [[stress]] table, or a site's table: part of the place
+            continue
         field = model.model_fields.get(part)
         if field is None:
             break
