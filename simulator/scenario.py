@@ -638,6 +638,9 @@ def _describe(annotation: Any, metadata: list) -> str | None:
     origin = typing.get_origin(annotation)
     if origin is Annotated:
         base, *extras = typing.get_args(annotation)
+        said = next((extra.description for extra in extras if getattr(extra, "description", None)), None)
+        if said:
+            return said
         inner = [m for extra in extras for m in getattr(extra, "metadata", [extra])]
         return _describe(base, [*metadata, *inner])
     if origin in (typing.Union, types.UnionType):
@@ -664,7 +667,8 @@ def _describe(annotation: Any, metadata: list) -> str | None:
             return f"{what} {low} {high}" if low.startswith("from") else f"{what} {low}, at most {high[3:]}"
         return " ".join(part for part in (what, low or ("up " + high if high else "")) if part)
     if origin in (tuple, list):
-        return "a list"
+        item = _describe(typing.get_args(annotation)[0], [])
+        return "a list" + (f", each {item}" if item else "")
     return None
 
 

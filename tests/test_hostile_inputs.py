@@ -324,3 +324,33 @@ def test_the_corpus_covers_at_least_eighty_cases_of_every_kind():
     # issue 16, "Tests": a table-driven corpus of at least 80 cases across the kinds of the issue
     assert len(CASES) >= 80
     assert len({c.id for c in CASES}) == len(CASES)
+
+
+# ------------------------------------------------------------------------------------------------
+# hostile names in a run that succeeds (items 8 and 9)
+
+NAMES = {
+    ("", "name"): r'"Quillfen [/bold] \u001b]0;retitled\u0007 [red]works"',
+    ("", "currency"): r'"EUR [/] \u001b[2J"',
+    ("event", "name"): r'"dry $\\foo$ day [/bold]"',
+    ("decision", "action"): r'"go [bold]out\u001b[31m"',
+}
+
+
+def test_names_full_of_markup_and_escapes_print_as_plain_text_and_draw_as_plain_text(tmp_path):
+    # before: "[/bold]" in a name or a stress case's name crashed the headline (rich's MarkupError),
+    # escape sequences reached the terminal raw, and "$\foo$" stopped the figures (matplotlib's
+    # mathtext parser); now each is printed and drawn as the characters it is
+    (tmp_path / "history.csv").write_text(HISTORY)
+    changes = {**NAMES, ("simulation", "replicates"): "40"}
+    text = scenario_text(changes, stress(name=r'"wet [/bold] $\\bar$ \u001b[5m"', event_rate="1.5"))
+    (tmp_path / "s.toml").write_text(text)
+    out = tmp_path / "out"
+    result = runner.invoke(app, ["run", str(tmp_path / "s.toml"), "--out", str(out), "--workers", "1"],
+                           env={"COLUMNS": "200"})
+    assert result.exit_code == 0, result.output[-3000:]
+    assert "\x1b" not in result.output and "\x07" not in result.output
+    assert "Quillfen [/bold] \\x1b]0;retitled\\x07 [red]works" in result.stdout
+    assert "wet [/bold] $\\bar$ \\x1b[5m" in result.stdout
+    assert "dry $\\foo$ day [/bold]" in result.stdout
+    assert (out / "figures" / "stress.png").exists() and (out / "report.html").exists()
