@@ -83,7 +83,7 @@ def _user_errors():
 
 @contextmanager
 def _progress_bar(enabled: bool):
-    if not enabled:
+    if not enabled or not err_console.is_terminal:  # a pipe would get the bar's blank line only
         yield None
         return
     columns = (TextColumn("{task.description}", markup=False), BarColumn(), MofNCompleteColumn(),

@@ -293,8 +293,8 @@ def _assert_refused(result, case: Case) -> None:
     assert "Traceback" not in result.output, result.output[-2000:]
     assert result.exit_code == 2, (result.exit_code, result.output[-2000:])
     assert isinstance(result.exception, SystemExit), result.exception
+    assert len(result.stderr.splitlines()) == 1, result.stderr[:2000]  # not even a blank line
     message = result.stderr.strip()
-    assert len(message.splitlines()) == 1, message[:2000]
     assert message.startswith("error: "), message[:2000]
     assert "\x1b" not in result.output and "\x07" not in result.output
     assert len(message) < 700, f"{len(message)} characters: {message[:300]}"
@@ -354,3 +354,27 @@ def test_names_full_of_markup_and_escapes_print_as_plain_text_and_draw_as_plain_
     assert "wet [/bold] $\\bar$ \\x1b[5m" in result.stdout
     assert "dry $\\foo$ day [/bold]" in result.stdout
     assert (out / "figures" / "stress.png").exists() and (out / "report.html").exists()
+
+
+def test_a_python_warning_prints_as_one_line_without_a_source_path(tmp_path, monkeypatch):
+    # issue 16 item 7: numpy's "RuntimeWarning: invalid value encountered in divide" reached the
+    # terminal with the path and line of numpy's source, and the line of code itself
+    import warnings
+
+    from simulator import cli
+    from simulator.errors import InputError
+
+    def warn_then_fail(*args, **kwargs):
+        np.seterr(all="warn")
+        np.array([0.0]) / np.array([0.0])
+        warnings.warn("a stray \x1b[2J warning", UserWarning, stacklevel=1)
+        raise InputError("s.toml [costs]: stop here")
+
+    monkeypatch.setattr(cli, "run", warn_then_fail)
+    (tmp_path / "history.csv").write_text(HISTORY)
+    (tmp_path / "s.toml").write_text(scenario_text())
+    result = runner.invoke(app, ["run", str(tmp_path / "s.toml"), "--out", str(tmp_path / "out")])
+    assert result.exit_code == 2
+    lines = result.stderr.strip().splitlines()
+    assert lines == ["warning: invalid value encountered in divide", "warning: a stray \\x1b[2J warning",
+                     "error: s.toml [costs]: stop here"]
