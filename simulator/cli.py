@@ -171,7 +171,7 @@ def _fitted_table(title: str, headers: list[tuple[str, str]], rows: list[list[st
 
     rule = "  ".join("-" * w for w in widths)
     body = [line([h[0] for h in headers]), line([h[1] for h in headers]), rule, *map(line, rows)]
-    text = Text(title + "\n", style="italic")
+    text = Text(title + "\n", style="italic", no_wrap=True)  # printed with soft_wrap: lines kept whole
     text.append("\n".join(body))
     return text
 
@@ -344,7 +344,7 @@ def _report_run(result: RunResult, out: Path, written: list[Path], quiet: bool, 
     out_console.print(_headline(result))
     for part in (_sites_tables(result) + _stress_tables(result) + _selection_tables(result)
                  + _calibration_lines(result)):
-        out_console.print(part, soft_wrap=isinstance(part, Text))  # tables keep their lines whole
+        out_console.print(part, soft_wrap=isinstance(part, Text) and bool(part.no_wrap))  # tables keep their lines
     out_console.print(caution)
     out_console.print(_plain(f"Wrote {len(written)} files to {out}/; open {out / 'report.html'} to read the report"))
 
