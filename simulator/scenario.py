@@ -33,7 +33,7 @@ __all__ = ["Scenario", "Costs", "read_scenario", "scenario_from_text", "cutoff_g
            "break_even_probability", "cost_warnings", "WEEKDAYS", "BASELINES",
            "OperationsSection", "StressCase", "CostChanges", "OperationsChanges", "STRESS_CHANGES",
            "SiteSection", "SiteOperations", "CostFactors", "OperationsFactors", "MAX_MONEY",
-           "MAX_FACTOR", "MAX_TEXT", "MAX_SCENARIO_BYTES", "YEARS"]
+           "MAX_FACTOR", "MAX_TEXT", "MAX_SCENARIO_BYTES", "YEARS", "MAX_SEASON_COSTS", "check_workload"]
 
 WEEKDAYS = ("mon", "tue", "wed", "thu", "fri", "sat", "sun")
 _WEEKDAY_NAMES = ("monday", "tuesday", "wednesday", "thursday", "friday", "saturday", "sunday")
@@ -48,6 +48,7 @@ MAX_CURRENCY = 40  # characters of the currency's name
 MAX_SCENARIO_BYTES = 1_000_000  # bytes of a scenario file
 MAX_WORK = 1e7  # crew-days of work in a season (counted in thousandths, well inside int64)
 MAX_SEASON_DAYS = 366  # a run length, a streak: at most a year of days
+MAX_SEASON_COSTS = 100_000_000  # replicates x cutoffs: the season costs held at once (800 MB as float64)
 YEARS = (1900, 2200)  # seasons a calendar may price
 
 Money = Annotated[float, Field(ge=-MAX_MONEY, le=MAX_MONEY)]  # negative = income
@@ -436,6 +437,16 @@ def cutoff_grid(lo: float, hi: float, step: float) -> np.ndarray:
     return np.round(np.linspace(lo, hi, n), decimals)
 
 
+def check_workload(replicates: int, n_cutoffs: int, where: str) -> None:
+    """Refuse, before any work, a run whose table of season costs (replicates x cutoffs) would pass
+    :data:`MAX_SEASON_COSTS`; ``where`` names the key or option that set the replicates."""
+    if replicates * n_cutoffs > MAX_SEASON_COSTS:
+        raise InputError(f"{where}: {replicates:,} replicate seasons x {n_cutoffs:,} cutoffs is "
+                         f"{replicates * n_cutoffs:,} season costs, more than the {MAX_SEASON_COSTS:,} a run "
+                         f"may hold; use at most {MAX_SEASON_COSTS // n_cutoffs:,} replicates, or a coarser "
+                         "cutoff step")
+
+
 def break_even_probability(costs: Costs) -> float:
     """Probability at which acting and not acting have the same expected cost.
 
@@ -503,6 +514,7 @@ def scenario_from_text(text: str, label: str = "scenario") -> Scenario:
     except ValidationError as exc:
         raise InputError(_first_problem(exc, label)) from None
     _check_sites(scenario, label)
+    check_workload(scenario.simulation.replicates, len(scenario.cutoffs), f"{label} [simulation] replicates")
     return scenario
 
 
