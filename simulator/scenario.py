@@ -7,9 +7,9 @@ always best produces a warning (returned, never printed: ``cli.py`` prints).
 Every number key has a range and every string a length limit in the schema, and NaN and infinity are
 refused everywhere, so that nonsense is refused in one line before any work starts. A message says
 what values are allowed; it is made from the schema itself (:func:`_allowed`), so the schema stays the
-one place that says it. The limits are ones a practitioner would not meet in earnest (money within
-1e12 per occasion, factors up to 1000, years 1900 to 2200; common practice, chosen for this tool) and
-are listed in the README's key table.
+one place that says it. The limits are the project's own choice (no published source): wide enough
+that a practitioner never meets them in earnest (money within 1e12 per occasion, factors up to 1000,
+years 1900 to 2200), and listed in the README's key table.
 """
 
 from __future__ import annotations
