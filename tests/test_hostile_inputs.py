@@ -322,6 +322,20 @@ def test_hostile_input_is_refused_in_one_line_and_nothing_is_written(case, tmp_p
     _assert_refused(result, case)
     assert _snapshot(earlier) == before
 
+    if case.history is not None:  # the same history, checked without a run
+        _assert_refused(runner.invoke(app, ["check", "history.csv", "--scenario", str(scenario)]), case)
+
+
+def test_results_already_in_the_folder_are_refused_without_force_and_left_as_they_were(tmp_path, earlier_results):
+    (tmp_path / "history.csv").write_text(HISTORY)
+    (tmp_path / "s.toml").write_text(scenario_text())
+    earlier = tmp_path / "earlier"
+    shutil.copytree(earlier_results, earlier)
+    before = _snapshot(earlier)
+    result = runner.invoke(app, ["run", str(tmp_path / "s.toml"), "--out", str(earlier), "--workers", "1"])
+    _assert_refused(result, Case("results exist", ("earlier", "--force")))
+    assert _snapshot(earlier) == before
+
 
 def test_the_corpus_covers_at_least_eighty_cases_of_every_kind():
     # issue 16, "Tests": a table-driven corpus of at least 80 cases across the kinds of the issue
