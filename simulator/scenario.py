@@ -19,7 +19,7 @@ import math
 import tomllib
 import types
 import typing
-from datetime import date
+from datetime import date, datetime, time
 from pathlib import Path
 from typing import Annotated, Any, Literal
 
@@ -50,6 +50,7 @@ MAX_WORK = 1e7  # crew-days of work in a season (counted in thousandths, well in
 MAX_SEASON_DAYS = 366  # a run length, a streak: at most a year of days
 MAX_SEASON_COSTS = 100_000_000  # replicates x cutoffs: the season costs held at once (800 MB as float64)
 YEARS = (1900, 2200)  # seasons a calendar may price
+MAX_HOLIDAYS = 10_000  # dates in a list of holidays
 
 Money = Annotated[float, Field(ge=-MAX_MONEY, le=MAX_MONEY)]  # negative = income
 Price = Annotated[float, Field(ge=0, le=MAX_MONEY)]
@@ -57,6 +58,7 @@ Factor = Annotated[float, Field(ge=0, le=MAX_FACTOR)]
 Name = Annotated[str, Field(max_length=MAX_TEXT)]
 Days = Annotated[float, Field(ge=1, le=MAX_SEASON_DAYS)]
 Work = Annotated[float, Field(gt=0, le=MAX_WORK)]
+Holidays = Annotated[tuple[date, ...], Field(max_length=MAX_HOLIDAYS)]
 WeekdayList = Annotated[tuple[str, ...], Field(max_length=7, description='a list of weekdays written '
                                               '"mon" to "sun" or in full ("monday")')]
 
@@ -160,10 +162,38 @@ class Costs(_Section):
         return np.array([self.hit, self.false_alarm, self.miss, self.correct_negative], dtype=float)
 
 
+def _date_list(value: Any) -> Any:
+    """A list of dates as ``[season] holidays`` and ``[operations] holidays`` take them: TOML dates
+    or "YYYY-MM-DD" text; anything else is one plain error naming the item."""
+    if isinstance(value, str | date):
+        raise ValueError("list the dates in brackets, e.g. holidays = [2027-05-03, 2027-08-30]")
+    if not isinstance(value, list | tuple):
+        return value  # pydantic says what it wanted
+    out = []
+    for i, item in enumerate(value, 1):
+        if isinstance(item, datetime):
+            item = item.date() if item.time() == time() else item
+        if isinstance(item, str):
+            try:
+                item = date.fromisoformat(item.strip())
+            except ValueError:
+                pass
+        if type(item) is not date:
+            raise ValueError(f"item {i}, {excerpt(item)}, is not a date; write dates as YYYY-MM-DD, "
+                             "e.g. holidays = [2027-05-03, 2027-08-30]")
+        out.append(item)
+    return tuple(out)
+
+
 class SeasonSection(_Section):
+    """The occasions that make a season: dates of the history's own calendar in ``months``, on
+    ``weekdays`` (daily data only) and not among ``holidays`` (dates that are not occasions, such
+    as market holidays or closed days; the operating rules then have no working day on them)."""
+
     months: Annotated[tuple[Annotated[int, Field(ge=1, le=12)], ...], Field(
         max_length=12, description="a list of months, each a whole number from 1 to 12")] = tuple(range(1, 13))
     weekdays: WeekdayList = WEEKDAYS
+    holidays: Holidays = ()
     year: Annotated[int, Field(ge=YEARS[0], le=YEARS[1])] | None = None
 
     @field_validator("months")
@@ -174,6 +204,8 @@ class SeasonSection(_Section):
         if len(set(value)) != len(value):
             raise ValueError("a month is listed twice")
         return value
+
+    _holidays = field_validator("holidays", mode="before")(_date_list)
 
     @field_validator("weekdays")
     @classmethod
@@ -217,13 +249,15 @@ class OperationsSection(_Section):
     damages_per_day_late: Price = 0.0
     unfinished_cost: Price = 0.0
     workdays: WeekdayList | None = None
-    holidays: Annotated[tuple[date, ...], Field(max_length=MAX_SEASON_DAYS)] = ()
+    holidays: Holidays = ()
     overtime_weekdays: WeekdayList = ()
     overtime_multiple: Annotated[float, Field(ge=1, le=100)] = 1.5
     max_overtime_days_per_week: Annotated[int, Field(ge=1, le=7)] = 1
     max_standby_days: Annotated[int, Field(ge=1, le=MAX_SEASON_DAYS)] | None = None
     safety_stop_at: Annotated[float, Field(gt=0, le=1)] | None = None
     safety_probability: Literal["as_in_file", "of_event"] = "as_in_file"
+
+    _holidays = field_validator("holidays", mode="before")(_date_list)
 
     @field_validator("workdays", "overtime_weekdays")
     @classmethod
