@@ -714,7 +714,9 @@ def _describe(annotation: Any, metadata: list) -> str | None:
         return " ".join(part for part in (what, low or ("up " + high if high else "")) if part)
     if origin in (tuple, list):
         item = _describe(typing.get_args(annotation)[0], [])
-        return "a list" + (f", each {item}" if item else "")
+        longest = next((m.max_length for m in metadata if getattr(m, "max_length", None)), None)
+        return ("a list" + (f" of at most {longest:,} entries" if longest else "")
+                + (f", each {item}" if item else ""))
     return None
 
 
