@@ -197,6 +197,8 @@ CASES = [
     S("name missing", ('"name"', "required"), {("", "name"): None}),
     S("cost missing", ("[costs] miss", "required"), {("costs", "miss"): None}),
     S("not TOML", ("not valid TOML",), scenario='name = "x"\n[costs\nhit = 1\n'),
+    S("arrays nested 100,000 deep", ("nested too deeply",), scenario='name = "x"\na = ' + "[" * 100_000 + "]" * 100_000),
+    S("tables nested 50,000 deep", ("nested too deeply",), scenario='name = "x"\na = ' + "{b = " * 50_000 + "1" + "}" * 50_000),
     S("binary scenario", ("not a text file",), scenario=bytes(range(256)) * 4),
     S("empty scenario", ('"name"', "required"), scenario=""),
     S("outcome two ways", ("[history]", "not both"),
