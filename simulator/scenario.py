@@ -15,7 +15,6 @@ years 1900 to 2200), and listed in the README's key table.
 from __future__ import annotations
 
 import hashlib
-import math
 import tomllib
 import types
 import typing
@@ -27,6 +26,7 @@ import numpy as np
 from pydantic import (BaseModel, ConfigDict, Field, ValidationError, create_model, field_validator,
                       model_validator)
 
+from . import decimals
 from .errors import InputError, did_you_mean, excerpt, printable, quoted, read_input_file
 
 __all__ = ["Scenario", "Costs", "read_scenario", "scenario_from_text", "cutoff_grid",
@@ -141,11 +141,11 @@ class DecisionSection(_Section):
         if step > hi - lo:
             raise ValueError(f"the step {step} is wider than the range {lo} to {hi}; use a step of at most "
                              f"{hi - lo:g}, e.g. 0.01")
-        n = (hi - lo) / step
-        if abs(n - round(n)) > 1e-6:
+        n = decimals.whole_steps(lo, hi, step)
+        if n is None:
             raise ValueError(f"the step {step} does not divide {lo} to {hi} into whole steps")
-        if round(n) + 1 > 10001:
-            raise ValueError(f"{round(n) + 1} cutoffs is too many; use a step of at least 0.0001")
+        if n + 1 > 10001:
+            raise ValueError(f"{n + 1} cutoffs is too many; use a step of at least 0.0001")
         return value
 
 
@@ -461,14 +461,9 @@ class Scenario(_Section):
 
 
 def cutoff_grid(lo: float, hi: float, step: float) -> np.ndarray:
-    """Cutoffs from ``lo`` to ``hi`` by ``step``, both ends included, rounded to the step's decimals.
-
-    Built with ``linspace`` and rounded, never ``arange`` with a float step (whose 0.3 is
-    0.30000000000000004; common practice, no single source).
-    """
-    n = int(round((hi - lo) / step)) + 1
-    decimals = max(0, -int(math.floor(math.log10(step)))) + 2
-    return np.round(np.linspace(lo, hi, n), decimals)
+    """Cutoffs from ``lo`` to ``hi`` by ``step``, both ends included, each the float nearest its
+    decimal (:func:`simulator.decimals.grid`)."""
+    return decimals.grid(lo, hi, step)
 
 
 def check_workload(replicates: int, n_cutoffs: int, where: str) -> None:
