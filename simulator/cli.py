@@ -2,12 +2,17 @@
 
 Each command's docstring is its ``--help`` text. A user's mistake (an :class:`InputError`) is
 printed as one line on standard error with exit status 2, and nothing is written.
+
+Every string from a scenario or a history is untrusted: the consoles interpret no markup (square
+brackets print as they are), and each such string passes through :func:`_plain`, which writes its
+control characters as escapes, before it reaches the terminal.
 """
 
 from __future__ import annotations
 
 import json
 import sys
+import warnings
 from contextlib import contextmanager
 from pathlib import Path
 from typing import Annotated
@@ -20,7 +25,7 @@ from rich.text import Text
 
 from . import __version__
 from .account import account, money, season_name, seasons_text, share, signed_money, strategy_label
-from .errors import InputError
+from .errors import InputError, printable
 from .history import read_history
 from .outputs import check_out_folder, render_files, summary, write_files
 from .parallel import CLUSTER_ENV
@@ -31,39 +36,64 @@ app = typer.Typer(add_completion=False, no_args_is_help=True, pretty_exceptions_
                   rich_markup_mode=None,
                   help="gonogo: choose the probability cutoff at which to act on a yes/no forecast, "
                        "and price what a season will cost at it.")
-out_console = Console()
-err_console = Console(stderr=True)
+# no console markup, highlighting or emoji codes: user strings print as they are written
+out_console = Console(markup=False, highlight=False, emoji=False)
+err_console = Console(stderr=True, markup=False, highlight=False, emoji=False)
 
 CAUTION = ("A cost-optimal cutoff never overrides safety rules, site risk assessments, local "
            "regulations or licensed professional judgement.")
 
 
+def _plain(value):
+    """A user's string (or every string in a dict or list of them, such as the summary) with its
+    control characters written as escapes, so that it cannot move the cursor, clear the screen or
+    retitle the window. The one gate for user strings on their way to the terminal."""
+    if isinstance(value, str):
+        return printable(value)
+    if isinstance(value, dict):
+        return {k: _plain(v) for k, v in value.items()}
+    if isinstance(value, list | tuple):
+        return type(value)(_plain(v) for v in value)
+    return value
+
+
+def _warn(message: str) -> None:
+    err_console.print(f"warning: {_plain(message)}", soft_wrap=True)
+
+
 def _fail(error: InputError) -> None:
-    err_console.print(f"error: {error}", markup=False, highlight=False, soft_wrap=True)
+    err_console.print(f"error: {_plain(str(error))}", soft_wrap=True)
     raise typer.Exit(code=2)
+
+
+def _show_warning(message, category, filename, lineno, file=None, line=None) -> None:
+    """Python's warnings (numpy's among them) as one line without a source path."""
+    _warn(str(message))
 
 
 @contextmanager
 def _user_errors():
-    try:
-        yield
-    except InputError as error:
-        _fail(error)
+    with warnings.catch_warnings():
+        warnings.showwarning = _show_warning
+        try:
+            yield
+        except InputError as error:
+            _fail(error)
 
 
 @contextmanager
 def _progress_bar(enabled: bool):
-    if not enabled:
+    if not enabled or not err_console.is_terminal:  # a pipe would get the bar's blank line only
         yield None
         return
-    columns = (TextColumn("{task.description}"), BarColumn(), MofNCompleteColumn(),
+    columns = (TextColumn("{task.description}", markup=False), BarColumn(), MofNCompleteColumn(),
                TimeRemainingColumn())
     with Progress(*columns, console=err_console, transient=True) as bar:
         tasks: dict[str, int] = {}
 
         def update(step: str, done: int, total: int) -> None:
             if step not in tasks:
-                tasks[step] = bar.add_task(step, total=total)
+                tasks[step] = bar.add_task(_plain(step), total=total)
             bar.update(tasks[step], completed=done, total=total)
 
         yield update
@@ -71,7 +101,7 @@ def _progress_bar(enabled: bool):
 
 def _headline(result: RunResult) -> Table:
     """The run's account (:func:`simulator.account.account`) as a two-column table."""
-    told = account(summary(result))
+    told = account(_plain(summary(result)))
     table = Table(title=told.title, show_header=False, title_justify="left")
     table.add_column(style="bold")
     table.add_column()
@@ -91,8 +121,8 @@ def _fitted_table(title: str, headers: list[tuple[str, str]], rows: list[list[st
 
     rule = "  ".join("-" * w for w in widths)
     body = [line([h[0] for h in headers]), line([h[1] for h in headers]), rule, *map(line, rows)]
-    text = Text(title + "\n", style="italic")
-    text.append("\n".join(body))
+    text = Text(_plain(title) + "\n", style="italic", no_wrap=True)  # printed with soft_wrap: lines kept whole
+    text.append("\n".join(_plain(body)))
     return text
 
 
@@ -100,7 +130,7 @@ def _labels(result: RunResult) -> tuple[str, str, list[int]]:
     """The reference rule in plain words, the unit of an occasion, and the season's months."""
     s = result.scenario
     unit = "day" if result.history.frequency.is_daily else "occasion"
-    return (strategy_label(result.reference, s.decision.action, s.event.name, unit), unit,
+    return (_plain(strategy_label(result.reference, s.decision.action, s.event.name, unit)), unit,
             list(s.season.months))
 
 
@@ -108,7 +138,7 @@ def _stress_tables(result: RunResult) -> list:
     """The stress cases as one table, then each case's headline sentence."""
     if not result.stress:
         return []
-    cur = result.scenario.currency
+    cur = _plain(result.scenario.currency)
     base_cutoff = result.decision.recommended_cutoff
     ref, _, _ = _labels(result)
     base = result.strategies["model"]
@@ -126,7 +156,7 @@ def _stress_tables(result: RunResult) -> list:
             rows.append([label, shown, money(v.strategies["model"].mean, ""), signed_money(v.extra_cost, ""),
                          f"{v.best_cutoff:.2f}", money(v.saved_by_moving, ""),
                          f"{money(v.savings.mean, '')} ({share(v.prob_saving)})"])
-            sentences.append(f"- {v.headline}")
+            sentences.append(_plain(f"- {v.headline}"))
     table = _fitted_table(f"Stress tests, {cur} a season (means over simulated seasons)",
                           [("", "Case"), ("Event", "rate"), ("Cost at", f"{base_cutoff:.2f}"), ("", "Change"),
                            ("Best", "cutoff"), ("Saved by", "moving"), ("Saving", "(share)")], rows)
@@ -141,7 +171,7 @@ def _selection_tables(result: RunResult) -> list:
     sel = result.selection
     if sel is None:
         return []
-    cur = result.scenario.currency
+    cur = _plain(result.scenario.currency)
     ref, unit, months = _labels(result)
     rules = result.scenario.operations is not None
     per = f"{unit} played" if rules else unit
@@ -166,13 +196,14 @@ def _selection_tables(result: RunResult) -> list:
         table.add_row(f"cost per {per}", money(t.cost_per_occasion, cur), money(val.cost_per_occasion, cur))
         out.append(table)
         lo, hi = v.expected_range
-        verdict = (f"[bold]worse than the training range ({money(lo, cur)} to {money(hi, cur)} per "
-                   f"{per}): overfitted, or the world changed[/bold]" if v.flag else
+        verdict = ((f"worse than the training range ({money(lo, cur)} to {money(hi, cur)} per "
+                    f"{per}): overfitted, or the world changed", "bold") if v.flag else
                    f"within what training leads one to expect (up to {money(hi, cur)} per {per})")
-        out.append(f"Validation period at {v.chosen_cutoff:.2f}: {money(val.cost, cur)} in all, {verdict}. "
-                   f"With hindsight the validation period's best cutoff, {v.validation_best_cutoff:.2f}, costs "
-                   f"{money(v.validation_best_cost, cur)}: the optimism of choosing on the past is "
-                   f"{money(v.optimism, cur)} over the validation period.")
+        out.append(Text.assemble(f"Validation period at {v.chosen_cutoff:.2f}: {money(val.cost, cur)} in all, ",
+                                 verdict, f". With hindsight the validation period's best cutoff, "
+                                 f"{v.validation_best_cutoff:.2f}, costs {money(v.validation_best_cost, cur)}: the "
+                                 f"optimism of choosing on the past is {money(v.optimism, cur)} over the validation "
+                                 "period."))
     if sel.walk_forward is not None:
         w = sel.walk_forward
         rows = [[season_name(s.season, months), f"{s.priced.cutoff:.2f}", money(s.priced.cost, ""),
@@ -200,7 +231,7 @@ def _sites_tables(result: RunResult) -> list:
     they ran, each site's checks on later seasons and its stress headline (from sites.csv)."""
     if result.portfolio is None:
         return []
-    cur = result.scenario.currency
+    cur = _plain(result.scenario.currency)
     frame = result.portfolio.table.sort_values("value_rank", kind="stable")
     shown = frame.head(SITES_SHOWN)
     more = (f"... and {len(frame) - len(shown)} more sites: sites.csv" if len(frame) > len(shown)
@@ -240,7 +271,7 @@ def _sites_tables(result: RunResult) -> list:
     stressed = [site for site in result.portfolio.ranking[:SITES_SHOWN] if site.stress]
     if stressed:
         out.append("Stress cases of each site (all of them: stress.csv):")
-        out += [f"- {site.name}: {case.views[0].headline}" for site in stressed for case in site.stress]
+        out += [_plain(f"- {site.name}: {case.views[0].headline}") for site in stressed for case in site.stress]
     return out
 
 
@@ -258,23 +289,25 @@ def _calibration_lines(result: RunResult) -> list:
 
 def _report_run(result: RunResult, out: Path, written: list[Path], quiet: bool, as_json: bool) -> None:
     for warning in result.warnings:
-        err_console.print(f"warning: {warning}", markup=False, highlight=False, soft_wrap=True)
+        _warn(warning)
     if as_json:
         sys.stdout.write(json.dumps(summary(result), indent=2) + "\n")
         return
     if quiet:
         return
     hazard = result.scenario.event.hazard
-    caution = Text.assemble(("Caution: ", "bold"), (f'"{result.scenario.event.name}" is a hazard to people. '
+    caution = Text.assemble(("Caution: ", "bold"), (f'"{_plain(result.scenario.event.name)}" is a hazard to people. '
                                                     if hazard else "", "bold"), CAUTION)
     if hazard:  # said first, and again at the end
         out_console.print(caution)
     out_console.print(_headline(result))
     for part in (_sites_tables(result) + _stress_tables(result) + _selection_tables(result)
                  + _calibration_lines(result)):
-        out_console.print(part, soft_wrap=isinstance(part, Text))  # tables keep their lines whole
+        if isinstance(part, str):
+            part = _plain(part)
+        out_console.print(part, soft_wrap=isinstance(part, Text) and bool(part.no_wrap))  # tables keep their lines
     out_console.print(caution)
-    out_console.print(f"Wrote {len(written)} files to {out}/; open {out / 'report.html'} to read the report")
+    out_console.print(_plain(f"Wrote {len(written)} files to {out}/; open {out / 'report.html'} to read the report"))
 
 
 def _execute(scenario: Scenario, history: Path | None, out: Path | None, replicates: int | None,
@@ -382,9 +415,9 @@ def check_command(
                 else Scenario(name=history.stem, costs=Costs(hit=0, false_alarm=1, miss=1)))
         h = read_history(spec, history)
     for warning in h.warnings:
-        err_console.print(f"warning: {warning}", markup=False, highlight=False, soft_wrap=True)
+        _warn(warning)
     p, event = h.p[h.evaluated], h.event[h.evaluated]
-    table = Table(title=f"{history}: ok", show_header=False, title_justify="left")
+    table = Table(title=_plain(f"{history}: ok"), show_header=False, title_justify="left")
     table.add_column(style="bold")
     table.add_column()
     table.add_row("Rows", f"{h.n_rows} ({h.n_evaluated} in the season, {len(h.seasons)} seasons)")
@@ -392,10 +425,10 @@ def check_command(
     table.add_row("Calendar", f"{h.frequency.describe()} (the priced season is laid on it)")
     if h.has_sites:
         names = ", ".join(h.site_names[:5]) + (", ..." if h.n_sites > 5 else "")
-        table.add_row("Sites", f"{h.n_sites} (column \"{spec.history.site_column}\"): {names}")
+        table.add_row("Sites", _plain(f"{h.n_sites} (column \"{spec.history.site_column}\"): {names}"))
     if h.has_validation:
         table.add_row("Training / validation", f"{int(h.training.sum())} / {int(h.validation.sum())} occasions")
-    table.add_row(f"Event rate (\"{spec.event.name}\")", f"{event.mean():.3f} ({int(event.sum())} occasions)")
+    table.add_row(_plain(f"Event rate (\"{spec.event.name}\")"), f"{event.mean():.3f} ({int(event.sum())} occasions)")
     table.add_row("Mean forecast probability", f"{p.mean():.3f}")
     table.add_row("Brier score", f"{scoring.brier_score(p, event):.4f} (skill against the base rate "
                                  f"{scoring.brier_skill_score(p, event):.3f})")

@@ -15,8 +15,10 @@ from __future__ import annotations
 
 import base64
 import calendar
+import hashlib
 import json
 import math
+import re
 from collections.abc import Mapping
 from pathlib import Path
 from typing import Any
@@ -87,6 +89,33 @@ def recommendation(summary: Mapping[str, Any], occasion: str = "day", decimals: 
 
 # ------------------------------------------------------------------------------------------------
 # the page
+
+# characters that could end or bend a <script> element's content, or a JavaScript string, in JSON
+_SCRIPT_UNSAFE = {"<": "\\u003c", ">": "\\u003e", "&": "\\u0026", "\u2028": "\\u2028", "\u2029": "\\u2029"}
+
+
+def script_json(value: Any) -> str:
+    """``value`` as JSON that is safe inside a ``<script>`` element: ``<``, ``>``, ``&``, U+2028 and
+    U+2029 written as ``\\u`` escapes, so that no string in it (a user's ``</script>`` or ``<!--``
+    followed by ``<script``) can close the element or switch the HTML parser into its
+    script-data-escaped state (WHATWG HTML, "Restrictions for contents of script elements"). JSON
+    reads the escapes back as the same characters."""
+    text = json.dumps(_plain(value), separators=(",", ":"))
+    return re.sub("[<>&\u2028\u2029]", lambda m: _SCRIPT_UNSAFE[m.group()], text)
+
+
+_CSP_PLACEHOLDER = "__gonogo_script_hashes__"
+_INLINE_SCRIPT = re.compile(r"<script>(.*?)</script>", re.S)
+
+
+def _with_content_policy(html: str) -> str:
+    """The page with its Content-Security-Policy filled in: nothing from the network
+    (``default-src 'none'``), the page's own inline scripts by their SHA-256 hashes, its inline
+    style, and ``data:`` images (W3C, Content Security Policy Level 3, sections 6 and 8.3)."""
+    hashes = " ".join("'sha256-" + base64.b64encode(hashlib.sha256(body.encode("utf-8")).digest()).decode("ascii") + "'"
+                      for body in _INLINE_SCRIPT.findall(html))
+    return html.replace(_CSP_PLACEHOLDER, hashes, 1)
+
 
 def _plain(value: Any) -> Any:
     """numpy values as plain Python, NaN as None (JSON for the page's script)."""
@@ -443,7 +472,7 @@ def render_report(result, summary: Mapping[str, Any]) -> dict[str, bytes]:
         "beside": table_names(result),
         "images": {name: _data_uri(chart.png) for name, chart in charts.items()},
         "now": explorer["rows"][best], "everything": _matrix(row, "", currency), "periods": periods,
-        "explorer_json": json.dumps(_plain(explorer), separators=(",", ":")).replace("</", "<\\/"),
+        "explorer_json": script_json(explorer), "script_hashes": _CSP_PLACEHOLDER,
         "strategies": strategies, "losing": share(float((savings < 0).mean())),
         "stress": stress, "operations": operations,
         "rules": _rules_read_back(scenario),
@@ -456,7 +485,7 @@ def render_report(result, summary: Mapping[str, Any]) -> dict[str, bytes]:
         "calibration": summary.get("calibration"),
         "portfolio": _portfolio(summary, currency, decimals),
     }
-    html = _ENV.get_template("report.html.j2").render(context)
+    html = _with_content_policy(_ENV.get_template("report.html.j2").render(context))
     files = {"report.html": html.encode("utf-8")}
     files.update({f"figures/{name}.png": chart.png for name, chart in charts.items()})
     return files

@@ -39,7 +39,8 @@ from .operations import OperationsResult, UserProcess, make_rules
 from .operations_fast import OperationsPricer
 from .parallel import Executor, InlineExecutor, open_executor, prepare
 from .resample import BLOCK, Calendar, Resampler, block_rng, calendar_warnings, n_blocks, season_calendar
-from .scenario import BASELINES, Scenario, break_even_probability, cost_warnings, read_scenario
+from .scenario import (BASELINES, Scenario, break_even_probability, check_workload, cost_warnings,
+                       read_scenario)
 from .scoring import relative_value_from_costs
 from .selection import Calibration, Selection, calibrate, select_honestly
 from .stress import ReplicatePricer, StressResult, run_stress
@@ -222,6 +223,8 @@ def run(scenario: Scenario | str | Path, history_path: str | Path | None = None,
     """
     if not isinstance(scenario, Scenario):
         scenario = read_scenario(scenario)
+    if replicates is not None:
+        check_workload(int(replicates), len(scenario.cutoffs), "--replicates")
     prepare(workers, cluster)  # worker processes get ready while the history is read
     history = read_history(scenario, history_path)
     return run_history(scenario, history, replicates=replicates, seed=seed, progress=progress,

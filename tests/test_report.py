@@ -7,6 +7,8 @@ single source.
 
 from __future__ import annotations
 
+import base64
+import hashlib
 import io
 import json
 import re
@@ -169,6 +171,32 @@ def test_training_and_validation_side_by_side_only_with_a_split(demo_out, minima
     assert 'id="periods"' in (demo_out / "report.html").read_text(encoding="utf-8")
     assert "Validation 2025 to 2026" in (demo_out / "report.html").read_text(encoding="utf-8")
     assert 'id="periods"' not in (minimal_run[1] / "report.html").read_text(encoding="utf-8")
+
+
+def test_content_security_policy_allows_only_the_pages_own_script_by_its_hash(out):
+    # W3C, Content Security Policy Level 3 (2024 draft), section 8.3: an inline script runs when
+    # the base64 SHA-256 of its text is listed in script-src; hashlib computes it independently
+    html = (out / "report.html").read_text(encoding="utf-8")
+    policy = re.search(r'<meta http-equiv="Content-Security-Policy" content="([^"]*)">', html).group(1)
+    assert html.index("Content-Security-Policy") < html.index("<style>")
+    directives = dict(part.strip().split(" ", 1) for part in policy.split(";"))
+    assert directives["default-src"] == "'none'" and directives["img-src"] == "data:"
+    scripts = re.findall(r"<script>(.*?)</script>", html, re.S)
+    assert len(scripts) == 1
+    digest = base64.b64encode(hashlib.sha256(scripts[0].encode("utf-8")).digest()).decode("ascii")
+    assert directives["script-src"] == f"'sha256-{digest}'"
+
+
+@pytest.mark.parametrize("text", ["</script><script>alert(1)</script>", "<!--<script>", "a & b > c",
+                                  "line\u2028separator\u2029", "\x1b]0;x\x07"])
+def test_json_for_the_page_escapes_what_could_end_or_bend_a_script_element(text):
+    # WHATWG HTML, "Restrictions for contents of script elements": "<!--", "<script" and "</script"
+    # must not appear in a script's text; JSON's \\u escapes read back as the same characters
+    from simulator.report import script_json
+
+    encoded = script_json({"name": text, "values": [1.5, float("nan")]})
+    assert not re.search("[<>&\u2028\u2029]", encoded)
+    assert json.loads(encoded) == {"name": text, "values": [1.5, None]}
 
 
 def _explorer(html: str) -> dict:
