@@ -44,10 +44,12 @@ import os
 import re
 import secrets
 import shutil
+import stat
 from collections.abc import Mapping
 from pathlib import Path
 
 from .errors import InputError
+from .parallel import process_running
 
 __all__ = ["check_out_folder", "write_files", "MANIFEST"]
 
@@ -200,6 +202,7 @@ def write_files(files: Mapping[str, bytes], out: Path, force: bool) -> list[Path
         else:
             if target.is_dir():
                 _carry_over(target, staging, skip=previous | set(files) | {MANIFEST})
+                _same_owner_and_mode(target, staging)
             staging = _swap(staging, target)  # now the old folder, or None
     except BaseException as exc:  # also a stop (Ctrl-C, SIGTERM): leave nothing behind
         if staging is not None:
@@ -253,10 +256,13 @@ def _carry_over(old: Path, new: Path, skip: set[str]) -> None:
                     dirnames.remove(name)  # the new set has a file of that name: it wins
                 elif not any(os.scandir(source)):
                     destination.mkdir(exist_ok=True)
+                    shutil.copymode(source, destination)
                 continue
             if rel in skip or os.path.lexists(destination):
                 continue
-            destination.parent.mkdir(parents=True, exist_ok=True)
+            if not destination.parent.is_dir():
+                destination.parent.mkdir(parents=True)
+                shutil.copymode(here, destination.parent)
             if source.is_symlink():
                 os.symlink(os.readlink(source), destination)
             else:
@@ -264,6 +270,17 @@ def _carry_over(old: Path, new: Path, skip: set[str]) -> None:
                     os.link(source, destination)
                 except OSError:
                     shutil.copy2(source, destination)
+
+
+def _same_owner_and_mode(old: Path, new: Path) -> None:
+    """The new folder takes the old one's permission bits and, where allowed, its owner and group
+    (a folder shared with a team stays shared)."""
+    status = old.stat()
+    try:
+        os.chown(new, status.st_uid, status.st_gid)
+    except PermissionError:  # not root, and another owner: the folder becomes the user's own
+        pass
+    os.chmod(new, stat.S_IMODE(status.st_mode))
 
 
 def _swap(staging: Path, target: Path) -> Path | None:
@@ -367,18 +384,8 @@ def _remove_stale(folder: Path) -> None:
         return
     for entry in entries:
         match = _STAGING.match(entry.name)
-        if match and int(match.group(1)) != os.getpid() and not _alive(int(match.group(1))):
+        if match and int(match.group(1)) != os.getpid() and not process_running(int(match.group(1))):
             shutil.rmtree(entry.path, ignore_errors=True)
-
-
-def _alive(pid: int) -> bool:
-    try:
-        os.kill(pid, 0)
-    except ProcessLookupError:
-        return False
-    except OSError:  # another user's process
-        return True
-    return True
 
 
 def _make_parents(target: Path) -> list[Path]:

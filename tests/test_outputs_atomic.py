@@ -14,6 +14,7 @@ import errno
 import json
 import os
 import shutil
+import stat
 import subprocess
 import sys
 import tempfile
@@ -400,3 +401,15 @@ simulator.cli.app()
         assert list(parent.iterdir()) == []
     finally:
         shutil.rmtree(base, ignore_errors=True)
+
+
+def test_the_folder_keeps_its_permissions_across_a_swap(tmp_path):
+    out = tmp_path / "out"
+    write_files(result(1), out, force=False)
+    os.chmod(out, 0o2770)  # shared with a group, say
+    (out / "drafts").mkdir(mode=0o700)
+    (out / "drafts" / "memo.txt").write_text("memo\n")
+    drafts = stat.S_IMODE((out / "drafts").stat().st_mode)  # 0o2700: the set-group-ID bit is inherited
+    write_files(result(2), out, force=True)
+    assert stat.S_IMODE(out.stat().st_mode) == 0o2770
+    assert stat.S_IMODE((out / "drafts").stat().st_mode) == drafts
