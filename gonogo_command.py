@@ -35,7 +35,9 @@ def stop_name(stop: BaseException) -> tuple[int, str]:
 
 def main() -> None:
     """Load the command line, then run it (``gonogo`` in a shell)."""
-    previous = {s: signal.signal(s, raise_stopped) for s in (signal.SIGINT, signal.SIGTERM)}
+    # a signal ignored from the start (a background job of a script, nohup) stays ignored
+    previous = {s: signal.signal(s, raise_stopped) for s in (signal.SIGINT, signal.SIGTERM)
+                if signal.getsignal(s) is not signal.SIG_IGN}
     try:
         from simulator.cli import app
     except KeyboardInterrupt as stop:

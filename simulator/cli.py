@@ -67,7 +67,9 @@ def _stops(unfinished: str = "the run did not finish and the output folder is as
     (:func:`simulator.parallel.open_executor`), and a result set being written is taken away whole
     (:func:`simulator.result_set.write_files`). Click would otherwise print "Aborted!" with status 1.
     """
-    own = threading.current_thread() is threading.main_thread()
+    # only in the main thread, and never where SIGTERM was ignored from the start (nohup and the like)
+    own = (threading.current_thread() is threading.main_thread()
+           and signal.getsignal(signal.SIGTERM) is not signal.SIG_IGN)
     previous = signal.signal(signal.SIGTERM, raise_stopped) if own else None
     try:
         yield

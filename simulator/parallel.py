@@ -182,7 +182,7 @@ def _without_ctrl_c() -> Iterator[None]:
     previous: dict[int, Any] = {}
     if threading.current_thread() is threading.main_thread():
         previous = {s: signal.signal(s, lambda signum, frame: noted.append(signum))
-                    for s in (signal.SIGINT, signal.SIGTERM)}
+                    for s in (signal.SIGINT, signal.SIGTERM) if signal.getsignal(s) is not signal.SIG_IGN}
     mask = (signal.pthread_sigmask(signal.SIG_BLOCK, {signal.SIGINT}) if hasattr(signal, "pthread_sigmask")
             else None)
     try:

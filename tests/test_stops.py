@@ -33,7 +33,10 @@ import pytest
 
 pytestmark = pytest.mark.skipif(not sys.platform.startswith("linux"), reason="reads /proc and /dev/shm")
 
-ENTRY = "from gonogo_command import main; main()"  # what the gonogo script runs
+# what the gonogo script runs, with Ctrl-C handled as in a terminal's foreground job even where the
+# test runner was started with it ignored (a background job of a script is), which a child inherits
+ENTRY = ("import signal; signal.signal(signal.SIGINT, signal.default_int_handler); "
+         "from gonogo_command import main; main()")
 ROOT = Path(__file__).resolve().parents[1]
 PROCESSES_OF_A_RUN = 5  # its own, the resource tracker, the forkserver and 2 workers
 WITHIN = 10.0  # seconds for a stopped run to end, and for what it started to end after it
