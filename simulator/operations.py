@@ -453,9 +453,9 @@ class RulesPricer:
         if section is None:
             raise ValueError("scenario has no [operations] section")
         label = str(scenario.source) if scenario.source else "scenario"
-        if history.step_days != 1:
+        if not history.frequency.is_daily:
             raise InputError(f"{label} [operations]: the rules are played day by day, but the history "
-                             f"has one forecast every {history.step_days} days; give daily forecasts")
+                             f"is {history.frequency.describe()}; give daily forecasts")
         self.rules = make_rules(section, calendar.dates, scenario.season.weekdays, label)
         self.n_cutoffs = int(cutoffs.size)
         self.n_lanes = self.n_cutoffs + len(BASELINES)

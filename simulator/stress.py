@@ -473,7 +473,7 @@ def _run_case(case: StressCase, base: _Base) -> StressResult:
                                {n: baselines[:, i] for i, n in enumerate(BASELINES)}, rate_check))
     return StressResult(name=case.name, changes=case.model_dump(exclude_none=True, exclude={"name"}),
                         costs=costs, theoretical_cutoff=break_even_probability(costs),
-                        mean_block_days=sampler.mean_block * history.step_days,
+                        mean_block_days=sampler.mean_block * base.calendar.spacing_days,
                         seasons_used=seasons_used, event_rate=rate_check, views=tuple(out_views),
                         warnings=tuple(warnings))
 
@@ -489,7 +489,7 @@ def _case_resampler(case: StressCase, base: _Base, warnings: list[str]) -> tuple
     if case.worst_seasons is None and case.block_days is None:
         return base.resampler, None
     history = base.history
-    mean_block = (max(1.0, case.block_days / history.step_days) if case.block_days is not None
+    mean_block = (max(1.0, case.block_days / base.calendar.spacing_days) if case.block_days is not None
                   else base.resampler.mean_block)
     seasons_used = None
     if case.worst_seasons is not None:
