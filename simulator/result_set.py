@@ -416,6 +416,7 @@ def _remove_made(made: list[Path]) -> None:
 
 def _unwritable(out: Path, exc: OSError) -> InputError:
     reason = _REASONS.get(exc.errno, (exc.strerror or type(exc).__name__).lower())
-    what = "free some space" if exc.errno in (errno.ENOSPC, errno.EDQUOT) else "check the folder's rights"
-    return InputError(f"{_shown(out)}: cannot write the results there ({reason}); {what}, or choose another --out. "
-                      "Nothing was written")
+    remedy = {errno.ENOSPC: "free some space, or ", errno.EDQUOT: "free some space, or ",
+              errno.EACCES: "check the folder's rights, or ", errno.EPERM: "check the folder's rights, or "}
+    return InputError(f"{_shown(out)}: cannot write the results there ({reason}); "
+                      f"{remedy.get(exc.errno, '')}choose another --out. Nothing was written")

@@ -274,21 +274,29 @@ def test_force_over_a_run_with_stress_cases_and_a_validation_split_removes_their
 # a full disk
 
 
-@pytest.fixture
-def small_disk(tmp_path):
-    """A 1 MiB tmpfs mounted for the test (needs root, and a sandbox that allows mounts)."""
-    mount = tmp_path / "disk"
-    mount.mkdir()
+def mounted(folder: Path, options: str):
+    """A 1 MiB tmpfs mounted at ``folder`` for a test (needs root, and a sandbox that allows mounts)."""
+    folder.mkdir()
     if os.geteuid() != 0:
         pytest.skip("mounting a small tmpfs needs root; this test runs as another user")
-    done = subprocess.run(["mount", "-t", "tmpfs", "-o", "size=1m", "tmpfs", str(mount)],
+    done = subprocess.run(["mount", "-t", "tmpfs", "-o", f"size=1m,{options}", "tmpfs", str(folder)],
                           capture_output=True, text=True)
     if done.returncode != 0:
         pytest.skip(f"this machine refused to mount a tmpfs: {done.stderr.strip()}")
     try:
-        yield mount
+        yield folder
     finally:
-        subprocess.run(["umount", str(mount)], check=False)
+        subprocess.run(["umount", str(folder)], check=False)
+
+
+@pytest.fixture
+def small_disk(tmp_path):
+    yield from mounted(tmp_path / "disk", "rw")
+
+
+@pytest.fixture
+def read_only_disk(tmp_path):
+    yield from mounted(tmp_path / "read-only", "ro")
 
 
 def fill(disk: Path, leave: int) -> None:
@@ -303,7 +311,8 @@ def test_a_full_disk_gives_one_line_and_leaves_nothing(good, small_disk, without
     before = snapshot(small_disk)
     out = small_disk / "out"
     message = assert_one_line(gonogo("run", good, "--out", out, "--quiet"), "no space left on the device")
-    assert message.startswith(f"error: {out}: cannot write the results there")
+    assert message == (f"error: {out}: cannot write the results there (no space left on the device); free "
+                       "some space, or choose another --out. Nothing was written")
     assert snapshot(small_disk) == before  # no folder, no staging folder, no temporary file
     assert sorted(p.name for p in small_disk.iterdir()) == ["filler"]
 
@@ -322,6 +331,13 @@ def test_a_full_disk_over_earlier_results_leaves_them_as_they_were(good, small_d
 
 # ------------------------------------------------------------------------------------------------
 # a folder the results could not go to: refused before any work
+
+
+def test_a_read_only_file_system_is_refused_before_any_work(good, read_only_disk, never_runs):
+    out = read_only_disk / "out"
+    message = assert_one_line(gonogo("run", good, "--out", out))
+    assert message == (f"error: {out}: cannot write the results there (the file system is read-only); "
+                       "choose another --out. Nothing was written")
 
 
 def test_a_parent_that_is_a_file_is_refused_before_any_work(good, tmp_path, never_runs):
