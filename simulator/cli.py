@@ -439,7 +439,7 @@ def demo_command(
     """
     from .demo import write_demo_files
 
-    with _stops(), _user_errors():
+    with _stops("the demo did not finish; the results in the output folder are as they were"), _user_errors():
         check_out_folder(out, force)
         scenario_path = write_demo_files(out)
         scenario = read_scenario(scenario_path)

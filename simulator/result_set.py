@@ -61,9 +61,10 @@ _AT_FDCWD = -100  # linux/fcntl.h
 
 _REASONS = {errno.EACCES: "permission denied", errno.EPERM: "not permitted",
             errno.EROFS: "the file system is read-only", errno.ENOSPC: "no space left on the device",
-            errno.EDQUOT: "the disk quota is used up", errno.ENAMETOOLONG: "a name is too long for the file system",
-            errno.ENOTDIR: "a part of the path is a file, not a folder", errno.ELOOP: "too many symbolic links",
-            errno.EIO: "input/output error"}
+            errno.EDQUOT: "the disk quota is used up",
+            errno.ENAMETOOLONG: "a name is too long for the file system",
+            errno.ENOTDIR: "a part of the path is a file, not a folder",
+            errno.ELOOP: "too many symbolic links", errno.EIO: "input/output error"}
 
 
 # ------------------------------------------------------------------------------------------------
