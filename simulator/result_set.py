@@ -150,7 +150,7 @@ def _probe(out: Path) -> None:
         if not target.exists():
             target.mkdir()
             made.append(target)
-        staging = _staging_path(target)
+        staging = _staging_path(target, inside=_not_renamable(target))
         staging.mkdir()
         made.append(staging)
         if not os.access(target, os.R_OK | os.W_OK | os.X_OK):

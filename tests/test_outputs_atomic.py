@@ -10,6 +10,7 @@ exit status 2, no traceback). Common practice, no single source.
 
 from __future__ import annotations
 
+import contextlib
 import errno
 import json
 import os
@@ -190,6 +191,18 @@ def test_a_folder_that_cannot_be_renamed_is_written_in_place(tmp_path, monkeypat
     assert not (out / "figures" / "stress.png").exists()
 
 
+def test_a_mounted_output_folder_in_a_read_only_parent_is_written_in_place(tmp_path):
+    """As a container's volume: the folder is a mount point (it cannot be renamed) in a read-only
+    parent; the set is staged inside it and renamed into place."""
+    with mounted(tmp_path / "parent", "rw") as parent, mounted(parent / "out", "rw") as out:
+        subprocess.run(["mount", "-o", "remount,ro", str(parent)], check=True)
+        write_files(result(1, stress=True), out, force=False)
+        (out / "notes.txt").write_text("mine\n")
+        write_files(result(2), out, force=True)
+        assert sorted(snapshot(out)) == sorted([*result(2), MANIFEST, "notes.txt"])
+        assert leftovers(out) == []
+
+
 @pytest.mark.parametrize("moment", ["before", "after"])
 def test_a_process_killed_at_the_swap_leaves_one_whole_set(tmp_path, moment):
     out = tmp_path / "out"
@@ -274,6 +287,7 @@ def test_force_over_a_run_with_stress_cases_and_a_validation_split_removes_their
 # a full disk
 
 
+@contextlib.contextmanager
 def mounted(folder: Path, options: str):
     """A 1 MiB tmpfs mounted at ``folder`` for a test (needs root, and a sandbox that allows mounts)."""
     folder.mkdir()
@@ -291,12 +305,14 @@ def mounted(folder: Path, options: str):
 
 @pytest.fixture
 def small_disk(tmp_path):
-    yield from mounted(tmp_path / "disk", "rw")
+    with mounted(tmp_path / "disk", "rw") as disk:
+        yield disk
 
 
 @pytest.fixture
 def read_only_disk(tmp_path):
-    yield from mounted(tmp_path / "read-only", "ro")
+    with mounted(tmp_path / "read-only", "ro") as disk:
+        yield disk
 
 
 def fill(disk: Path, leave: int) -> None:
