@@ -323,6 +323,9 @@ def prepare(workers: int | None = 1, cluster: Any = None) -> None:
 
 
 def _start_forkserver(context: multiprocessing.context.BaseContext) -> None:
+    """The resource tracker, then the forkserver where it is the start method, started deaf to Ctrl-C."""
+    if os.name != "posix":  # neither exists
+        return
     from multiprocessing import resource_tracker
 
     _quiet_tracker()
