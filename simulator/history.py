@@ -19,6 +19,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
+from . import decimals
 from .errors import InputError, closest, did_you_mean, read_input_file
 from .scenario import WEEKDAYS, HistorySection, Scenario, SeasonSection
 
@@ -43,7 +44,8 @@ class History:
     (:func:`history_frequency`); the priced season is laid on it.
 
     A history of many sites (``[history] site_column``) holds every site's rows, grouped by site in
-    the order the sites first appear in the file and in date order within each: ``site`` gives each
+    the order of the sites' names (so the order they are listed in changes no figure of a run, not
+    even the last bit of a sum over sites) and in date order within each: ``site`` gives each
     row's site as an index into ``site_names``, and ``prev_event`` looks back within the site.
     :meth:`for_site` gives one site's rows as a history of its own. Without a site column ``site``
     is None and ``site_names`` empty.
@@ -333,7 +335,7 @@ def history_from_frame(frame: pd.DataFrame, scenario: Scenario, *, label: str = 
         first_of_site[1:] = codes[1:] != codes[:-1]
 
     if scenario.event.flip:
-        p = 1.0 - p
+        p = decimals.complement(p)  # exact: the complement of 0.56 is 0.44 (see decimals.py)
         event = ~event
 
     site_rows = ([np.ones(len(dates), dtype=bool)] if codes is None
@@ -434,11 +436,11 @@ def _missing_site_dates(union: np.ndarray, site_dates: list[np.ndarray], names: 
 
 
 def _parse_sites(values: pd.Series, where: "_Where", column: str) -> tuple[np.ndarray, tuple[str, ...]]:
-    """Each row's site as an index into the site names, in order of first appearance."""
+    """Each row's site as an index into the site names, sorted by name (see :class:`History`)."""
     blank = _blank(values)
     if blank.any():
         raise where.error(np.flatnonzero(blank)[0], column, "the site is missing; name the site on every row")
-    codes, names = pd.factorize(values.astype(str).str.strip())
+    codes, names = pd.factorize(values.astype(str).str.strip(), sort=True)
     return codes.astype(np.int64), tuple(str(n) for n in names)
 
 
@@ -544,6 +546,7 @@ def _parse_numbers(values: pd.Series, where: _Where, column: str, missing: str, 
 def _parse_probability(values: pd.Series, where: _Where, column: str) -> np.ndarray:
     numbers = _parse_numbers(values, where, column, "the probability is missing; fill it in (0 to 1)",
                              "; write a probability from 0 to 1")
+    numbers = decimals.snap(numbers)  # kept as 12-decimal values, the grid every comparison uses
     outside = (numbers < 0) | (numbers > 1)
     if outside.any():
         i = np.flatnonzero(outside)[0]

@@ -30,6 +30,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
+from . import decimals
 from .blocklength import optimal_block_length
 from .costs import PricedBlock, SeasonPricer, occasion_costs
 from .decision import Decision, Distribution, decide, distribution
@@ -113,7 +114,7 @@ class Portfolio:
     beside the run's common cutoff (the one cutoff for all sites with the lowest mean total).
 
     ``own_cost``, ``common_cost`` and ``reference_cost`` are totals over the sites, each
-    (n_replicates,). ``table`` is ``sites.csv``: one row per site in the order of the history.
+    (n_replicates,). ``table`` is ``sites.csv``: one row per site in the order of the history (by name).
     """
 
     site_column: str
@@ -499,7 +500,7 @@ def _site_result(work: "_Work", k: int, block: PricedBlock) -> SiteResult:
 
 
 def _sites_table(sites: Sequence[SiteResult], common: int) -> pd.DataFrame:
-    """``sites.csv``: one row per site, in the order of the history."""
+    """``sites.csv``: one row per site, in the order of the history (by name)."""
     values = [site.forecast_value for site in sites]
     order = sorted(range(len(sites)), key=lambda i: -values[i])
     rank = np.empty(len(sites), dtype=np.int64)
@@ -814,6 +815,6 @@ def choose_mean_block(history: History, scenarios: Sequence[Scenario], calendar:
         own = site == k
         p_star = break_even_probability(scenario.costs)
         series = (event[own].astype(float) if np.isnan(p_star)
-                  else occasion_costs(p[own] >= p_star, event[own], scenario.costs))
+                  else occasion_costs(decimals.reaches(p[own], p_star), event[own], scenario.costs))
         total += np.bincount(index[own], weights=series, minlength=dates.size)
     return max(1.0, float(optimal_block_length(total)))

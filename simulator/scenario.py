@@ -8,7 +8,6 @@ always best produces a warning (returned, never printed: ``cli.py`` prints).
 from __future__ import annotations
 
 import hashlib
-import math
 import tomllib
 import typing
 from datetime import date, datetime, time
@@ -19,6 +18,7 @@ import numpy as np
 from pydantic import (BaseModel, ConfigDict, Field, ValidationError, create_model, field_validator,
                       model_validator)
 
+from . import decimals
 from .errors import InputError, did_you_mean, read_input_file
 
 __all__ = ["Scenario", "Costs", "read_scenario", "scenario_from_text", "cutoff_grid",
@@ -87,11 +87,11 @@ class DecisionSection(_Section):
             raise ValueError(f"from and to must satisfy 0 <= from < to <= 1, got {lo} and {hi}")
         if step <= 0:
             raise ValueError(f"the step must be positive, got {step}")
-        n = (hi - lo) / step
-        if abs(n - round(n)) > 1e-6:
+        n = decimals.whole_steps(lo, hi, step)
+        if n is None:
             raise ValueError(f"the step {step} does not divide {lo} to {hi} into whole steps")
-        if round(n) + 1 > 10001:
-            raise ValueError(f"{round(n) + 1} cutoffs is too many; use a step of at least 0.0001")
+        if n + 1 > 10001:
+            raise ValueError(f"{n + 1} cutoffs is too many; use a step of at least 0.0001")
         return value
 
 
@@ -408,14 +408,9 @@ class Scenario(_Section):
 
 
 def cutoff_grid(lo: float, hi: float, step: float) -> np.ndarray:
-    """Cutoffs from ``lo`` to ``hi`` by ``step``, both ends included, rounded to the step's decimals.
-
-    Built with ``linspace`` and rounded, never ``arange`` with a float step (whose 0.3 is
-    0.30000000000000004; common practice, no single source).
-    """
-    n = int(round((hi - lo) / step)) + 1
-    decimals = max(0, -int(math.floor(math.log10(step)))) + 2
-    return np.round(np.linspace(lo, hi, n), decimals)
+    """Cutoffs from ``lo`` to ``hi`` by ``step``, both ends included, each the float nearest its
+    decimal (:func:`simulator.decimals.grid`)."""
+    return decimals.grid(lo, hi, step)
 
 
 def break_even_probability(costs: Costs) -> float:
