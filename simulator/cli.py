@@ -26,11 +26,11 @@ from rich.text import Text
 from gonogo_command import raise_stopped, stop_name
 
 from . import __version__
+from .account import account, money, season_name, seasons_text, share, signed_money, strategy_label
 from .errors import InputError
 from .history import read_history
 from .outputs import check_out_folder, render_files, summary, write_files
 from .parallel import CLUSTER_ENV
-from .report import share
 from .run import RunResult, run
 from .scenario import Costs, Scenario, read_scenario
 
@@ -102,64 +102,14 @@ def _progress_bar(enabled: bool):
         yield update
 
 
-def _money(value: float, currency: str) -> str:
-    return f"{value:,.0f} {currency}"
-
-
-def _ranges(ranges: list) -> str:
-    return ", ".join(f"{lo:.2f} to {hi:.2f}" for lo, hi in ranges) or "none"
-
-
 def _headline(result: RunResult) -> Table:
-    s = summary(result)
-    cur = s["currency"]
-    model = s["strategies"]["model"]
-    ref = s["reference"]
-    lo, hi = s["recommended_cutoff_interval"]
-    table = Table(title=f"{s['scenario']['name']}: act (\"{s['scenario']['action']}\") when the "
-                        f"probability of \"{s['scenario']['event']}\" is at least the cutoff",
-                  show_header=False, title_justify="left")
+    """The run's account (:func:`simulator.account.account`) as a two-column table."""
+    told = account(summary(result))
+    table = Table(title=told.title, show_header=False, title_justify="left")
     table.add_column(style="bold")
     table.add_column()
-    p_star = s["theoretical_cutoff"]
-    if p_star is not None:
-        p_star = f"{p_star:.2f}"
-    else:
-        p_star = "different at each site (sites.csv)" if s.get("portfolio") else "undefined"
-    table.add_row("Recommended cutoff", f"{s['recommended_cutoff']:.2f}  (90% interval {lo:.2f} to {hi:.2f}; "
-                                        f"break-even probability of the costs {p_star})")
-    table.add_row("Expected season cost", f"{_money(model['mean'], cur)}  (90% of seasons "
-                                          f"{_money(model['p05'], cur)} to {_money(model['p95'], cur)})")
-    sv = s["savings"]
-    table.add_row(f"Saving against {ref}", f"{_money(sv['mean'], cur)}  (90% range {_money(sv['p05'], cur)} to "
-                                           f"{_money(sv['p95'], cur)}; saves money in "
-                                           f"{share(sv['prob_saving'])} of seasons)")
-    table.add_row(f"Cutoffs that beat {ref}", _ranges(s["break_even"]) + "  (on average); "
-                  + _ranges(s["confident_break_even"]) + " (in 95% of seasons)")
-    table.add_row("Season", f"{s['season_occasions']} occasions, {s['replicates']} replicate seasons, "
-                            f"mean run {s['mean_block_days']:.1f} days")
-    portfolio = s.get("portfolio")
-    if portfolio:  # the rows above are all sites together at one common cutoff
-        own = portfolio["total_cost"]["own_cutoffs"]
-        best = portfolio["ranking"][0]
-        table.add_row(f"{portfolio['sites']} sites", f"totals at one cutoff for all; each site at its own cutoff "
-                      f"{_money(own['mean'], cur)} (90% of seasons {_money(own['p05'], cur)} to "
-                      f"{_money(own['p95'], cur)}); forecast worth most at \"{best['site']}\" "
-                      f"({_money(best['forecast_value'], cur)} a season); per site: sites.csv")
-    operations = s.get("operations")
-    if operations:
-        at = operations["at_recommended_cutoff"]
-        done = at.get("completion_date") or {}
-        finish = (f"work done by {done['p50']} in half the seasons (90%: {done['p05']} to {done['p95']}); "
-                  if done.get("p50") else "")
-        table.add_row("Under the operating rules",
-                      f"{finish}late in {share(at['share_late'])} of seasons "
-                      f"(mean {at['days_late']['mean']:.1f} days late); safety stop decided "
-                      f"{at['safety_stop_days']['mean']:.1f} days a season")
-    for name, d in s["strategies"].items():
-        if name != "model":
-            table.add_row(f"  {name}", f"{_money(d['mean'], cur)}  ({_money(d['p05'], cur)} to "
-                                       f"{_money(d['p95'], cur)})")
+    for finding in told.first:
+        table.add_row(finding.label, finding.text)
     return table
 
 
@@ -179,17 +129,25 @@ def _fitted_table(title: str, headers: list[tuple[str, str]], rows: list[list[st
     return text
 
 
+def _labels(result: RunResult) -> tuple[str, str, list[int]]:
+    """The reference rule in plain words, the unit of an occasion, and the season's months."""
+    s = result.scenario
+    unit = "day" if result.history.frequency.is_daily else "occasion"
+    return (strategy_label(result.reference, s.decision.action, s.event.name, unit), unit,
+            list(s.season.months))
+
+
 def _stress_tables(result: RunResult) -> list:
     """The stress cases as one table, then each case's headline sentence."""
     if not result.stress:
         return []
     cur = result.scenario.currency
     base_cutoff = result.decision.recommended_cutoff
-    ref = result.reference
+    ref, _, _ = _labels(result)
     base = result.strategies["model"]
-    savings = result.baseline_cost[ref] - result.model_cost[:, result.decision.recommended_index]
-    rows = [["base case", f"{result.quality['event_rate']:.3f}", f"{base.mean:,.0f}", "",
-             f"{base_cutoff:.2f}", "", f"{savings.mean():,.0f} ({share((savings > 0).mean())})"]]
+    savings = result.baseline_cost[result.reference] - result.model_cost[:, result.decision.recommended_index]
+    rows = [["base case", f"{result.quality['event_rate']:.3f}", money(base.mean, ""), "",
+             f"{base_cutoff:.2f}", "", f"{money(savings.mean(), '')} ({share((savings > 0).mean())})"]]
     sentences = []
     for case in result.stress:
         rate = case.event_rate
@@ -198,11 +156,11 @@ def _stress_tables(result: RunResult) -> list:
             if rate is not None:
                 shown = f"{rate.achieved:.3f}" + ("" if rate.reached else f" (aim {rate.target:.3f})")
             label = case.name if v.probabilities == "as_forecast" else "  adapted"
-            rows.append([label, shown, f"{v.strategies['model'].mean:,.0f}", f"{v.extra_cost:+,.0f}",
-                         f"{v.best_cutoff:.2f}", f"{v.saved_by_moving:,.0f}",
-                         f"{v.savings.mean:,.0f} ({share(v.prob_saving)})"])
+            rows.append([label, shown, money(v.strategies["model"].mean, ""), signed_money(v.extra_cost, ""),
+                         f"{v.best_cutoff:.2f}", money(v.saved_by_moving, ""),
+                         f"{money(v.savings.mean, '')} ({share(v.prob_saving)})"])
             sentences.append(f"- {v.headline}")
-    table = _fitted_table(f"Stress tests, {cur} a season (means over replicate seasons)",
+    table = _fitted_table(f"Stress tests, {cur} a season (means over simulated seasons)",
                           [("", "Case"), ("Event", "rate"), ("Cost at", f"{base_cutoff:.2f}"), ("", "Change"),
                            ("Best", "cutoff"), ("Saved by", "moving"), ("Saving", "(share)")], rows)
     note = (f"Saving: against {ref} at {base_cutoff:.2f}, mean and the share of seasons that save. "
@@ -211,22 +169,26 @@ def _stress_tables(result: RunResult) -> list:
 
 
 def _selection_tables(result: RunResult) -> list:
-    """The validation check and the walk-forward, when run."""
+    """The validation check and the walk-forward, when run: each at the cutoff chosen on the
+    period before it (the report shows the same tables)."""
     sel = result.selection
     if sel is None:
         return []
     cur = result.scenario.currency
+    ref, unit, months = _labels(result)
+    rules = result.scenario.operations is not None
+    per = f"{unit} played" if rules else unit
     out: list = []
     if sel.validation is not None:
         v = sel.validation
         t, val = v.training, v.validation
-        fixed = (" (each past season played under the operating rules on this season's calendar)"
-                 if result.scenario.operations is not None else "")
-        table = Table(title=f"Chosen on the training period, priced on the validation period: cutoff "
-                            f"{v.chosen_cutoff:.2f}{fixed}", title_justify="left")
+        played = (" (each past season played under the operating rules on this season's calendar)"
+                  if rules else "")
+        table = Table(title=f"Cutoff chosen on the training period, {v.chosen_cutoff:.2f}, priced on both "
+                            f"periods{played}", title_justify="left")
         table.add_column("")
-        table.add_column(f"training {t.start[:4]}-{t.end[:4]}", justify="right")
-        table.add_column(f"validation {val.start[:4]}-{val.end[:4]}", justify="right")
+        table.add_column(f"training {seasons_text(t.start, t.end, months)}", justify="right")
+        table.add_column(f"validation {seasons_text(val.start, val.end, months)}", justify="right")
         for key, label in (("hits", "hits"), ("false_alarms", "false alarms"), ("misses", "misses"),
                            ("correct_negatives", "correct negatives")):
             table.add_row(label, str(getattr(t, key)), str(getattr(val, key)))
@@ -234,36 +196,32 @@ def _selection_tables(result: RunResult) -> list:
                            ("miss_rate", "miss rate (events)"),
                            ("false_alarm_rate", "false alarm rate (non-events)")):
             table.add_row(label, f"{getattr(t, key):.3f}", f"{getattr(val, key):.3f}")
-        table.add_row("cost per occasion", _money(t.cost_per_occasion, cur), _money(val.cost_per_occasion, cur))
+        table.add_row(f"cost per {per}", money(t.cost_per_occasion, cur), money(val.cost_per_occasion, cur))
         out.append(table)
         lo, hi = v.expected_range
-        verdict = (f"[bold]worse than the training range ({_money(lo, cur)} to {_money(hi, cur)} per "
-                   "occasion): overfitted, or the world changed[/bold]" if v.flag else
-                   f"within what training leads one to expect (up to {_money(hi, cur)} per occasion)")
-        out.append(f"Validation cost at {v.chosen_cutoff:.2f}: {_money(val.cost, cur)}, {verdict}. With "
-                   f"hindsight the validation period's best cutoff, {v.validation_best_cutoff:.2f}, costs "
-                   f"{_money(v.validation_best_cost, cur)}: the optimism of choosing on the past is "
-                   f"{_money(v.optimism, cur)}.")
+        verdict = (f"[bold]worse than the training range ({money(lo, cur)} to {money(hi, cur)} per "
+                   f"{per}): overfitted, or the world changed[/bold]" if v.flag else
+                   f"within what training leads one to expect (up to {money(hi, cur)} per {per})")
+        out.append(f"Validation period at {v.chosen_cutoff:.2f}: {money(val.cost, cur)} in all, {verdict}. "
+                   f"With hindsight the validation period's best cutoff, {v.validation_best_cutoff:.2f}, costs "
+                   f"{money(v.validation_best_cost, cur)}: the optimism of choosing on the past is "
+                   f"{money(v.optimism, cur)} over the validation period.")
     if sel.walk_forward is not None:
         w = sel.walk_forward
-        rows = []
-        for s in w.steps:
-            lo, hi = s.expected_range
-            rows.append([str(s.season), f"{s.priced.cutoff:.2f}", f"{s.priced.cost_per_occasion:,.0f}",
-                         f"{s.training.cost_per_occasion:,.0f}", f"{lo:,.0f}-{hi:,.0f}",
-                         "worse" if s.flag else "", f"{s.best_cutoff:.2f}",
-                         f"{s.reference_cost / s.priced.n_occasions:,.0f}"])
+        rows = [[season_name(s.season, months), f"{s.priced.cutoff:.2f}", money(s.priced.cost, ""),
+                 f"{s.best_cutoff:.2f}", money(s.best_cost, ""), money(s.reference_cost, ""),
+                 "worse" if s.flag else ""] for s in w.steps]
         table = _fitted_table(f"Walk-forward: each season priced at the cutoff chosen on the seasons "
-                              f"before it ({cur} per occasion)",
-                              [("", "Season"), ("", "Cutoff"), ("", "Cost"), ("", "Training"),
-                               ("Training", "90% range"), ("", "Flag"), ("Hindsight", "cutoff"),
-                               ("", result.reference)], rows)
+                              f"before it ({cur} a season)",
+                              [("", "Season"), ("Chosen", "before it"), ("", "Cost"), ("Hindsight", "cutoff"),
+                               ("", "Its cost"), ("Reference", "rule"), ("", "Flag")], rows)
         out.append(table)
-        flagged = ", ".join(str(x) for x in w.flagged_seasons) or "none"
-        out.append(f"Walk-forward total {_money(w.total_cost, cur)} against {_money(w.in_sample_cost, cur)} "
-                   f"with one cutoff chosen in hindsight ({w.in_sample_cutoff:.2f}): optimism "
-                   f"{_money(w.optimism, cur)}; saving against {result.reference} "
-                   f"{_money(w.savings, cur)}. Seasons dearer than their training range: {flagged}.")
+        flagged = ", ".join(season_name(x, months) for x in w.flagged_seasons) or "none"
+        out.append(f"Reference rule: {ref}. Walk-forward total {money(w.total_cost, cur)} over "
+                   f"{len(w.steps)} seasons, against {money(w.in_sample_cost, cur)} with one cutoff chosen in "
+                   f"hindsight ({w.in_sample_cutoff:.2f}): optimism {money(w.optimism, cur)}; saving against the "
+                   f"reference rule {money(w.savings, cur)}. Seasons dearer per {per} than their training "
+                   f"range: {flagged}.")
     return out
 
 
@@ -281,12 +239,12 @@ def _sites_tables(result: RunResult) -> list:
     more = (f"... and {len(frame) - len(shown)} more sites: sites.csv" if len(frame) > len(shown)
             else "Per site, with every figure: sites.csv")
     rows = [[r.site, f"{r.recommended_cutoff:.2f}", f"{r.recommended_cutoff_low:.2f}-{r.recommended_cutoff_high:.2f}",
-             f"{r.mean_cost:,.0f}", f"{r.mean_savings:,.0f} ({share(r.prob_saving)})", f"{r.forecast_value:,.0f}"]
+             money(r.mean_cost, ""), f"{money(r.mean_savings, '')} ({share(r.prob_saving)})", money(r.forecast_value, "")]
             for r in shown.itertuples()]
     out: list = [_fitted_table(f"Each site at its own cutoff ({cur} a season; by the value of the forecast)",
                                [("", "Site"), ("Own", "cutoff"), ("90%", "interval"), ("Mean", "cost"),
-                                ("Saving against", f"{result.reference} (share)"), ("Value of", "forecast")],
-                               rows), more]
+                                ("Saving against", "reference (share)"), ("Value of", "forecast")],
+                               rows), f"Reference rule: {_labels(result)[0]}. {more}"]
     validation, forward = "validation_chosen_cutoff" in frame.columns, "walk_forward_cost" in frame.columns
     if validation or forward:
         headers = [("", "Site")]
@@ -296,11 +254,11 @@ def _sites_tables(result: RunResult) -> list:
         for r in shown.itertuples():
             row = [r.site]
             if validation:
-                row += [f"{r.validation_chosen_cutoff:.2f}", f"{r.validation_optimism:,.0f}",
+                row += [f"{r.validation_chosen_cutoff:.2f}", money(r.validation_optimism, ""),
                         "worse" if r.validation_flag else ""]
             if forward:
                 flagged = r.walk_forward_flagged_seasons
-                row += [f"{r.walk_forward_optimism:,.0f}", flagged if isinstance(flagged, str) else ""]
+                row += [money(r.walk_forward_optimism, ""), flagged if isinstance(flagged, str) else ""]
             rows.append(row)
         out.append(_fitted_table(f"Each site's cutoff chosen on the past, priced on later seasons ({cur})", headers,
                                  rows))

@@ -310,23 +310,32 @@ def components_chart(names: Sequence[str], values: Sequence[float], reference: S
         return Chart(_png(fig))
 
 
-def completion_chart(weeks: Sequence[str], shares: Sequence[float], deadline: str | None,
-                     words: Words) -> Chart:
-    """Share of simulated seasons with the work finished by the end of each week (a step curve)."""
+def completion_chart(dates: Sequence[str], shares: Sequence[float], reference: Sequence[float] | None,
+                     deadline: str | None, words: Words, reference_label: str = "Reference rule") -> Chart:
+    """Share of simulated seasons with the work finished by the end of each day (a daily step curve:
+    its height at the deadline is the share finished on time), at the cutoff and, when given, under
+    the reference rule."""
     with mpl.rc_context(_STYLE):
         fig = _figure(8.0, 3.6)
         ax = fig.add_subplot()
-        start = np.array(weeks, dtype="datetime64[D]")
-        end = start + 7  # finished during the week: counted from its end
-        done = 100 * np.cumsum(np.asarray(shares, dtype=float))
-        ax.step(np.concatenate([[start[0]], end]), np.concatenate([[0.0], done]), where="post",
-                color=OKABE_ITO["blue"], lw=2, label="Seasons with the work finished")
+        day = np.array(dates, dtype="datetime64[D]")
+        done = 100 * np.asarray(shares, dtype=float)
+        # finished during a day: counted from the end of it
+        ax.step(np.concatenate([[day[0]], day + 1]), np.concatenate([[0.0], done]), where="post",
+                color=OKABE_ITO["blue"], lw=2, label="Following the forecast at the recommended cutoff")
+        if reference is not None:
+            ax.step(np.concatenate([[day[0]], day + 1]), np.concatenate([[0.0], 100 * np.asarray(reference)]),
+                    where="post", color="#555555", lw=1.5, linestyle=(0, (1, 1.5)),
+                    label=f"{reference_label} (reference)")
         if deadline:
-            ax.axvline(np.datetime64(deadline, "D"), color=OKABE_ITO["vermillion"], lw=1.5,
-                       linestyle=(0, (4, 2)), label=f"Deadline {deadline}")
+            ax.axvline(np.datetime64(deadline, "D") + 1, color=OKABE_ITO["vermillion"], lw=1.5,
+                       linestyle=(0, (4, 2)), label=f"Deadline {deadline} (end of the day)")
         ax.set_ylim(0, 102)
+        started = (done > 0) | (100 * np.asarray(reference if reference is not None else done) > 0)
+        first = int(np.argmax(started)) if started.any() else 0
+        ax.set_xlim(day[max(first - 7, 0)], day[-1] + 1)  # from a week before the first season finishes
         ax.set_ylabel("Seasons finished (% of\nsimulated seasons)")
-        ax.set_xlabel("Date (end of the week the work was finished)")
+        ax.set_xlabel("Date (end of the day the work was finished)")
         ax.set_title("When the work gets done at the recommended cutoff")
         ax.legend(loc="upper left")
         fig.autofmt_xdate()
