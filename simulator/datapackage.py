@@ -64,7 +64,9 @@ _COLUMNS: dict[str, tuple[str, str]] = {
     "end": ("last date of the period", "date"),
     "n_occasions": ("occasions in the period", "count"),
     "cost": ("cost of acting at the cutoff over the period", "{cur} over the period"),
-    "cost_per_occasion": ("cost over the period divided by its occasions", "{cur} per occasion"),
+    "n_priced": ("occasions the period's cost is spread over: its own occasions, or under operating rules "
+                 "the days played", "count"),
+    "cost_per_occasion": ("cost over the period divided by n_priced", "{cur} per occasion"),
     "flag": ("true when the priced period cost more than the training period leads one to expect", "none"),
     "case": ("the stress case's name (base case: the scenario as it is)", "none"),
     "probabilities": ("as_forecast: probabilities as in the file; adapted: moved to the case's event rate "

@@ -129,9 +129,11 @@ def render_files(result: RunResult) -> dict[str, bytes]:
         "selection.csv": lambda: _csv(_selection_frame(result.selection)),
         "sites.csv": lambda: _csv(result.portfolio.table),
     }
-    files = {name: render[name]() for name in table_names(result)}  # the report lists the same names
     scenario = result.scenario
-    files["datapackage.json"] = datapackage(files, scenario.slug, scenario.name, scenario.currency)
+    render["datapackage.json"] = lambda: datapackage(files, scenario.slug, scenario.name, scenario.currency)
+    files: dict[str, bytes] = {}
+    for name in table_names(result):  # the report lists the same names; datapackage.json comes last
+        files[name] = render[name]()
     files.update(render_report(result, contents))
     return files
 
@@ -148,6 +150,7 @@ def table_names(result: RunResult) -> list[str]:
         names.append("selection.csv")
     if result.portfolio is not None:
         names.append("sites.csv")
+    names.append("datapackage.json")  # describes the CSV files above, so it comes after them
     return names
 
 

@@ -38,7 +38,8 @@ _CSV_SUFFIXES = (".csv", ".txt", ".tsv", "")
 _EXCEL_SUFFIXES = (".xlsx", ".xlsm")
 _COMMA_NUMBER = re.compile(r"^\s*[+-]?\d*,\d+\s*$")
 _POINT_NUMBER = re.compile(r"^\s*[+-]?\d*\.\d+\s*$")
-_PERCENT = re.compile(r"^\s*([+-]?\d*\.?\d+)\s*%\s*$")  # "35%", "12.5 %": cells formatted as percentages
+_PERCENT = re.compile(r"^\s*([+-]?(?:\d+(?:\.\d*)?|\.\d+))\s*%\s*$")
+_NUMBER_CHARS = 40  # a longer cell is no number of a spreadsheet's; patterns are not tried on it  # "35%", "12.5 %": cells formatted as percentages
 
 
 @dataclass(frozen=True)
@@ -240,7 +241,8 @@ def _distinct(column: pd.Series) -> tuple[np.ndarray, np.ndarray]:
 
 def _with_decimal_points(column: pd.Series) -> pd.Series:
     codes, cells = _distinct(column)
-    comma = pd.Series(cells, dtype=object).str.match(_COMMA_NUMBER).to_numpy(dtype=bool)
+    text = pd.Series(cells, dtype=object)
+    comma = text.where(text.str.len() <= _NUMBER_CHARS, "").str.match(_COMMA_NUMBER).to_numpy(dtype=bool)
     if not comma.any():
         return column
     cells[comma] = [cell.replace(",", ".") for cell in cells[comma]]
@@ -251,7 +253,8 @@ def _without_percent_signs(column: pd.Series) -> pd.Series:
     """Cells formatted as percentages in the spreadsheet ("35%") as the numbers they stand for
     ("0.35"), as the spreadsheet itself computes with them."""
     codes, cells = _distinct(column)
-    found = pd.Series(cells, dtype=object).str.extract(_PERCENT)[0]
+    text = pd.Series(cells, dtype=object)
+    found = text.where(text.str.len() <= _NUMBER_CHARS, "").str.extract(_PERCENT)[0]
     given = found.notna().to_numpy()
     if not given.any():
         return column
@@ -267,6 +270,7 @@ def _sniff_decimal(frame: pd.DataFrame, label: str, separator: str) -> str:
     for name in frame.columns:
         codes, cells = _distinct(frame[name])
         text = pd.Series(cells, dtype=object)
+        text = text.where(text.str.len() <= _NUMBER_CHARS, "")
         first = np.unique(codes, return_index=True)[1]
         for pattern, kind in ((_COMMA_NUMBER, "comma"), (_POINT_NUMBER, "point")):
             hits = np.flatnonzero(text.str.match(pattern).to_numpy(dtype=bool))
