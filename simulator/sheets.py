@@ -187,8 +187,11 @@ def _undecodable(raw: bytes, exc: UnicodeDecodeError, label: str, encoding: str,
     before = raw[start:exc.start].decode("latin-1")
     where = f"{label} row {row}"
     separator = _sniff_separator(header)
-    names = next(csv.reader([header], delimiter=separator), [])
-    index = next(csv.reader([before + "x"], delimiter=separator), [""]).__len__() - 1
+    try:
+        names = next(csv.reader([header[:10_000]], delimiter=separator), [])
+        index = len(next(csv.reader([before + "x"], delimiter=separator), [""])) - 1 if len(before) < 10_000 else -1
+    except csv.Error:
+        names, index = [], -1
     if 0 <= index < len(names) and len(names) > 1:
         where += f', column "{names[index].strip()}"'
     also = " nor as cp1252" if tried_cp1252 else ""
@@ -200,7 +203,8 @@ def _undecodable(raw: bytes, exc: UnicodeDecodeError, label: str, encoding: str,
 
 def _sniff_separator(text: str) -> str:
     """The separator that splits the first lines into the same number of fields, most of them."""
-    lines = [line for line in text[:200_000].splitlines()[:50] if line.strip()]
+    # the first lines, each cut short (a huge cell would pass the csv module's field limit)
+    lines = [line[:10_000] for line in text[:200_000].splitlines()[:50] if line.strip()]
     best, best_score = ",", (0, 0)
     for sep in SEPARATORS:
         counts = [len(row) for row in csv.reader(lines, delimiter=sep)]
