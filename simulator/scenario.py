@@ -216,8 +216,8 @@ class Costs(_Section):
     @model_validator(mode="before")
     @classmethod
     def _filled_in(cls, data):
-        if isinstance(data, dict) and any(isinstance(v, str) for v in data.values()):
-            blank = [k for k, v in data.items() if isinstance(v, str)]
+        if isinstance(data, dict) and COST_PLACEHOLDER in data.values():
+            blank = [k for k, v in data.items() if v == COST_PLACEHOLDER]
             raise ValueError(f"fill in the four costs ({', '.join(COST_KEYS)}: money per occasion in the "
                              f"scenario's currency, negative for income); {', '.join(blank)} "
                              f"{'is' if len(blank) == 1 else 'are'} not a number yet")
