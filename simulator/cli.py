@@ -7,6 +7,7 @@ printed as one line on standard error with exit status 2, and nothing is written
 from __future__ import annotations
 
 import json
+import re
 import sys
 from contextlib import contextmanager
 from pathlib import Path
@@ -34,8 +35,12 @@ app = typer.Typer(add_completion=False, no_args_is_help=True, pretty_exceptions_
 out_console = Console()
 err_console = Console(stderr=True)
 
-CAUTION = ("A cost-optimal cutoff never overrides safety rules, site risk assessments, local "
-           "regulations or licensed professional judgement.")
+_CONTROL = re.compile("[\x00-\x1f\x7f-\x9f]")
+
+
+def _printable(text: str) -> str:
+    """Text from a scenario or history made safe for a terminal: control characters removed."""
+    return _CONTROL.sub("", text)
 
 
 def _fail(error: InputError) -> None:
@@ -93,8 +98,14 @@ def _headline(result: RunResult) -> Table:
         p_star = f"{p_star:.2f}"
     else:
         p_star = "different at each site (sites.csv)" if s.get("portfolio") else "undefined"
-    table.add_row("Recommended cutoff", f"{s['recommended_cutoff']:.2f}  (90% interval {lo:.2f} to {hi:.2f}; "
-                                        f"break-even probability of the costs {p_star})")
+    verdict = s.get("verdict")
+    use = verdict is None or verdict["use_forecast"]
+    if verdict is not None:  # said first: whether to act on the forecast at all
+        table.add_row("Act on the forecast?" if use else f"Keep to {verdict['best_rule_without_forecast']}",
+                      Text(_printable(verdict["reason"])))
+    table.add_row("Recommended cutoff" if use else "Cutoff, if acting on it anyway",
+                  f"{s['recommended_cutoff']:.2f}  (90% interval {lo:.2f} to {hi:.2f}; "
+                  f"break-even probability of the costs {p_star})")
     table.add_row("Expected season cost", f"{_money(model['mean'], cur)}  (90% of seasons "
                                           f"{_money(model['p05'], cur)} to {_money(model['p95'], cur)})")
     sv = s["savings"]
@@ -105,6 +116,11 @@ def _headline(result: RunResult) -> Table:
                   + _ranges(s["confident_break_even"]) + " (in 95% of seasons)")
     table.add_row("Season", f"{s['season_occasions']} occasions, {s['replicates']} replicate seasons, "
                             f"mean run {s['mean_block_days']:.1f} days")
+    missed = s.get("events_without_action")
+    if missed is not None:  # a hazard: what the cutoff leaves unprotected
+        table.add_row(Text(_printable(f"\"{s['scenario']['event']}\" without action")),
+                      f"{missed['mean']:.1f} occasions a season at {missed['cutoff']:.2f} (90% of seasons "
+                      f"{missed['p05']:.0f} to {missed['p95']:.0f})")
     portfolio = s.get("portfolio")
     if portfolio:  # the rows above are all sites together at one common cutoff
         own = portfolio["total_cost"]["own_cutoffs"]
@@ -301,21 +317,26 @@ def _calibration_lines(result: RunResult) -> list:
 def _report_run(result: RunResult, out: Path, written: list[Path], quiet: bool, as_json: bool) -> None:
     for warning in result.warnings:
         err_console.print(f"warning: {warning}", markup=False, highlight=False, soft_wrap=True)
+    contents = summary(result)
+    hazard = result.scenario.event.hazard
+    cautions = [Text.assemble(("Caution: ", "bold"), (_printable(text), "bold" if i == 0 and hazard else ""))
+                for i, text in enumerate(contents["cautions"])]
+    if hazard and (quiet or as_json):  # a hazard's cautions are never silenced: standard error
+        for caution in cautions:
+            err_console.print(caution, soft_wrap=True)
     if as_json:
-        sys.stdout.write(json.dumps(summary(result), indent=2) + "\n")
+        sys.stdout.write(json.dumps(contents, indent=2) + "\n")
         return
     if quiet:
         return
-    hazard = result.scenario.event.hazard
-    caution = Text.assemble(("Caution: ", "bold"), (f'"{result.scenario.event.name}" is a hazard to people. '
-                                                    if hazard else "", "bold"), CAUTION)
     if hazard:  # said first, and again at the end
-        out_console.print(caution)
+        out_console.print(cautions[0], soft_wrap=True)
     out_console.print(_headline(result))
     for part in (_sites_tables(result) + _stress_tables(result) + _selection_tables(result)
                  + _calibration_lines(result)):
         out_console.print(part, soft_wrap=isinstance(part, Text))  # tables keep their lines whole
-    out_console.print(caution)
+    for caution in cautions:
+        out_console.print(caution, soft_wrap=True)
     out_console.print(f"Wrote {len(written)} files to {out}/; open {out / 'report.html'} to read the report")
 
 

@@ -25,14 +25,13 @@ import jinja2
 import numpy as np
 
 from . import __version__, figures
+from .cautions import GENERAL
 from .figures import Words
 
 __all__ = ["render_report", "headline_numbers", "recommendation", "format_value", "money", "share",
            "cutoff_text", "strategy_label", "FIELD_FORMATS", "CAUTION"]
 
-CAUTION = ("A cost-optimal cutoff does not replace safety rules, site risk assessments, local regulations "
-           "or licensed professional judgement. The numbers price money only; they do not weigh harm "
-           "to people.")
+CAUTION = GENERAL  # the general caution (simulator.cautions); summary["cautions"] lists every one of a run
 
 # how each cutoffs.csv column the explorer shows is written on the page
 FIELD_FORMATS = {"cutoff": "cutoff", "hits": "count", "false_alarms": "count", "misses": "count",
@@ -139,22 +138,33 @@ def headline_numbers(summary: Mapping[str, Any], decimals: int = 2) -> dict[str,
 
 
 def recommendation(summary: Mapping[str, Any], occasion: str = "day", decimals: int = 2) -> list[str]:
-    """The recommendation in three plain sentences, from ``summary.json`` alone."""
+    """The recommendation in plain sentences, from ``summary.json`` alone.
+
+    When the verdict (``summary["verdict"]``) finds the forecast not worth using, the first sentence
+    says so and which rule to keep to, and the cutoff is given only as what acting on the forecast
+    anyway would cost, not as advice.
+    """
     n = headline_numbers(summary, decimals)
     s = summary["scenario"]
     action, event = s["action"], s["event"]
     ref = strategy_label(summary["reference"], action, event, occasion)
+    verdict = summary.get("verdict")
+    more_or_less = "less" if summary["savings"]["mean"] >= 0 else "more"
+    if verdict is not None and not verdict["use_forecast"]:
+        anyway = (f"Acting on it anyway at its best cutoff in hindsight, {n['cutoff']}, a season would cost "
+                  f"{n['mean_cost']} on average (between {n['p05_cost']} and {n['p95_cost']} in 90% of simulated "
+                  f"seasons), {n['saving']} {more_or_less} than the reference rule ({ref}).")
+        return [verdict["reason"], anyway]
     first = (f"{_sentence_case(action)} when the forecast probability of \u201c{event}\u201d is "
              f"{n['cutoff']} or more: a season then costs {n['mean_cost']} on average, and between "
              f"{n['p05_cost']} and {n['p95_cost']} in 90% of simulated seasons.")
-    more_or_less = "less" if summary["savings"]["mean"] >= 0 else "more"
     second = (f"That is {n['saving']} a season {more_or_less} than the reference rule ({ref}), and "
               f"following the forecast saves money in {n['prob_saving']} of simulated seasons.")
     if summary["break_even"]:
         third = (f"Any cutoff from {n['break_even']} costs no more than the reference rule on average.")
     else:
         third = "No cutoff costs less than the reference rule on average: keep to the reference rule."
-    return [first, second, third]
+    return [first, second] + ([verdict["reason"]] if verdict is not None else []) + [third]
 
 
 # ------------------------------------------------------------------------------------------------
@@ -286,7 +296,7 @@ def _operations(summary: Mapping[str, Any], currency: str) -> dict[str, Any] | N
         "weeks": [w for w in at.get("completion_by_week") or [] if w[0] != "unfinished"],
         "deadline": ops.get("deadline"), "crews": ops.get("crews"), "work": ops.get("work_crew_days"),
         "working_days": ops.get("working_days"), "overtime_days": ops.get("overtime_days_available"),
-        "days": days, "caution": ops.get("caution", ""),
+        "days": days,
     }
 
 
@@ -418,7 +428,9 @@ def render_report(result, summary: Mapping[str, Any]) -> dict[str, bytes]:
     context = {
         "s": summary, "scenario": scenario, "history": history, "words": words, "version": __version__,
         "recommendation": recommendation(summary, occasion, decimals), "numbers": headline_numbers(summary, decimals),
-        "caution": CAUTION, "hazard": scenario.event.hazard, "occasion": occasion,
+        "caution": CAUTION, "cautions": summary["cautions"], "hazard": scenario.event.hazard, "occasion": occasion,
+        "verdict": summary.get("verdict"), "missed": summary.get("events_without_action"),
+        "rule_label": lambda name: _LEGEND[name].format(a=action, o=occasion),
         "ref_label": ref_label, "Action": _sentence_case(action), "decimals": decimals,
         "cut": lambda v: cutoff_text(v, decimals), "money": lambda v: money(v, currency), "share": share,
         "rate": rate, "ranges": lambda r: _ranges(r, decimals) or "none",

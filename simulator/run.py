@@ -38,10 +38,12 @@ from .operations import OperationsResult, UserProcess, make_rules
 from .operations_fast import OperationsPricer
 from .parallel import Executor, InlineExecutor, open_executor, prepare
 from .resample import BLOCK, Calendar, Resampler, block_rng, n_blocks, season_calendar
+from .scoring import cutoff_slots
 from .scenario import BASELINES, Scenario, break_even_probability, cost_warnings, read_scenario
 from .selection import Calibration, Selection, calibrate, select_honestly
 from .stress import ReplicatePricer, StressResult, run_stress
 from .tables import cutoff_table, forecast_quality, forecast_scores, history_table, with_replicates
+from .verdict import RULES, Verdict, best_rule, judge, season_costs
 
 __all__ = ["run", "run_history", "RunResult", "SiteResult", "Portfolio", "Progress", "CHUNK_BLOCKS"]
 
@@ -168,6 +170,11 @@ class RunResult:
     selection: Selection | None = None
     # with a site column: every site's own results and the portfolio's
     portfolio: Portfolio | None = None
+    # whether the forecast is worth using at all, judged on seasons it was not chosen on
+    verdict: Verdict | None = None
+    # [event] hazard = true: event occasions of each replicate season (all sites) on which the
+    # forecast does not reach the recommended cutoff, (n_replicates,); None in the calibrated mode
+    events_without_action: np.ndarray | None = None
 
     @property
     def reference(self) -> str:
@@ -290,13 +297,17 @@ def run_history(scenario: Scenario, history: History, *, replicates: int | None 
                                 sim.walk_forward if walk_forward is None else walk_forward,
                                 label=_label(scenario),
                                 rules=scenario if scenario.operations is not None else None)
+    verdict = judge(season_costs(history, calendar, cutoffs, scenario), calendar.n_occasions,
+                    best_rule({name: float(baseline_cost[name].mean()) for name in RULES}))
+    unprotected = (_events_without_action(work, decision.recommended_index)
+                   if scenario.event.hazard and calibration is None else None)
     return RunResult(scenario=scenario, history=history, calendar=calendar, cutoffs=cutoffs,
                      replicates=replicates, seed=seed, mean_block_days=mean_block * history.step_days,
                      theoretical_cutoff=p_star, decision=decision, model_cost=model_cost,
                      baseline_cost=baseline_cost, table=table, quality=quality,
                      value_curve=value_curve, reliability=reliability, warnings=warnings,
                      operations=operations, stress=stress, calibration=calibration,
-                     selection=selection)
+                     selection=selection, verdict=verdict, events_without_action=unprotected)
 
 
 # ------------------------------------------------------------------------------------------------
@@ -374,12 +385,32 @@ def _run_sites(scenario: Scenario, history: History, *, replicates: int, seed: i
             warnings += site.warnings
     for site in sites:
         warnings += tuple(f'site "{site.name}": {w}' for case in site.stress or () for w in case.warnings)
+    unprotected = _events_without_action(work, common) if scenario.event.hazard else None
     return RunResult(scenario=scenario, history=history, calendar=calendar, cutoffs=cutoffs,
                      replicates=replicates, seed=seed, mean_block_days=mean_block * history.step_days,
                      theoretical_cutoff=p_star, decision=decision, model_cost=model_cost,
                      baseline_cost=baseline_cost, table=table, quality=quality,
                      value_curve=value_curve, reliability=reliability,
-                     warnings=tuple(warnings), portfolio=portfolio)
+                     warnings=tuple(warnings), portfolio=portfolio, events_without_action=unprotected)
+
+
+def _events_without_action(work: "_Work", index: int) -> np.ndarray:
+    """Event occasions of each replicate season on which the probability does not reach cutoff
+    ``index`` (so no action is taken), summed over the sites, (n_replicates,) int64.
+
+    The replicates are drawn again from their seeds (a replicate depends only on the seed and its
+    number), so they are those the run priced.
+    """
+    resampler = work.resampler
+    history = resampler.history
+    missed = []
+    for k in range(resampler.n_sites):
+        own = history.for_site(k)
+        missed.append(own.event & (cutoff_slots(own.p, work.cutoffs) <= index))  # act when slot > index
+    out = []
+    for rows in resampler.blocks(work.seed, work.replicates):
+        out.append(sum(m[resampler.site_rows(rows, k)].sum(axis=1) for k, m in enumerate(missed)))
+    return np.concatenate(out).astype(np.int64)
 
 
 def _checked_sites(work: "_Work", executor: Executor, sites: tuple[SiteResult, ...], check: bool,
