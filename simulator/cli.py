@@ -119,7 +119,9 @@ def _headline(result: RunResult) -> Table:
     missed = s.get("events_without_action")
     if missed is not None:  # a hazard: what the cutoff leaves unprotected
         table.add_row(Text(_printable(f"\"{s['scenario']['event']}\" without action")),
-                      f"{missed['mean']:.1f} occasions a season at {missed['cutoff']:.2f} (90% of seasons "
+                      f"{missed['mean']:.1f} occasions a season at {missed['cutoff']:.2f}"
+                      + (f" (all {s['portfolio']['sites']} sites together)" if s.get("portfolio") else "")
+                      + f" (90% of seasons "
                       f"{missed['p05']:.0f} to {missed['p95']:.0f})")
     portfolio = s.get("portfolio")
     if portfolio:  # the rows above are all sites together at one common cutoff
@@ -264,12 +266,15 @@ def _sites_tables(result: RunResult) -> list:
     more = (f"... and {len(frame) - len(shown)} more sites: sites.csv" if len(frame) > len(shown)
             else "Per site, with every figure: sites.csv")
     rows = [[r.site, f"{r.recommended_cutoff:.2f}", f"{r.recommended_cutoff_low:.2f}-{r.recommended_cutoff_high:.2f}",
-             f"{r.mean_cost:,.0f}", f"{r.mean_savings:,.0f} ({share(r.prob_saving)})", f"{r.forecast_value:,.0f}"]
+             f"{r.mean_cost:,.0f}", f"{r.mean_savings:,.0f} ({share(r.prob_saving)})", f"{r.forecast_value:,.0f}",
+             "yes" if r.use_forecast else f"no: {r.best_rule_without_forecast}"]
             for r in shown.itertuples()]
     out: list = [_fitted_table(f"Each site at its own cutoff ({cur} a season; by the value of the forecast)",
                                [("", "Site"), ("Own", "cutoff"), ("90%", "interval"), ("Mean", "cost"),
-                                ("Saving against", f"{result.reference} (share)"), ("Value of", "forecast")],
-                               rows), more]
+                                ("Saving against", f"{result.reference} (share)"), ("Value of", "forecast"),
+                                ("Worth", "using")], rows),
+                 more + "; worth using: whether the forecast beats the best rule without it on seasons its cutoff "
+                        "was not chosen on (else the rule to keep to)"]
     validation, forward = "validation_chosen_cutoff" in frame.columns, "walk_forward_cost" in frame.columns
     if validation or forward:
         headers = [("", "Site")]

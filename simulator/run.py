@@ -85,6 +85,8 @@ class SiteResult:
     # single-site run of its rows makes them)
     selection: Selection | None = None
     stress: tuple[StressResult, ...] | None = None
+    # whether this site's forecast is worth using at all (simulator.verdict), on its own seasons
+    verdict: Verdict | None = None
 
     @property
     def reference(self) -> str:
@@ -519,12 +521,14 @@ def _site_result(work: "_Work", k: int, block: PricedBlock) -> SiteResult:
         operations = result.summary(decision.recommended_index)
     name = history.site_names[0]
     warnings = tuple(f'site "{name}" {w}' for w in cost_warnings(costs, scenario.decision.action))
+    verdict = judge(season_costs(history, work.resampler.calendar, cutoffs, scenario), n_occ,
+                    best_rule({name: float(cost.mean()) for name, cost in baseline_cost.items()}))
     own_dates = np.unique(history.dates[history.evaluated]).size
     return SiteResult(name=name, scenario=scenario, history=history, theoretical_cutoff=p_star,
                       decision=decision, table=table, quality=forecast_scores(history),
                       model_cost=block.model[:, decision.recommended_index].copy(),
                       baseline_cost=baseline_cost, missing_dates=work.resampler.n_dates - own_dates,
-                      operations=operations, warnings=warnings)
+                      operations=operations, warnings=warnings, verdict=verdict)
 
 
 def _sites_table(sites: Sequence[SiteResult], common: int) -> pd.DataFrame:
@@ -553,6 +557,11 @@ def _sites_table(sites: Sequence[SiteResult], common: int) -> pd.DataFrame:
                "mean_savings": d.savings.mean, "p05_savings": d.savings.p05, "p95_savings": d.savings.p95,
                "prob_saving": d.prob_saving, "forecast_value": value, "value_rank": int(r),
                "mean_cost_at_common_cutoff": _cell(site.table, common, "mean_cost")}
+        if site.verdict is not None:  # simulator.verdict, on the site's own seasons
+            v = site.verdict
+            row.update({"use_forecast": v.use_forecast, "best_rule_without_forecast": v.best_rule,
+                        "saving_against_best_rule_mean": v.mean, "saving_against_best_rule_p05": v.p05,
+                        "saving_against_best_rule_p95": v.p95, "saving_against_best_rule_prob": v.prob_saving})
         check = site.selection.validation if site.selection is not None else None
         if check is not None:
             row.update({"validation_chosen_cutoff": check.chosen_cutoff,

@@ -191,8 +191,10 @@ def season_costs(history: History, calendar: Calendar, cutoffs: np.ndarray, scen
     model = None
     rules = np.empty((k, k, len(RULES)))
     for f, h in enumerate(learnt):
-        block = OperationsPricer(h, calendar, cutoffs, scenario)(rows)
-        model = block.model if model is None else model  # the forecast's cost learns nothing
+        # the forecast's costs learn nothing: every cutoff is played once, and one cutoff (the
+        # cheapest to carry) beside the rules of each later fold
+        block = OperationsPricer(h, calendar, cutoffs if model is None else cutoffs[:1], scenario)(rows)
+        model = block.model if model is None else model
         rules[f] = block.baselines[:, columns]
     return SeasonCosts(model=model, rules=rules, occasions=np.full(k, calendar.n_occasions, dtype=np.int64),
                        seasons=seasons, cutoffs=cutoffs)

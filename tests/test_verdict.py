@@ -301,3 +301,27 @@ def test_hazard_headline_and_report_tiles_give_the_occasions_without_action(tmp_
     html = (tmp_path / "out" / "report.html").read_text(encoding="utf-8")
     assert 'id="missed-tile"' in html
     assert f"{missed['mean']:.1f} a season" in html
+
+
+# ---- many sites: each site's own verdict in sites.csv -----------------------------------------
+
+def test_each_site_gets_the_verdict_a_run_of_its_rows_alone_gives(tmp_path):
+    # the verdict reads only the site's own past seasons, so a run of one depot's rows alone
+    # (the same costs, no site column) must give that depot's verdict in sites.csv
+    import pandas as pd
+
+    result = run("scenarios/gritting_depots.toml", replicates=40)
+    table = result.portfolio.table.set_index("site")
+    assert table["use_forecast"].dtype == bool
+    rows = pd.read_csv("scenarios/gritting_depots_history.csv")
+    rows[rows["depot"] == "Pellisford"].drop(columns="depot").to_csv(tmp_path / "history.csv", index=False)
+    text = open("scenarios/gritting_depots.toml").read().split('\n[sites."Scarth Top".costs]')[0]
+    text = text.replace('path = "gritting_depots_history.csv"', 'path = "history.csv"')
+    text = "\n".join(line for line in text.splitlines() if not line.startswith("site_column"))
+    (tmp_path / "alone.toml").write_text(text + '\n[season]\nmonths = [11, 12, 1, 2, 3]\n')
+    alone = run(tmp_path / "alone.toml", replicates=40).verdict
+    site = table.loc["Pellisford"]
+    assert site["use_forecast"] == alone.use_forecast
+    assert site["saving_against_best_rule_mean"] == pytest.approx(alone.mean)
+    assert (site["saving_against_best_rule_p05"], site["saving_against_best_rule_p95"]) == pytest.approx(
+        (alone.p05, alone.p95))
