@@ -26,6 +26,7 @@ import numpy as np
 
 from . import __version__, figures
 from .cautions import GENERAL
+from .verdict import RULE_WORDS
 from .figures import Words
 
 __all__ = ["render_report", "headline_numbers", "recommendation", "format_value", "money", "share",
@@ -430,7 +431,7 @@ def render_report(result, summary: Mapping[str, Any]) -> dict[str, bytes]:
         "recommendation": recommendation(summary, occasion, decimals), "numbers": headline_numbers(summary, decimals),
         "caution": CAUTION, "cautions": summary["cautions"], "hazard": scenario.event.hazard, "occasion": occasion,
         "verdict": summary.get("verdict"), "missed": summary.get("events_without_action"),
-        "rule_label": lambda name: _LEGEND[name].format(a=action, o=occasion),
+        "rule_label": lambda name: _sentence_case(RULE_WORDS[name]),
         "ref_label": ref_label, "Action": _sentence_case(action), "decimals": decimals,
         "cut": lambda v: cutoff_text(v, decimals), "money": lambda v: money(v, currency), "share": share,
         "rate": rate, "ranges": lambda r: _ranges(r, decimals) or "none",

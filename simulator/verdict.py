@@ -115,8 +115,10 @@ class Verdict:
                  f"in turn (90% interval of that mean {_money(self.p05, currency)} to {_money(self.p95, currency)})")
         if self.use_forecast:
             return f"The forecast is worth using: {found}."
-        return (f"The forecast is not worth using: {found}, no clear saving over what a forecast of no skill gets by chance; "
-                f"keep to {rule}.")
+        if self.mean < 0:
+            return f"The forecast is not worth using: {found}; keep to {rule}."
+        return (f"The forecast is not worth using: {found}, not clearly more than a forecast of no skill saves by "
+                f"chance; keep to {rule}.")
 
 
 def best_rule(mean_costs: dict[str, float]) -> str:
