@@ -30,10 +30,8 @@ seasonal rate learns its months from the training seasons only.
 
 References
 ----------
-Atger, F. (2001). Verification of intense precipitation forecasts from single models and ensemble
-prediction systems. Nonlin. Processes Geophys. 8, 401-417.
-Richardson, D. S. (2000). Skill and relative economic value of the ECMWF ensemble prediction system.
-Q. J. R. Meteorol. Soc. 126, 649-667.
+Atger (2001) and Richardson (2000) on actual against potential value: as cited in
+:mod:`simulator.selection`.
 Cochran, W. G. (1977). Sampling Techniques, 3rd ed. Wiley (ratio estimates; from memory).
 Bengio, Y. and Grandvalet, Y. (2004). No unbiased estimator of the variance of k-fold
 cross-validation. J. Mach. Learn. Res. 5, 1089-1105 (from memory).
