@@ -105,6 +105,10 @@ def test_demo_forecast_is_worth_using_and_says_so_everywhere(tmp_path):
     assert set(v["saving_against_best_rule"]) == {"mean", "p05", "p95", "prob_saving"}
     assert v["best_rule_without_forecast"] in RULES
     assert "Recommended cutoff" in result.stdout
+    from simulator.cautions import GENERAL
+
+    assert s["cautions"] == [GENERAL]  # the demo is no hazard: the general caution only
+    assert "events_without_action" not in s
     assert " ".join(v["reason"].split()[:6]) in " ".join(result.stdout.replace("│", " ").split())
 
 
