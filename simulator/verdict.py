@@ -188,15 +188,16 @@ def season_costs(history: History, calendar: Calendar, cutoffs: np.ndarray, scen
 
     rows = _seasons_on_calendar(history, evaluated, calendar)  # (k, n_occasions), seasons ascending
     columns = [BASELINES.index(name) for name in RULES]
-    model = None
-    rules = np.empty((k, k, len(RULES)))
+    everything = dataclasses.replace(history, validation=np.zeros_like(evaluated))
+    block = OperationsPricer(everything, calendar, cutoffs, scenario)(rows)  # the forecast learns nothing
+    rules = np.broadcast_to(block.baselines[:, columns], (k, k, len(RULES))).copy()
+    # only the seasonal rate learns: a fold whose months come out otherwise without its season
+    # plays the seasons again under its own rules (beside one cutoff, the cheapest to carry)
+    seasonal = baseline_actions(everything, scenario.costs)["seasonal_rate"][evaluated]
     for f, h in enumerate(learnt):
-        # the forecast's costs learn nothing: every cutoff is played once, and one cutoff (the
-        # cheapest to carry) beside the rules of each later fold
-        block = OperationsPricer(h, calendar, cutoffs if model is None else cutoffs[:1], scenario)(rows)
-        model = block.model if model is None else model
-        rules[f] = block.baselines[:, columns]
-    return SeasonCosts(model=model, rules=rules, occasions=np.full(k, calendar.n_occasions, dtype=np.int64),
+        if not np.array_equal(baseline_actions(h, scenario.costs)["seasonal_rate"][evaluated], seasonal):
+            rules[f] = OperationsPricer(h, calendar, cutoffs[:1], scenario)(rows).baselines[:, columns]
+    return SeasonCosts(model=block.model, rules=rules, occasions=np.full(k, calendar.n_occasions, dtype=np.int64),
                        seasons=seasons, cutoffs=cutoffs)
 
 
