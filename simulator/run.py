@@ -43,7 +43,7 @@ from .scenario import BASELINES, Scenario, break_even_probability, cost_warnings
 from .selection import Calibration, Selection, calibrate, select_honestly
 from .stress import ReplicatePricer, StressResult, run_stress
 from .tables import cutoff_table, forecast_quality, forecast_scores, history_table, with_replicates
-from .verdict import RULES, Verdict, best_rule, judge, season_costs
+from .verdict import RULES, SeasonCosts, Verdict, best_rule, judge, season_costs, together
 
 __all__ = ["run", "run_history", "RunResult", "SiteResult", "Portfolio", "Progress", "CHUNK_BLOCKS"]
 
@@ -85,8 +85,10 @@ class SiteResult:
     # single-site run of its rows makes them)
     selection: Selection | None = None
     stress: tuple[StressResult, ...] | None = None
-    # whether this site's forecast is worth using at all (simulator.verdict), on its own seasons
+    # whether this site's forecast is worth using at all (simulator.verdict), on its own seasons,
+    # and those seasons' costs (for the portfolio's verdict)
     verdict: Verdict | None = None
+    season_costs: SeasonCosts | None = None
 
     @property
     def reference(self) -> str:
@@ -388,12 +390,16 @@ def _run_sites(scenario: Scenario, history: History, *, replicates: int, seed: i
     for site in sites:
         warnings += tuple(f'site "{site.name}": {w}' for case in site.stress or () for w in case.warnings)
     unprotected = _events_without_action(work, common) if scenario.event.hazard else None
+    joint = together([site.season_costs for site in sites])  # one cutoff and one rule for every site
+    verdict = None if joint is None else judge(joint, calendar.n_occasions * len(sites),
+                                               best_rule({name: float(baseline_cost[name].mean()) for name in RULES}))
     return RunResult(scenario=scenario, history=history, calendar=calendar, cutoffs=cutoffs,
                      replicates=replicates, seed=seed, mean_block_days=mean_block * history.step_days,
                      theoretical_cutoff=p_star, decision=decision, model_cost=model_cost,
                      baseline_cost=baseline_cost, table=table, quality=quality,
                      value_curve=value_curve, reliability=reliability,
-                     warnings=tuple(warnings), portfolio=portfolio, events_without_action=unprotected)
+                     warnings=tuple(warnings), portfolio=portfolio, events_without_action=unprotected,
+                     verdict=verdict)
 
 
 def _events_without_action(work: "_Work", index: int) -> np.ndarray:
@@ -521,14 +527,14 @@ def _site_result(work: "_Work", k: int, block: PricedBlock) -> SiteResult:
         operations = result.summary(decision.recommended_index)
     name = history.site_names[0]
     warnings = tuple(f'site "{name}" {w}' for w in cost_warnings(costs, scenario.decision.action))
-    verdict = judge(season_costs(history, work.resampler.calendar, cutoffs, scenario), n_occ,
-                    best_rule({name: float(cost.mean()) for name, cost in baseline_cost.items()}))
+    seasons = season_costs(history, work.resampler.calendar, cutoffs, scenario)
+    verdict = judge(seasons, n_occ, best_rule({name: float(cost.mean()) for name, cost in baseline_cost.items()}))
     own_dates = np.unique(history.dates[history.evaluated]).size
     return SiteResult(name=name, scenario=scenario, history=history, theoretical_cutoff=p_star,
                       decision=decision, table=table, quality=forecast_scores(history),
                       model_cost=block.model[:, decision.recommended_index].copy(),
                       baseline_cost=baseline_cost, missing_dates=work.resampler.n_dates - own_dates,
-                      operations=operations, warnings=warnings, verdict=verdict)
+                      operations=operations, warnings=warnings, verdict=verdict, season_costs=seasons)
 
 
 def _sites_table(sites: Sequence[SiteResult], common: int) -> pd.DataFrame:

@@ -51,7 +51,8 @@ from .history import History
 from .resample import Calendar
 from .scenario import Scenario
 
-__all__ = ["RULES", "RULE_WORDS", "CONFIDENCE", "SeasonCosts", "Verdict", "season_costs", "judge", "best_rule"]
+__all__ = ["RULES", "RULE_WORDS", "CONFIDENCE", "SeasonCosts", "Verdict", "season_costs", "judge", "best_rule",
+           "together"]
 
 RULES = ("never_act", "always_act", "persistence", "seasonal_rate")
 """The rules that ignore the forecast, in the order ties are broken."""
@@ -166,6 +167,17 @@ def judge(costs: SeasonCosts, season_occasions: int, rule: str) -> Verdict:
                      for s, c, r, d, m in zip(costs.seasons, cut, chosen, saving, costs.occasions))
     return Verdict(use_forecast=bool(lo > 0), best_rule=rule, mean=float(mean), p05=float(lo), p95=float(hi),
                    prob_saving=prob, n_seasons=int(k), held_out=held_out)
+
+
+def together(parts: list[SeasonCosts]) -> SeasonCosts | None:
+    """The season costs of many sites added together (one cutoff and one rule for all), when every
+    site has the same past seasons; None otherwise (a held-out season must be held out everywhere)."""
+    first = parts[0]
+    if any(not np.array_equal(part.seasons, first.seasons) for part in parts[1:]):
+        return None
+    return SeasonCosts(model=sum(part.model for part in parts), rules=sum(part.rules for part in parts),
+                       occasions=sum(part.occasions for part in parts), seasons=first.seasons,
+                       cutoffs=first.cutoffs)
 
 
 def season_costs(history: History, calendar: Calendar, cutoffs: np.ndarray, scenario: Scenario) -> SeasonCosts:

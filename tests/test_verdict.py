@@ -329,3 +329,26 @@ def test_each_site_gets_the_verdict_a_run_of_its_rows_alone_gives(tmp_path):
     assert site["saving_against_best_rule_mean"] == pytest.approx(alone.mean)
     assert (site["saving_against_best_rule_p05"], site["saving_against_best_rule_p95"]) == pytest.approx(
         (alone.p05, alone.p95))
+
+
+def test_portfolio_of_two_identical_sites_saves_twice_what_one_does(tmp_path):
+    # derived (no published source): two copies of one depot double every season cost at every
+    # cutoff and under every rule, so the same cutoffs and rules are chosen, the saving per season
+    # and its interval double, and the confidence and the verdict stay as they are
+    import pandas as pd
+
+    rows = pd.read_csv("scenarios/gritting_depots_history.csv")
+    one = rows[rows["depot"] == "Pellisford"]
+    pd.concat([one.assign(depot="East"), one.assign(depot="West")]).sort_values(
+        ["date", "depot"], kind="stable").to_csv(tmp_path / "two.csv", index=False)
+    one.drop(columns="depot").to_csv(tmp_path / "one.csv", index=False)
+    text = open("scenarios/gritting_depots.toml").read().split('\n[sites."Scarth Top".costs]')[0]
+    season = '\n[season]\nmonths = [11, 12, 1, 2, 3]\n'
+    (tmp_path / "two.toml").write_text(text.replace("gritting_depots_history.csv", "two.csv") + season)
+    alone = "\n".join(line for line in text.splitlines() if not line.startswith("site_column"))
+    (tmp_path / "one.toml").write_text(alone.replace("gritting_depots_history.csv", "one.csv") + season)
+    both = run(tmp_path / "two.toml", replicates=40).verdict
+    single = run(tmp_path / "one.toml", replicates=40).verdict
+    assert both.use_forecast == single.use_forecast
+    assert (both.mean, both.p05, both.p95) == pytest.approx((2 * single.mean, 2 * single.p05, 2 * single.p95))
+    assert both.prob_saving == pytest.approx(single.prob_saving)
