@@ -120,9 +120,8 @@ def _headline(result: RunResult) -> Table:
     if missed is not None:  # a hazard: what the cutoff leaves unprotected
         table.add_row(Text(_printable(f"\"{s['scenario']['event']}\" without action")),
                       f"{missed['mean']:.1f} occasions a season at {missed['cutoff']:.2f}"
-                      + (f" (all {s['portfolio']['sites']} sites together)" if s.get("portfolio") else "")
-                      + f" (90% of seasons "
-                      f"{missed['p05']:.0f} to {missed['p95']:.0f})")
+                      + (f", all {s['portfolio']['sites']} sites together" if s.get("portfolio") else "")
+                      + f" (90% of seasons {missed['p05']:.0f} to {missed['p95']:.0f})")
     portfolio = s.get("portfolio")
     if portfolio:  # the rows above are all sites together at one common cutoff
         own = portfolio["total_cost"]["own_cutoffs"]
