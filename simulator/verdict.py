@@ -32,6 +32,8 @@ References
 ----------
 Atger (2001) and Richardson (2000) on actual against potential value: as cited in
 :mod:`simulator.selection`.
+Hastie, T., Tibshirani, R. and Friedman, J. (2009). The Elements of Statistical Learning, 2nd ed.
+Springer, section 7.10, cross-validation (from memory).
 Cochran, W. G. (1977). Sampling Techniques, 3rd ed. Wiley (ratio estimates; from memory).
 Bengio, Y. and Grandvalet, Y. (2004). No unbiased estimator of the variance of k-fold
 cross-validation. J. Mach. Learn. Res. 5, 1089-1105 (from memory).
