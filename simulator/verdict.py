@@ -104,22 +104,19 @@ class Verdict:
     held_out: tuple[tuple[int, float, str, float], ...]
 
     def reason(self, currency: str) -> str:
-        """The verdict in one plain sentence, its money per season."""
+        """Why the forecast is worth using or not, in one plain sentence, its money per season."""
         rule = RULE_WORDS[self.best_rule]
         if self.n_seasons < 2:
-            return (f"The forecast is not worth using: the history holds {self.n_seasons} season, so a cutoff cannot be checked on "
-                    f"a season it was not chosen on; keep to {rule}, the cheapest rule without the forecast.")
+            return (f"The history holds {self.n_seasons} season, so a cutoff cannot be checked on a season it was "
+                    f"not chosen on; {rule} is the cheapest rule without the forecast.")
         saved = (f"saved {_money(self.mean, currency)}" if self.mean >= 0
                  else f"cost {_money(-self.mean, currency)} more")
-        found = (f"with the cutoff chosen on the other seasons, acting on the forecast {saved} a season on average "
+        found = (f"With the cutoff chosen on the other seasons, acting on the forecast {saved} a season on average "
                  f"against the best rule without it ({rule}), priced on each of the {self.n_seasons} past seasons "
                  f"in turn (90% interval of that mean {_money(self.p05, currency)} to {_money(self.p95, currency)})")
-        if self.use_forecast:
-            return f"The forecast is worth using: {found}."
-        if self.mean < 0:
-            return f"The forecast is not worth using: {found}; keep to {rule}."
-        return (f"The forecast is not worth using: {found}, not clearly more than a forecast of no skill saves by "
-                f"chance; keep to {rule}.")
+        if self.use_forecast or self.mean < 0:
+            return found + "."
+        return found + ", not clearly more than a forecast of no skill saves by chance."
 
 
 def best_rule(mean_costs: dict[str, float]) -> str:

@@ -70,7 +70,7 @@ def test_skilled_rain_forecast_is_worth_using(seattle):
     v = verdict_of(seattle, cost_loss(0.3))
     assert v.use_forecast
     assert v.p05 > 0 and v.prob_saving > 0.95
-    assert v.reason("EUR").startswith("The forecast is worth using")
+    assert v.reason("EUR").startswith("With the cutoff chosen on the other seasons, acting on the forecast saved")
 
 
 def test_skilled_oil_move_forecast_is_worth_using(oil):
@@ -88,7 +88,7 @@ def test_stock_index_forecast_without_skill_is_not_worth_using():
     v = verdict_of(frame, 'name = "index"\n[costs]\nhit = 0\nfalse_alarm = 100\nmiss = 100\n')
     assert not v.use_forecast
     assert v.best_rule == "always_act"
-    assert "keep to always acting" in v.reason("USD")
+    assert "against the best rule without it (always acting)" in v.reason("USD")
 
 
 def test_demo_forecast_is_worth_using_and_says_so_everywhere(tmp_path):
@@ -104,12 +104,12 @@ def test_demo_forecast_is_worth_using_and_says_so_everywhere(tmp_path):
     assert set(v) == {"use_forecast", "best_rule_without_forecast", "saving_against_best_rule", "reason"}
     assert set(v["saving_against_best_rule"]) == {"mean", "p05", "p95", "prob_saving"}
     assert v["best_rule_without_forecast"] in RULES
-    assert "Recommended cutoff" in result.stdout
+    assert "Recommended cutoff" in result.stdout and "use the forecast, because" in result.stdout
     from simulator.cautions import GENERAL
 
     assert s["cautions"] == [GENERAL]  # the demo is no hazard: the general caution only
     assert "events_without_action" not in s
-    assert " ".join(v["reason"].split()[:6]) in " ".join(result.stdout.replace("│", " ").split())
+    assert " ".join(v["reason"].split()[1:6]) in " ".join(result.stdout.replace("│", " ").split())
 
 
 # ---- when the forecast is not worth using, no cutoff is given as advice -----------------------
@@ -134,10 +134,10 @@ def test_useless_forecast_headline_says_which_rule_to_keep_and_gives_no_recommen
     result, out = useless_run
     s = json.loads((out / "summary.json").read_text())
     assert s["verdict"]["use_forecast"] is False
-    rule = s["verdict"]["best_rule_without_forecast"]
-    assert f"Keep to {rule}" in result.stdout
+    flat = " ".join(result.stdout.replace("│", " ").split())
+    assert "keep to the rule that ignores it:" in flat
     assert "Recommended cutoff" not in result.stdout
-    assert "if acting on it anyway" in result.stdout
+    assert "Cheapest cutoff (not advised)" in flat
 
 
 def test_useless_forecast_report_opens_with_the_rule_to_keep(useless_run):
@@ -146,8 +146,8 @@ def test_useless_forecast_report_opens_with_the_rule_to_keep(useless_run):
     html = (out / "report.html").read_text(encoding="utf-8")
     advice = html[html.index('id="recommendation"'):html.index('id="verdict-tile"')]
     first = advice.split("<p>")[1]
-    assert first.startswith("The forecast is not worth using")
-    assert "keep to" in first
+    assert first.startswith("Keep to the rule that ignores it")
+    assert "because with the cutoff chosen on the other seasons" in first
     assert "when the forecast probability of" not in advice  # no cutoff given as advice
     assert "Keep to the rule" in html
 
@@ -199,7 +199,7 @@ def test_one_season_is_too_few_to_judge():
                         seasons=np.array([2020]), cutoffs=np.array([0.2, 0.5, 0.8]))
     v = judge(costs, season_occasions=9, rule="always_act")
     assert not v.use_forecast and v.n_seasons == 1
-    assert "keep to always acting" in v.reason("EUR")
+    assert "always acting is the cheapest rule" in v.reason("EUR")
 
 
 def test_season_costs_price_each_season_as_scikit_learn_counts_it(seattle):
@@ -301,7 +301,7 @@ def test_hazard_headline_and_report_tiles_give_the_occasions_without_action(tmp_
     s = json.loads((tmp_path / "out" / "summary.json").read_text())
     missed = s["events_without_action"]
     flat = " ".join(result.stdout.replace("│", " ").split())
-    assert f"{missed['mean']:.1f} occasions a season at {missed['cutoff']:.2f}" in flat
+    assert f"{missed['mean']:.1f} days a season at {missed['cutoff']:.2f}" in flat
     html = (tmp_path / "out" / "report.html").read_text(encoding="utf-8")
     assert 'id="missed-tile"' in html
     assert f"{missed['mean']:.1f} a season" in html
