@@ -8,9 +8,9 @@ currency; probabilities and rates are labelled as such. PNG metadata is left emp
 run gives byte-identical files.
 
 Every function draws in one of two layouts: ``narrow=False`` for a desktop page and for print
-(8 inches wide at 150 dpi), ``narrow=True`` for a phone (4.2 inches wide at 200 dpi, legends in one
+(8 inches wide at 150 dpi), ``narrow=True`` for a phone (4.2 inches wide at 170 dpi, legends in one
 column): shown 350 CSS pixels wide, a 9-point label of the narrow layout is about 10 pixels high,
-where the wide one would shrink to about 4. Legends sit outside the axes, so they never cover data.
+where the wide one would shrink to about 5. Legends sit outside the axes, so they never cover data.
 """
 
 from __future__ import annotations
@@ -52,7 +52,7 @@ BASELINE_STYLE = {
 
 # the two layouts: (width in inches, dots per inch, legend columns, characters per wrapped line)
 _WIDE = (8.0, _DPI, 2, 100)
-_NARROW = (4.2, 200, 1, 46)
+_NARROW = (4.2, 170, 1, 46)
 
 
 @dataclass(frozen=True)

@@ -70,13 +70,15 @@ def test_cost_chart_geometry_gives_the_zoomed_axis():
 
 
 def test_narrow_layout_is_made_for_a_phone():
-    """Shown 350 CSS pixels wide, the narrow figure shrinks less than half as much as the wide one,
-    so its 9-point labels stay about 10 pixels high."""
+    """Shown 350 CSS pixels wide (a 390 px phone less the page's margins), a 9-point label is
+    9/72 in x 350 px / (figure width in inches) high: about 10 px in the narrow layout, about 5 px in
+    the wide one (9/72 x 350 / 8)."""
+    width_in, dpi, legend_columns, _ = figures._layout(narrow=True)
     wide, narrow = _image(_cost_chart(0.5).png), _image(_cost_chart(0.5, narrow=True).png)
-    assert narrow.shape[1] < 0.75 * wide.shape[1]
-    label_px = 9 / 72 * 200 * 350 / narrow.shape[1]  # 9 pt at 200 dpi, scaled to 350 px
-    assert label_px >= 9.5
-    assert narrow.shape[0] > narrow.shape[1]  # legend in one column below the axes
+    assert narrow.shape[1] == round(width_in * dpi)
+    assert 9 / 72 * 350 / width_in >= 10
+    assert 9 / 72 * 350 / (wide.shape[1] / figures._DPI) < 6
+    assert legend_columns == 1 and narrow.shape[0] > narrow.shape[1]  # the legend in one column below
 
 
 def test_figures_are_byte_identical_from_run_to_run():
