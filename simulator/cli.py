@@ -431,6 +431,7 @@ def check_command(
     table.add_column()
     table.add_row("Rows", f"{h.n_rows} ({h.n_evaluated} in the season, {len(h.seasons)} seasons)")
     table.add_row("Period", f"{h.start} to {h.end}")
+    table.add_row("Calendar", f"{h.frequency.describe()} (the priced season is laid on it)")
     if h.has_sites:
         names = ", ".join(h.site_names[:5]) + (", ..." if h.n_sites > 5 else "")
         table.add_row("Sites", f"{h.n_sites} (column \"{spec.history.site_column}\"): {names}")

@@ -13,6 +13,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from . import decimals
 from .history import History
 from .scenario import BASELINES, Costs, break_even_probability
 from .scoring import Contingency, cutoff_slots
@@ -58,7 +59,7 @@ def baseline_actions(history: History, costs: Costs) -> dict[str, np.ndarray]:
         acts_anyway = costs.false_alarm - costs.correct_negative <= 0
         seasonal = np.full(n, acts_anyway)
     else:
-        seasonal = rate[month] >= p_star
+        seasonal = decimals.reaches(rate[month], p_star)
     return {
         "never_act": np.zeros(n, dtype=bool),
         "always_act": np.ones(n, dtype=bool),

@@ -19,10 +19,12 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
+from . import decimals
 from .errors import InputError, closest, did_you_mean, read_input_file
-from .scenario import HistorySection, Scenario, SeasonSection
+from .scenario import WEEKDAYS, HistorySection, Scenario, SeasonSection
 
-__all__ = ["History", "read_history", "history_from_frame", "season_start_month", "MIN_CLASS_COUNT"]
+__all__ = ["History", "Frequency", "read_history", "history_from_frame", "history_frequency", "season_mask",
+           "season_start_month", "nearest_position", "MIN_CLASS_COUNT"]
 
 MIN_CLASS_COUNT = 5
 _TRUE = {"1", "1.0", "true", "yes", "y", "t"}
@@ -38,9 +40,12 @@ class History:
     ``validation_from`` on. ``season`` labels each row with the year its season starts in
     (-1 outside the season) and ``day_of_season`` counts days from the season's first day.
     ``prev_event`` is the outcome of the previous row (False for the first), for persistence.
+    ``frequency`` is how often the history has a row, worked out from all its rows
+    (:func:`history_frequency`); the priced season is laid on it.
 
     A history of many sites (``[history] site_column``) holds every site's rows, grouped by site in
-    the order the sites first appear in the file and in date order within each: ``site`` gives each
+    the order of the sites' names (so the order they are listed in changes no figure of a run, not
+    even the last bit of a sum over sites) and in date order within each: ``site`` gives each
     row's site as an index into ``site_names``, and ``prev_event`` looks back within the site.
     :meth:`for_site` gives one site's rows as a history of its own. Without a site column ``site``
     is None and ``site_names`` empty.
@@ -56,7 +61,7 @@ class History:
     season: np.ndarray  # int64
     day_of_season: np.ndarray  # int64
     prev_event: np.ndarray  # bool
-    step_days: int
+    frequency: "Frequency"
     warnings: tuple[str, ...] = field(default=())
     site: np.ndarray | None = None  # int64 (n_rows,), an index into site_names; None: one site
     site_names: tuple[str, ...] = ()
@@ -116,6 +121,117 @@ class History:
     @property
     def end(self) -> date:
         return _as_date(self.dates[self.evaluated][-1])
+
+
+@dataclass(frozen=True)
+class Frequency:
+    """How often a history has a row, worked out from all its rows by :func:`history_frequency`.
+
+    ``kind`` is one of
+
+    - ``"daily"``: a row on (nearly) every day of the weekdays in ``weekdays`` (0 = Monday): every
+      day, or working days or trading days, with holidays and other gaps missing;
+    - ``"weekly"``: a row every 7 days, on the phase of ``anchor`` (the date of one of its rows);
+    - ``"monthly"``: a row a month, on day ``day_of_month`` (0: the month's last day);
+    - ``"steady"``: a row every ``step_days`` days, on the phase of ``anchor``.
+
+    :meth:`dates_between` lays the same calendar over any span of time: the priced season is that
+    calendar filtered by the season's months, weekdays and holidays (:func:`season_mask`).
+    """
+
+    kind: str
+    step_days: int  # days between rows: 1 daily, 7 weekly, every n days; 0 for monthly
+    weekdays: tuple[int, ...] = tuple(range(7))
+    anchor: np.datetime64 | None = None
+    day_of_month: int = 1
+
+    @property
+    def is_daily(self) -> bool:
+        return self.kind == "daily"
+
+    def describe(self) -> str:
+        """The frequency in words: "daily", "daily on mon, tue, wed, thu, fri", "weekly", ..."""
+        if self.kind == "daily":
+            if len(self.weekdays) == 7:
+                return "daily"
+            return "daily on " + ", ".join(WEEKDAYS[w] for w in self.weekdays)
+        if self.kind == "steady":
+            return f"every {self.step_days} days"
+        return self.kind
+
+    def same_spacing(self, other: "Frequency") -> bool:
+        """Whether two sites' rows come at the same spacing (daily sites may differ in weekdays)."""
+        return (self.kind, self.step_days) == (other.kind, other.step_days)
+
+    def dates_between(self, first: np.datetime64, stop: np.datetime64) -> np.ndarray:
+        """The dates of this calendar from ``first`` up to, not including, ``stop`` (datetime64[D])."""
+        first, stop = np.datetime64(first, "D"), np.datetime64(stop, "D")
+        if self.kind == "daily":
+            days = np.arange(first, stop, dtype="datetime64[D]")
+            return days[np.isin(_weekday(days), self.weekdays)]
+        if self.kind == "monthly":
+            months = np.arange(first.astype("datetime64[M]"), stop.astype("datetime64[M]") + 1)
+            last = (months + 1).astype("datetime64[D]") - 1
+            day = last if self.day_of_month == 0 else np.minimum(
+                months.astype("datetime64[D]") + (self.day_of_month - 1), last)
+            return day[(day >= first) & (day < stop)]
+        step = self.step_days
+        offset = -(-int((first - self.anchor).astype(np.int64)) // step)  # whole steps to first
+        return np.arange(self.anchor + offset * step, stop, step, dtype="datetime64[D]")
+
+
+DAILY_COVERAGE = 0.6
+"""A history is daily on the weekdays it has rows on when it has a row on at least this share of
+those weekdays in the months it covers (trading days: about 0.96; a row every other day: 0.5).
+A threshold of our own, no source."""
+
+
+def history_frequency(dates: np.ndarray) -> Frequency:
+    """How often the rows of ``dates`` (datetime64[D], ascending, one site) come.
+
+    Monthly when no two rows share a calendar month and the median gap is 28 to 31 days; daily when
+    the rows cover at least :data:`DAILY_COVERAGE` of the days, in the months they cover, of the
+    weekdays they fall on (at least two weekdays, each with at least half the rows of the commonest;
+    this takes trading days and working days with their holidays), or when the median gap is one
+    day; otherwise every n days, n the median gap rounded (weekly when it is 7).
+    """
+    dates = np.unique(np.asarray(dates, dtype="datetime64[D]"))
+    if dates.size < 2:
+        return Frequency("daily", 1)
+    gaps = np.diff(dates).astype(np.int64)
+    typical = float(np.median(gaps))
+    month = dates.astype("datetime64[M]")
+    if 28 <= typical <= 31 and np.all(np.diff(month).astype(np.int64) > 0):
+        last = (month + 1).astype("datetime64[D]") - 1
+        if np.all(dates == last):
+            return Frequency("monthly", 0, day_of_month=0)
+        day = (dates - month.astype("datetime64[D]")).astype(np.int64) + 1
+        return Frequency("monthly", 0, day_of_month=int(np.argmax(np.bincount(day))))
+    weekday = _weekday(dates)
+    per_weekday = np.bincount(weekday, minlength=7)
+    weekdays = tuple(int(w) for w in np.flatnonzero(per_weekday >= 0.5 * per_weekday.max()))
+    months = np.unique(month)
+    span = np.arange(months[0].astype("datetime64[D]"), (months[-1] + 1).astype("datetime64[D]"))
+    possible = np.isin(span.astype("datetime64[M]"), months) & np.isin(_weekday(span), weekdays)
+    covered = np.isin(weekday, weekdays).sum() / max(1, int(possible.sum()))
+    if (len(weekdays) >= 2 and covered >= DAILY_COVERAGE) or typical < 1.5:
+        return Frequency("daily", 1, weekdays=weekdays)
+    step = int(round(typical))
+    return Frequency("weekly" if step == 7 else "steady", step, anchor=dates[-1])
+
+
+def season_mask(dates: np.ndarray, rule: SeasonSection) -> np.ndarray:
+    """Which ``dates`` (datetime64[D]) are occasions of the season: in its months, on its weekdays,
+    and not among its holidays. The one definition, for the history's rows and the priced season."""
+    dates = np.asarray(dates, dtype="datetime64[D]")
+    month = dates.astype("datetime64[M]").astype(np.int64) % 12 + 1
+    return (np.isin(month, rule.months) & np.isin(_weekday(dates), rule.weekday_numbers)
+            & ~np.isin(dates, np.array(rule.holidays, dtype="datetime64[D]")))
+
+
+def _weekday(dates: np.ndarray) -> np.ndarray:
+    """Weekday of each date, 0 = Monday (1970-01-01 was a Thursday)."""
+    return (np.asarray(dates, dtype="datetime64[D]").astype(np.int64) + 3) % 7
 
 
 def _as_date(value: np.datetime64) -> date:
@@ -219,10 +335,21 @@ def history_from_frame(frame: pd.DataFrame, scenario: Scenario, *, label: str = 
         first_of_site[1:] = codes[1:] != codes[:-1]
 
     if scenario.event.flip:
-        p = 1.0 - p
+        p = decimals.complement(p)  # exact: the complement of 0.56 is 0.44 (see decimals.py)
         event = ~event
 
+    site_rows = ([np.ones(len(dates), dtype=bool)] if codes is None
+                 else [codes == k for k in range(len(site_names))])
+    frequency = _frequency_of_sites(dates, site_rows, site_names, label)
     season_rule = scenario.season
+    if not frequency.is_daily and set(season_rule.weekdays) != set(WEEKDAYS):
+        raise InputError(f"{_scenario_label(scenario)} [season] weekdays: {label} has a row "
+                         f"{_every(frequency)}, and weekdays choose the occasions of daily data only; "
+                         "leave weekdays out of [season]")
+    if frequency.is_daily and not set(season_rule.weekday_numbers) & set(frequency.weekdays):
+        raise InputError(f"{_scenario_label(scenario)} [season] weekdays: {label} has rows "
+                         f"{frequency.describe()} only, none on {', '.join(season_rule.weekdays)}; "
+                         "choose weekdays it has rows on")
     season, day_of_season, in_season = _season_labels(dates, season_rule)
     evaluated = in_season & defined
     if not evaluated.any():
@@ -239,8 +366,6 @@ def history_from_frame(frame: pd.DataFrame, scenario: Scenario, *, label: str = 
         validation = evaluated & (dates >= cut)
 
     site_of = (lambda k: f'{label} site "{site_names[k]}"') if codes is not None else (lambda k: label)
-    n_sites = max(1, len(site_names))
-    site_rows = [np.ones(len(dates), dtype=bool)] if codes is None else [codes == k for k in range(n_sites)]
     periods = [("evaluated period", evaluated)]
     if validation.any():
         periods = [("training period", evaluated & ~validation), ("validation period", validation)]
@@ -258,26 +383,37 @@ def history_from_frame(frame: pd.DataFrame, scenario: Scenario, *, label: str = 
                                      f"{MIN_CLASS_COUNT}{fix}")
 
     prev_event = np.concatenate([[False], event[:-1]]) & ~first_of_site
-    steps = [_typical_step(dates[evaluated & rows], season[evaluated & rows]) for rows in site_rows]
-    if len(set(steps)) > 1:
-        a = int(np.argmin(steps))
-        b = int(np.argmax(steps))
-        raise InputError(f'{label}: site "{site_names[a]}" has a forecast every {steps[a]} days and site '
-                         f'"{site_names[b]}" every {steps[b]}; give every site forecasts at the same spacing')
-    step = steps[0]
-    if codes is None:
-        warnings = _gap_warnings(dates, evaluated, season, season_rule, step, label)
-    else:
-        union, first = np.unique(dates[evaluated], return_index=True)
-        union_season = season[evaluated][first]
-        warnings = _gap_warnings(union, np.ones(union.size, dtype=bool), union_season, season_rule, step,
-                                 label)
+    union = np.unique(dates[evaluated])  # the dates of the season that any site has
+    warnings = _gap_warnings(union, season_rule, frequency, label)
+    if codes is not None:
         warnings += _missing_site_dates(union, [dates[evaluated & rows] for rows in site_rows],
                                         site_names, label)
     return History(label=label, sha256=sha256, dates=dates, p=p, event=event, evaluated=evaluated,
                    validation=validation, season=season, day_of_season=day_of_season,
-                   prev_event=prev_event, step_days=step, warnings=tuple(warnings),
+                   prev_event=prev_event, frequency=frequency, warnings=tuple(warnings),
                    site=codes, site_names=tuple(site_names))
+
+
+def _frequency_of_sites(dates: np.ndarray, site_rows: list[np.ndarray], names: tuple[str, ...],
+                        label: str) -> Frequency:
+    """The frequency of every site's rows, which must agree; daily sites may differ in weekdays,
+    and the history is then daily on the weekdays of any of them."""
+    found = [history_frequency(dates[rows]) for rows in site_rows]
+    first = found[0]
+    for k, other in enumerate(found[1:], 1):
+        if not other.same_spacing(first):
+            raise InputError(f'{label}: site "{names[0]}" has a row {_every(first)} and site "{names[k]}" '
+                             f"{_every(other)}; give every site forecasts at the same spacing")
+    if first.is_daily and len(found) > 1:
+        weekdays = tuple(sorted({w for f in found for w in f.weekdays}))
+        first = dataclasses.replace(first, weekdays=weekdays)
+    return first
+
+
+def _every(frequency: Frequency) -> str:
+    """"every day", "every week", "every month", "every 3 days": how often a history has a row."""
+    return {"daily": "every day", "weekly": "every week", "monthly": "every month"}.get(
+        frequency.kind, f"every {frequency.step_days} days")
 
 
 MISSING_DATE_RULE = ("on such a date a replicate season gives the site its row of the nearest date in "
@@ -300,11 +436,11 @@ def _missing_site_dates(union: np.ndarray, site_dates: list[np.ndarray], names: 
 
 
 def _parse_sites(values: pd.Series, where: "_Where", column: str) -> tuple[np.ndarray, tuple[str, ...]]:
-    """Each row's site as an index into the site names, in order of first appearance."""
+    """Each row's site as an index into the site names, sorted by name (see :class:`History`)."""
     blank = _blank(values)
     if blank.any():
         raise where.error(np.flatnonzero(blank)[0], column, "the site is missing; name the site on every row")
-    codes, names = pd.factorize(values.astype(str).str.strip())
+    codes, names = pd.factorize(values.astype(str).str.strip(), sort=True)
     return codes.astype(np.int64), tuple(str(n) for n in names)
 
 
@@ -410,6 +546,7 @@ def _parse_numbers(values: pd.Series, where: _Where, column: str, missing: str, 
 def _parse_probability(values: pd.Series, where: _Where, column: str) -> np.ndarray:
     numbers = _parse_numbers(values, where, column, "the probability is missing; fill it in (0 to 1)",
                              "; write a probability from 0 to 1")
+    numbers = decimals.snap(numbers)  # kept as 12-decimal values, the grid every comparison uses
     outside = (numbers < 0) | (numbers > 1)
     if outside.any():
         i = np.flatnonzero(outside)[0]
@@ -466,9 +603,8 @@ def _season_labels(dates: np.ndarray, rule: SeasonSection) -> tuple[np.ndarray, 
     stamps = pd.DatetimeIndex(dates)
     month = stamps.month.to_numpy()
     year = stamps.year.to_numpy()
-    weekday = stamps.day_of_week.to_numpy()
     start = season_start_month(rule.months)
-    in_season = np.isin(month, rule.months) & np.isin(weekday, rule.weekday_numbers)
+    in_season = season_mask(dates, rule)
     season_year = np.where(month >= start, year, year - 1)
     first_day = pd.to_datetime({"year": season_year, "month": start, "day": 1}).to_numpy().astype("datetime64[D]")
     day_of_season = (dates - first_day).astype(np.int64)
@@ -476,29 +612,64 @@ def _season_labels(dates: np.ndarray, rule: SeasonSection) -> tuple[np.ndarray, 
     return season, day_of_season, in_season
 
 
-def _typical_step(dates: np.ndarray, season: np.ndarray) -> int:
-    """The usual number of days between consecutive occasions of one season (1 for daily data)."""
-    same = season[1:] == season[:-1]
-    gaps = np.diff(dates).astype(np.int64)[same]
-    return int(np.median(gaps)) if gaps.size else 1
+HOLIDAY_LIKE_PER_SEASON = 15
+"""Missing dates of daily data look like holidays when at least nine in ten are single days or
+pairs, at least half the seasons miss some, and there are at most this many a season on average
+(market and public holidays: about 9 to 11 a year). A rule of thumb of our own, no source."""
 
 
-def _gap_warnings(dates, evaluated, season, rule, step, label) -> list[str]:
-    if step != 1:
-        same = season[evaluated][1:] == season[evaluated][:-1]
-        wide = (np.diff(dates[evaluated]).astype(np.int64) > 1.5 * step) & same
-        if wide.any():
-            return [f"{label}: {int(wide.sum())} gaps longer than the usual {step} days between occasions "
-                    "inside a season; the replay joins across them"]
+def _gap_warnings(dates: np.ndarray, rule: SeasonSection, frequency: Frequency, label: str) -> list[str]:
+    """One warning when dates of the history's own calendar inside the season have no row.
+
+    ``dates`` are the evaluated dates, ascending and unique. On daily data a date is missing when
+    no row has it; on sparser data, when no row lies within half a spacing of it. Missing days
+    that look like holidays (:data:`HOLIDAY_LIKE_PER_SEASON`) point to ``[season] holidays``.
+    """
+    expected = frequency.dates_between(dates[0], dates[-1] + 1)
+    expected = expected[season_mask(expected, rule)]
+    if frequency.is_daily:
+        missing = ~np.isin(expected, dates)
+    else:
+        half = (frequency.step_days or 30) / 2
+        nearest = dates[nearest_position(dates, expected)]
+        missing = np.abs((nearest - expected).astype(np.int64)) >= half
+    n_missing = int(missing.sum())
+    if n_missing == 0:
         return []
-    first, last = dates[evaluated][0], dates[evaluated][-1]
-    calendar = np.arange(first, last + 1, dtype="datetime64[D]")
-    stamps = pd.DatetimeIndex(calendar)
-    in_season = np.isin(stamps.month, rule.months) & np.isin(stamps.day_of_week, rule.weekday_numbers)
-    expected = calendar[in_season]
-    missing = np.setdiff1d(expected, dates[evaluated])
-    if missing.size == 0:
-        return []
-    shown = ", ".join(str(_as_date(d)) for d in missing[:3]) + (", ..." if missing.size > 3 else "")
-    return [f"{label}: {missing.size} dates inside the season have no row ({shown}); "
-            "the replay joins across the gaps"]
+    shown = ", ".join(str(_as_date(d)) for d in expected[missing][:3]) + (", ..." if n_missing > 3 else "")
+    if not frequency.is_daily:
+        return [f"{label}: {n_missing} dates of its {frequency.describe()} calendar inside the season have "
+                f"no row ({shown}); the replay joins across the gaps"]
+    head = f"{label}: {n_missing} dates inside the season have no row ({shown})"
+    per_season = _holiday_like(expected, missing, rule)
+    if per_season is None:
+        return [head + "; the replay joins across the gaps"]
+    return [head + f"; they look like holidays (about {per_season:.0f} a season, mostly single "
+            "days): list the priced season's holidays in [season] holidays, so that it skips them as the "
+            "history does (listing these too silences this warning)"]
+
+
+def _holiday_like(expected: np.ndarray, missing: np.ndarray, rule: SeasonSection) -> float | None:
+    """Missing days a season on average when they look like holidays, else None."""
+    edges = np.diff(np.r_[0, missing.astype(np.int8), 0])
+    runs = np.flatnonzero(edges == -1) - np.flatnonzero(edges == 1)  # lengths of runs of missing days
+    start = season_start_month(rule.months)
+    month = expected.astype("datetime64[M]").astype(np.int64)
+    season = (month - (start - 1)) // 12  # the same label for every date of one season
+    seasons = np.unique(season)
+    hit = np.unique(season[missing])
+    per_season = missing.sum() / seasons.size
+    in_long_runs = runs[runs > 2].sum()  # a closure of a week now and then is no pattern
+    if (in_long_runs > 0.1 * missing.sum() or hit.size < max(2, seasons.size / 2)
+            or per_season > HOLIDAY_LIKE_PER_SEASON):
+        return None
+    return float(per_season)
+
+
+def nearest_position(sorted_values: np.ndarray, targets: np.ndarray) -> np.ndarray:
+    """For each target, the position in ``sorted_values`` (ascending) of the nearest value; ties go
+    to the earlier position."""
+    right = np.clip(np.searchsorted(sorted_values, targets), 0, sorted_values.size - 1)
+    left = np.clip(right - 1, 0, sorted_values.size - 1)
+    use_left = np.abs(sorted_values[left] - targets) <= np.abs(sorted_values[right] - targets)
+    return np.where(use_left, left, right)

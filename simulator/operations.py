@@ -54,6 +54,7 @@ from dataclasses import dataclass, field
 import numpy as np
 import simpy
 
+from . import decimals
 from .costs import PricedBlock, baseline_actions
 from .errors import InputError
 from .history import History
@@ -216,16 +217,16 @@ def safety_stops(history: History, scenario: Scenario) -> np.ndarray:
 
     The hazard's probability is the history's probability column as written in the file
     (``safety_probability = "as_in_file"``, the default: undone from ``flip``) or that of the
-    scenario's event (``"of_event"``). Undoing the flip is rounded to 12 decimals so that a
-    file's 0.9 compares as 0.9.
+    scenario's event (``"of_event"``). Both the flip and its undoing are exact decimals, and the
+    stop compares as decimals too (:mod:`simulator.decimals`), so a file's 0.9 stops at 0.9.
     """
     section = scenario.operations
     if section is None or section.safety_stop_at is None:
         return np.zeros(history.n_rows, dtype=bool)
     p = history.p
     if section.safety_probability == "as_in_file" and scenario.event.flip:
-        p = np.round(1.0 - p, 12)
-    return p >= section.safety_stop_at
+        p = decimals.complement(p)
+    return decimals.reaches(p, section.safety_stop_at)
 
 
 # ------------------------------------------------------------------------------------------------
@@ -453,9 +454,9 @@ class RulesPricer:
         if section is None:
             raise ValueError("scenario has no [operations] section")
         label = str(scenario.source) if scenario.source else "scenario"
-        if history.step_days != 1:
+        if not history.frequency.is_daily:
             raise InputError(f"{label} [operations]: the rules are played day by day, but the history "
-                             f"has one forecast every {history.step_days} days; give daily forecasts")
+                             f"is {history.frequency.describe()}; give daily forecasts")
         self.rules = make_rules(section, calendar.dates, scenario.season.weekdays, label)
         self.n_cutoffs = int(cutoffs.size)
         self.n_lanes = self.n_cutoffs + len(BASELINES)

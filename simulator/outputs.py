@@ -195,7 +195,7 @@ def _stress_rows(base, d, savings: np.ndarray, stress) -> pd.DataFrame:
              "achieved_event_rate": None, "event_rate_reached": None, "base_cutoff": d.recommended_cutoff,
              **_strategy_columns(base), "extra_cost": 0.0, "best_cutoff": d.recommended_cutoff,
              "best_mean_cost": base["model"].mean, "saved_by_moving": 0.0, "prob_moving_saves": 0.0,
-             "mean_savings": float(savings.mean()), "prob_saving": float((savings > 0).mean()),
+             "mean_savings": float(savings.mean()), "prob_saving": d.prob_saving,
              "break_even": _ranges(d.break_even)}]
     for case in stress or ():
         rate = case.event_rate
@@ -295,7 +295,7 @@ def _portfolio_entry(result: RunResult) -> dict[str, Any]:
     single-site run; ``stress`` (with ``[[stress]]`` cases): each site's cases, as the ``stress``
     list of a single-site run.
     """
-    from .decision import distribution
+    from .decision import cheaper, distribution
 
     portfolio = result.portfolio
     reference = portfolio.reference_cost
@@ -304,10 +304,11 @@ def _portfolio_entry(result: RunResult) -> dict[str, Any]:
         saved = reference - cost
         p05, p95 = np.quantile(saved, [0.05, 0.95])
         return {"mean": float(saved.mean()), "p05": float(p05), "p95": float(p95),
-                "prob_saving": float((saved > 0).mean())}
+                "prob_saving": float(cheaper(cost, reference).mean())}
 
     own, common = portfolio.own_cost, portfolio.common_cost
-    independent = math.sqrt(sum(float(site.model_cost.var(ddof=1)) for site in portfolio.sites))
+    # fsum: exactly rounded, so the order the sites are listed in changes no bit of it
+    independent = math.sqrt(math.fsum(float(site.model_cost.var(ddof=1)) for site in portfolio.sites))
     return {
         "site_column": portfolio.site_column,
         "sites": len(portfolio.sites),
@@ -316,7 +317,7 @@ def _portfolio_entry(result: RunResult) -> dict[str, Any]:
                        "common_cutoff": distribution(common).as_dict(),
                        "reference": distribution(reference).as_dict()},
         "savings": {"own_cutoffs": savings(own), "common_cutoff": savings(common)},
-        "own_versus_common": {"mean": float((common - own).mean()), "prob_cheaper": float((own < common).mean())},
+        "own_versus_common": {"mean": float((common - own).mean()), "prob_cheaper": float(cheaper(own, common).mean())},
         "spread": {"sd_total_cost": float(own.std(ddof=1)), "sd_if_independent": independent},
         "ranking": [{"rank": i + 1, "site": site.name, "forecast_value": site.forecast_value,
                      "recommended_cutoff": site.decision.recommended_cutoff,

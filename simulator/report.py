@@ -27,6 +27,7 @@ import numpy as np
 
 from . import __version__, figures
 from .figures import Words
+from .scenario import WEEKDAYS
 
 __all__ = ["render_report", "headline_numbers", "recommendation", "format_value", "money", "share",
            "cutoff_text", "strategy_label", "FIELD_FORMATS", "CAUTION"]
@@ -203,6 +204,22 @@ def _weekdays(weekdays: tuple[str, ...]) -> str:
     if len(days) > 2 and order.index(days[-1]) - order.index(days[0]) == len(days) - 1:
         return f"{full[days[0]]} to {full[days[-1]]}"
     return ", ".join(full[w] for w in days)
+
+
+def _occasion_days(result) -> str:
+    """Which days of the season are occasions: its weekdays that the history has rows on (daily
+    data), or how often the history has a row; and how many of its holidays the season skips."""
+    frequency = result.history.frequency
+    if frequency.is_daily:
+        days = tuple(w for w in result.scenario.season.weekdays if WEEKDAYS.index(w) in frequency.weekdays)
+        text = _weekdays(days)
+    else:
+        text = {"weekly": "one occasion a week", "monthly": "one occasion a month"}.get(
+            frequency.kind, f"one occasion every {frequency.step_days} days")
+    skipped = result.calendar.holidays.size
+    if skipped:
+        text += f", less {skipped} holiday{'s' if skipped > 1 else ''}"
+    return text
 
 
 def _decimals(step: float) -> int:
@@ -398,7 +415,7 @@ def render_report(result, summary: Mapping[str, Any]) -> dict[str, bytes]:
     scenario, history, decision, table = result.scenario, result.history, result.decision, result.table
     currency = scenario.currency
     action, event = scenario.decision.action, scenario.event.name
-    occasion = "day" if history.step_days == 1 else "occasion"
+    occasion = "day" if history.frequency.is_daily else "occasion"
     decimals = _decimals(scenario.decision.cutoffs[2])
     words = Words(event=event, action=action, currency=currency, occasion=occasion,
                   reference=result.reference, decimals=decimals,
@@ -478,7 +495,7 @@ def render_report(result, summary: Mapping[str, Any]) -> dict[str, bytes]:
         "strategies": strategies, "losing": share(float((savings < 0).mean())),
         "stress": stress, "operations": operations,
         "rules": _rules_read_back(scenario),
-        "months": _months(scenario.season.months), "weekdays": _weekdays(scenario.season.weekdays),
+        "months": _months(scenario.season.months), "weekdays": _occasion_days(result),
         "scenario_file": Path(scenario.source).name if scenario.source else "(given in code)",
         "auto_block": scenario.simulation.block_days == "auto",
         "n_cutoffs": len(table), "recommended_index": best,

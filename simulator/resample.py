@@ -29,16 +29,15 @@ from __future__ import annotations
 
 import copy
 from collections.abc import Iterator
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from datetime import date
 
 import numpy as np
-import pandas as pd
 
-from .history import History, season_start_month
+from .history import History, nearest_position, season_mask, season_start_month
 from .scenario import SeasonSection
 
-__all__ = ["BLOCK", "Calendar", "Resampler", "season_calendar", "block_rng", "n_blocks", "nearest_position"]
+__all__ = ["BLOCK", "Calendar", "Resampler", "season_calendar", "calendar_warnings", "block_rng", "n_blocks", "nearest_position"]
 
 BLOCK = 500  # replicates per seeded block; part of the reproducibility contract, never change lightly
 
@@ -50,41 +49,55 @@ class Calendar:
     year: int
     dates: np.ndarray  # datetime64[D]
     day_of_season: np.ndarray  # int64
+    holidays: np.ndarray = field(default_factory=lambda: np.array([], dtype="datetime64[D]"))
+    """The ``[season] holidays`` that took a date out of this season (dates it would otherwise hold)."""
 
     @property
     def n_occasions(self) -> int:
         return int(self.dates.size)
 
+    @property
+    def spacing_days(self) -> float:
+        """The usual number of days between consecutive occasions: the median gap (1 on a season of
+        every day, of working days or of trading days; 7 on Mondays only; about 30 on monthly data).
+        Runs of the replay are measured in these days (``block_days``, ``mean_block_days``)."""
+        if self.dates.size < 2:
+            return 1.0
+        return float(np.median(np.diff(self.dates).astype(np.int64)))
+
 
 def season_calendar(history: History, rule: SeasonSection) -> Calendar:
     """The calendar of the season to price: ``[season] year``, else the one after the history.
 
-    Occasions fall every ``history.step_days`` days (1 for daily data) from the season's first day,
-    on the season's months and weekdays.
+    The occasions are the dates of the history's own calendar (:class:`~simulator.history.Frequency`:
+    every day or the weekdays it has rows on, weekly, monthly, ...) from the season's first day to
+    the next season's, that fall in the season's months, on its weekdays and not on its holidays
+    (:func:`~simulator.history.season_mask`). They never depend on the spacing of the history's rows
+    inside the season.
     """
     start_month = season_start_month(rule.months)
     year = rule.year if rule.year is not None else int(history.seasons[-1]) + 1
     first = np.datetime64(date(year, start_month, 1), "D")
     following = np.datetime64(date(year + 1, start_month, 1), "D")
-    days = np.arange(first, following, history.step_days, dtype="datetime64[D]")
-    stamps = pd.DatetimeIndex(days)
-    keep = np.isin(stamps.month, rule.months) & np.isin(stamps.day_of_week, rule.weekday_numbers)
+    days = history.frequency.dates_between(first, following)
+    keep = season_mask(days, rule)
     dates = days[keep]
-    return Calendar(year=year, dates=dates, day_of_season=(dates - first).astype(np.int64))
+    skipped = days[~keep & season_mask(days, rule.model_copy(update={"holidays": ()}))]
+    return Calendar(year=year, dates=dates, day_of_season=(dates - first).astype(np.int64), holidays=skipped)
+
+
+def calendar_warnings(calendar: Calendar, rule: SeasonSection, label: str) -> list[str]:
+    """A warning when ``[season] holidays`` are given but none falls on a date of the priced season
+    (only past holidays listed, say), so that season is priced with its own holidays as occasions."""
+    if not rule.holidays or calendar.holidays.size:
+        return []
+    return [f"{label} [season] holidays: none of the {len(rule.holidays)} dates is a date of the priced "
+            f"{calendar.year} season, which keeps its own holidays as occasions; list them too"]
 
 
 def n_blocks(n_replicates: int) -> int:
     """Seeded blocks that hold ``n_replicates`` replicates (the last one cut to size)."""
     return -(-int(n_replicates) // BLOCK)
-
-
-def nearest_position(sorted_values: np.ndarray, targets: np.ndarray) -> np.ndarray:
-    """For each target, the position in ``sorted_values`` (ascending) of the nearest value; ties go
-    to the earlier position."""
-    right = np.clip(np.searchsorted(sorted_values, targets), 0, sorted_values.size - 1)
-    left = np.clip(right - 1, 0, sorted_values.size - 1)
-    use_left = np.abs(sorted_values[left] - targets) <= np.abs(sorted_values[right] - targets)
-    return np.where(use_left, left, right)
 
 
 def block_rng(seed: int, block: int, *stream: int) -> np.random.Generator:
@@ -100,7 +113,6 @@ class _Dates:
     evaluated: np.ndarray  # bool
     season: np.ndarray  # int64
     day_of_season: np.ndarray  # int64
-    step_days: int
 
 
 def _joint_dates(history: History) -> tuple[_Dates, np.ndarray]:
@@ -113,7 +125,7 @@ def _joint_dates(history: History) -> tuple[_Dates, np.ndarray]:
     dates, first = np.unique(history.dates[ev], return_index=True)
     season, day = history.season[ev][first], history.day_of_season[ev][first]
     joint = _Dates(n_rows=int(dates.size), evaluated=np.ones(dates.size, dtype=bool), season=season,
-                   day_of_season=day, step_days=history.step_days)
+                   day_of_season=day)
     site_rows = np.empty((history.n_sites, dates.size), dtype=np.int64)
     span = int(history.day_of_season.max()) + 1  # keys season * span + day order rows by date
     joint_key = season * span + day
@@ -171,8 +183,7 @@ class Resampler:
         if history.has_sites:
             dates, self._site_rows = _joint_dates(history)
         else:
-            dates = _Dates(history.n_rows, history.evaluated, history.season, history.day_of_season,
-                           history.step_days)
+            dates = _Dates(history.n_rows, history.evaluated, history.season, history.day_of_season)
             self._site_rows = None
         self._n_rows = dates.n_rows
         rows = np.flatnonzero(dates.evaluated)
@@ -181,7 +192,8 @@ class Resampler:
         labels, self._season_k = np.unique(self._season, return_inverse=True)
         day = dates.day_of_season[rows]
         n_days = 367 + self.window_days
-        tolerance = max(dates.step_days, 3)
+        # a season has an occasion near a day when one lies within the calendar's usual spacing
+        tolerance = max(int(np.ceil(calendar.spacing_days)), 3)
         n_seasons = labels.size
         nearest = np.zeros((n_seasons, n_days), dtype=np.int64)
         distance = np.zeros((n_seasons, n_days), dtype=np.int64)

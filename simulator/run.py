@@ -29,6 +29,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
+from . import decimals
 from .blocklength import optimal_block_length
 from .costs import PricedBlock, SeasonPricer, occasion_costs
 from .decision import Decision, Distribution, decide, distribution
@@ -37,7 +38,7 @@ from .history import History, read_history
 from .operations import OperationsResult, UserProcess, make_rules
 from .operations_fast import OperationsPricer
 from .parallel import Executor, InlineExecutor, open_executor, prepare
-from .resample import BLOCK, Calendar, Resampler, block_rng, n_blocks, season_calendar
+from .resample import BLOCK, Calendar, Resampler, block_rng, calendar_warnings, n_blocks, season_calendar
 from .scenario import BASELINES, Scenario, break_even_probability, cost_warnings, read_scenario
 from .selection import Calibration, Selection, calibrate, select_honestly
 from .stress import ReplicatePricer, StressResult, run_stress
@@ -112,7 +113,7 @@ class Portfolio:
     beside the run's common cutoff (the one cutoff for all sites with the lowest mean total).
 
     ``own_cost``, ``common_cost`` and ``reference_cost`` are totals over the sites, each
-    (n_replicates,). ``table`` is ``sites.csv``: one row per site in the order of the history.
+    (n_replicates,). ``table`` is ``sites.csv``: one row per site in the order of the history (by name).
     """
 
     site_column: str
@@ -243,7 +244,7 @@ def run_history(scenario: Scenario, history: History, *, replicates: int | None 
     p_star = break_even_probability(costs)
     calendar = season_calendar(history, scenario.season)
 
-    mean_block = choose_mean_block(history, [scenario])
+    mean_block = choose_mean_block(history, [scenario], calendar)
     resampler = Resampler(history, calendar, mean_block, sim.window_days)
     calibration = calibrate(history) if sim.mode == "calibrated" else None
     if calibration is not None and scenario.operations is not None:
@@ -274,7 +275,8 @@ def run_history(scenario: Scenario, history: History, *, replicates: int | None 
     if operations is not None:
         table = pd.concat([table, pd.DataFrame(operations.per_cutoff())], axis=1)
     quality, value_curve, reliability = forecast_quality(history, cutoffs)
-    warnings = tuple(history.warnings) + tuple(cost_warnings(costs, scenario.decision.action))
+    warnings = (tuple(history.warnings) + tuple(calendar_warnings(calendar, scenario.season, _label(scenario)))
+                + tuple(cost_warnings(costs, scenario.decision.action)))
     stress = None
     if scenario.stress:
         stress = run_stress(scenario, history, calendar=calendar, resampler=resampler, cutoffs=cutoffs,
@@ -291,7 +293,7 @@ def run_history(scenario: Scenario, history: History, *, replicates: int | None 
                                 label=_label(scenario),
                                 rules=scenario if scenario.operations is not None else None)
     return RunResult(scenario=scenario, history=history, calendar=calendar, cutoffs=cutoffs,
-                     replicates=replicates, seed=seed, mean_block_days=mean_block * history.step_days,
+                     replicates=replicates, seed=seed, mean_block_days=mean_block * calendar.spacing_days,
                      theoretical_cutoff=p_star, decision=decision, model_cost=model_cost,
                      baseline_cost=baseline_cost, table=table, quality=quality,
                      value_curve=value_curve, reliability=reliability, warnings=warnings,
@@ -315,7 +317,7 @@ def _run_sites(scenario: Scenario, history: History, *, replicates: int, seed: i
     scenarios = tuple(scenario.for_site(name) for name in names)
     cutoffs = scenario.cutoffs
     calendar = season_calendar(history, scenario.season)
-    mean_block = choose_mean_block(history, scenarios)
+    mean_block = choose_mean_block(history, scenarios, calendar)
     resampler = Resampler(history, calendar, mean_block, sim.window_days)
     work = _Work(resampler=resampler, scenarios=scenarios, cutoffs=cutoffs, seed=seed,
                  replicates=replicates, processes=tuple(processes), outcome_probability=None)
@@ -366,7 +368,7 @@ def _run_sites(scenario: Scenario, history: History, *, replicates: int, seed: i
                           common_cost=model_cost[:, common], reference_cost=baseline_cost[reference],
                           table=_sites_table(sites, common))
 
-    warnings = list(history.warnings)
+    warnings = list(history.warnings) + calendar_warnings(calendar, scenario.season, label)
     if any(site.scenario.costs == scenario.costs for site in sites):
         warnings += cost_warnings(scenario.costs, scenario.decision.action)
     for site in sites:  # the warnings of sites with costs of their own
@@ -375,7 +377,7 @@ def _run_sites(scenario: Scenario, history: History, *, replicates: int, seed: i
     for site in sites:
         warnings += tuple(f'site "{site.name}": {w}' for case in site.stress or () for w in case.warnings)
     return RunResult(scenario=scenario, history=history, calendar=calendar, cutoffs=cutoffs,
-                     replicates=replicates, seed=seed, mean_block_days=mean_block * history.step_days,
+                     replicates=replicates, seed=seed, mean_block_days=mean_block * calendar.spacing_days,
                      theoretical_cutoff=p_star, decision=decision, model_cost=model_cost,
                      baseline_cost=baseline_cost, table=table, quality=quality,
                      value_curve=value_curve, reliability=reliability,
@@ -497,7 +499,7 @@ def _site_result(work: "_Work", k: int, block: PricedBlock) -> SiteResult:
 
 
 def _sites_table(sites: Sequence[SiteResult], common: int) -> pd.DataFrame:
-    """``sites.csv``: one row per site, in the order of the history."""
+    """``sites.csv``: one row per site, in the order of the history (by name)."""
     values = [site.forecast_value for site in sites]
     order = sorted(range(len(sites)), key=lambda i: -values[i])
     rank = np.empty(len(sites), dtype=np.int64)
@@ -783,9 +785,9 @@ def _label(scenario: Scenario) -> str:
     return str(scenario.source) if scenario.source else "scenario"
 
 
-def choose_mean_block(history: History, scenarios: Sequence[Scenario]) -> float:
-    """Mean run length of the replay, in occasions: fixed by ``block_days``, or by Politis and
-    White (2004).
+def choose_mean_block(history: History, scenarios: Sequence[Scenario], calendar: Calendar) -> float:
+    """Mean run length of the replay, in occasions: fixed by ``block_days`` (days of the priced
+    season's usual spacing, :attr:`Calendar.spacing_days`), or by Politis and White (2004).
 
     The automatic choice targets the variance of a season's total cost, so it is applied to the
     series of the cost per date: each site (``scenarios`` holds one per site, in site order; one for
@@ -795,7 +797,7 @@ def choose_mean_block(history: History, scenarios: Sequence[Scenario]) -> float:
     """
     block_days = scenarios[0].simulation.block_days
     if block_days != "auto":
-        return max(1.0, float(block_days) / history.step_days)
+        return max(1.0, float(block_days) / calendar.spacing_days)
     evaluated = history.evaluated
     dates, index = np.unique(history.dates[evaluated], return_inverse=True)
     site = history.site[evaluated] if history.has_sites else np.zeros(index.size, dtype=np.int64)
@@ -805,6 +807,6 @@ def choose_mean_block(history: History, scenarios: Sequence[Scenario]) -> float:
         own = site == k
         p_star = break_even_probability(scenario.costs)
         series = (event[own].astype(float) if np.isnan(p_star)
-                  else occasion_costs(p[own] >= p_star, event[own], scenario.costs))
+                  else occasion_costs(decimals.reaches(p[own], p_star), event[own], scenario.costs))
         total += np.bincount(index[own], weights=series, minlength=dates.size)
     return max(1.0, float(optimal_block_length(total)))

@@ -8,10 +8,9 @@ always best produces a warning (returned, never printed: ``cli.py`` prints).
 from __future__ import annotations
 
 import hashlib
-import math
 import tomllib
 import typing
-from datetime import date
+from datetime import date, datetime, time
 from pathlib import Path
 from typing import Annotated, Any, Literal
 
@@ -19,6 +18,7 @@ import numpy as np
 from pydantic import (BaseModel, ConfigDict, Field, ValidationError, create_model, field_validator,
                       model_validator)
 
+from . import decimals
 from .errors import InputError, did_you_mean, read_input_file
 
 __all__ = ["Scenario", "Costs", "read_scenario", "scenario_from_text", "cutoff_grid",
@@ -87,11 +87,11 @@ class DecisionSection(_Section):
             raise ValueError(f"from and to must satisfy 0 <= from < to <= 1, got {lo} and {hi}")
         if step <= 0:
             raise ValueError(f"the step must be positive, got {step}")
-        n = (hi - lo) / step
-        if abs(n - round(n)) > 1e-6:
+        n = decimals.whole_steps(lo, hi, step)
+        if n is None:
             raise ValueError(f"the step {step} does not divide {lo} to {hi} into whole steps")
-        if round(n) + 1 > 10001:
-            raise ValueError(f"{round(n) + 1} cutoffs is too many; use a step of at least 0.0001")
+        if n + 1 > 10001:
+            raise ValueError(f"{n + 1} cutoffs is too many; use a step of at least 0.0001")
         return value
 
 
@@ -108,9 +108,37 @@ class Costs(_Section):
         return np.array([self.hit, self.false_alarm, self.miss, self.correct_negative], dtype=float)
 
 
+def _date_list(value: Any) -> Any:
+    """A list of dates as ``[season] holidays`` and ``[operations] holidays`` take them: TOML dates
+    or "YYYY-MM-DD" text; anything else is one plain error naming the item."""
+    if isinstance(value, str | date):
+        raise ValueError("list the dates in brackets, e.g. holidays = [2027-05-03, 2027-08-30]")
+    if not isinstance(value, list | tuple):
+        return value  # pydantic says what it wanted
+    out = []
+    for i, item in enumerate(value, 1):
+        if isinstance(item, datetime):
+            item = item.date() if item.time() == time() else item
+        if isinstance(item, str):
+            try:
+                item = date.fromisoformat(item.strip())
+            except ValueError:
+                pass
+        if type(item) is not date:
+            raise ValueError(f"item {i}, {item!r}, is not a date; write dates as YYYY-MM-DD, "
+                             "e.g. holidays = [2027-05-03, 2027-08-30]")
+        out.append(item)
+    return tuple(out)
+
+
 class SeasonSection(_Section):
+    """The occasions that make a season: dates of the history's own calendar in ``months``, on
+    ``weekdays`` (daily data only) and not among ``holidays`` (dates that are not occasions, such
+    as market holidays or closed days; the operating rules then have no working day on them)."""
+
     months: tuple[Annotated[int, Field(ge=1, le=12)], ...] = tuple(range(1, 13))
     weekdays: tuple[str, ...] = WEEKDAYS
+    holidays: tuple[date, ...] = ()
     year: int | None = None
 
     @field_validator("months")
@@ -121,6 +149,8 @@ class SeasonSection(_Section):
         if len(set(value)) != len(value):
             raise ValueError("a month is listed twice")
         return value
+
+    _holidays = field_validator("holidays", mode="before")(_date_list)
 
     @field_validator("weekdays")
     @classmethod
@@ -175,6 +205,8 @@ class OperationsSection(_Section):
     max_standby_days: Annotated[int, Field(ge=1)] | None = None
     safety_stop_at: Annotated[float, Field(gt=0, le=1)] | None = None
     safety_probability: Literal["as_in_file", "of_event"] = "as_in_file"
+
+    _holidays = field_validator("holidays", mode="before")(_date_list)
 
     @field_validator("workdays", "overtime_weekdays")
     @classmethod
@@ -376,14 +408,9 @@ class Scenario(_Section):
 
 
 def cutoff_grid(lo: float, hi: float, step: float) -> np.ndarray:
-    """Cutoffs from ``lo`` to ``hi`` by ``step``, both ends included, rounded to the step's decimals.
-
-    Built with ``linspace`` and rounded, never ``arange`` with a float step (whose 0.3 is
-    0.30000000000000004; common practice, no single source).
-    """
-    n = int(round((hi - lo) / step)) + 1
-    decimals = max(0, -int(math.floor(math.log10(step)))) + 2
-    return np.round(np.linspace(lo, hi, n), decimals)
+    """Cutoffs from ``lo`` to ``hi`` by ``step``, both ends included, each the float nearest its
+    decimal (:func:`simulator.decimals.grid`)."""
+    return decimals.grid(lo, hi, step)
 
 
 def break_even_probability(costs: Costs) -> float:

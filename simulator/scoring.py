@@ -17,6 +17,8 @@ from typing import NamedTuple
 
 import numpy as np
 
+from . import decimals
+
 __all__ = [
     "Contingency",
     "cutoff_slots",
@@ -80,8 +82,9 @@ class Contingency:
 
 
 def cutoff_slots(p: np.ndarray, cutoffs: np.ndarray) -> np.ndarray:
-    """How many cutoffs each probability reaches: ``#{k : p >= cutoffs[k]}``; cutoffs ascending."""
-    return np.searchsorted(cutoffs, p, side="right").astype(np.int64)
+    """How many cutoffs each probability reaches: ``#{k : p >= cutoffs[k]}`` as decimals (compared
+    in whole units of 10^-12, :mod:`simulator.decimals`); cutoffs ascending."""
+    return decimals.slots(p, cutoffs)
 
 
 def counts_from_slots(slots: np.ndarray, event: np.ndarray, n_cutoffs: int) -> Contingency:
@@ -456,9 +459,10 @@ def _bin_edges(n_bins: int) -> np.ndarray:
 
 
 def _bin_index(p: np.ndarray, n_bins: int) -> np.ndarray:
-    """Uniform bin of each p: bins [lower, upper), the last one [lower, 1]."""
-    edges = _bin_edges(n_bins)
-    return np.minimum(np.searchsorted(edges, p, side="right") - 1, int(n_bins) - 1)
+    """Uniform bin of each p: bins [lower, upper), the last one [lower, 1], edges compared as
+    decimals (:func:`simulator.decimals.bins`)."""
+    _bin_edges(n_bins)  # checks n_bins
+    return decimals.bins(p, n_bins)
 
 
 @dataclass(frozen=True)

@@ -35,8 +35,9 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
-from . import scoring
+from . import decimals, scoring
 from .costs import SeasonPricer, baseline_actions, occasion_costs, price
+from .decision import lowest
 from .errors import InputError
 from .history import History
 from .operations_fast import OperationsPricer
@@ -121,7 +122,7 @@ def calibrate(history: History, n_bins: int = 10) -> Calibration:
     fit = fit_recalibration(p, event)
     probability = fit(history.p)
     table = scoring.reliability_table(p, event, n_bins)
-    bins = np.clip((p * n_bins).astype(np.int64), 0, n_bins - 1)  # as scoring bins: edges go up
+    bins = decimals.bins(p, n_bins)  # the bins of scoring.reliability_table
     recal_sum = np.bincount(bins, weights=probability[train], minlength=n_bins)
     frame = pd.DataFrame(dataclasses.asdict(table))
     with np.errstate(invalid="ignore", divide="ignore"):
@@ -290,7 +291,7 @@ def _validation_check(c: _Context) -> ValidationCheck:
     index, spread = _choose_on(c, train, key=0, target_occasions=int(val.sum()))
     cutoff = float(c.cutoffs[index])
     val_costs, reference_cost, _ = _period_costs(c, val, train)
-    best = int(np.argmin(val_costs))
+    best = int(lowest(val_costs))
     training = _record(c, "training", train, train, index)
     validation = _record(c, "validation", val, train, index)
     return ValidationCheck(chosen_cutoff=cutoff, training=training, validation=validation,
@@ -310,7 +311,7 @@ def _walk_forward(c: _Context) -> WalkForward:
         index, spread = _choose_on(c, train, key=int(season), target_occasions=int(priced.sum()))
         # the reference knows only the earlier seasons too (it matters for seasonal_rate)
         season_costs, reference_cost, _ = _period_costs(c, priced, train)
-        best = int(np.argmin(season_costs))
+        best = int(lowest(season_costs))
         record = _record(c, f"season {season}", priced, train, index)
         steps.append(WalkForwardStep(
             season=int(season), training=_record(c, f"seasons before {season}", train, train, index),
@@ -319,7 +320,7 @@ def _walk_forward(c: _Context) -> WalkForward:
             flag=bool(record.cost_per_occasion > spread[1])))
     later = h.evaluated & (h.season > h.seasons[0])
     pooled, _, _ = _period_costs(c, later, h.training)
-    best = int(np.argmin(pooled))
+    best = int(lowest(pooled))
     total = float(sum(s.priced.cost for s in steps))
     reference = float(sum(s.reference_cost for s in steps))
     return WalkForward(steps=tuple(steps), total_cost=total, in_sample_cutoff=float(c.cutoffs[best]),
@@ -342,7 +343,7 @@ def _choose_on(c: _Context, mask: np.ndarray, key: int,
     pricer = c.pricer(h)
     model = np.concatenate([pricer(rows).model
                             for rows in resampler.blocks(c.seed, c.n_rep, SELECTION_STREAM, key)])
-    index = int(np.argmin(model.mean(axis=0)))
+    index = int(lowest(model.mean(axis=0)))  # as the core chooses (decision.decide)
     per_occasion = model[:, index] / c.calendar.n_occasions
     ratio = target_occasions / c.calendar.n_occasions
     if ratio >= 1:

@@ -37,8 +37,9 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from . import decimals
 from .costs import PricedBlock, SeasonPricer, baseline_actions, occasion_costs, price
-from .decision import Decision, Distribution, decide, distribution
+from .decision import Decision, Distribution, cheaper, decide, distribution
 from .errors import InputError
 from .history import History
 from .operations_fast import OperationsPricer
@@ -473,7 +474,7 @@ def _run_case(case: StressCase, base: _Base) -> StressResult:
                                {n: baselines[:, i] for i, n in enumerate(BASELINES)}, rate_check))
     return StressResult(name=case.name, changes=case.model_dump(exclude_none=True, exclude={"name"}),
                         costs=costs, theoretical_cutoff=break_even_probability(costs),
-                        mean_block_days=sampler.mean_block * history.step_days,
+                        mean_block_days=sampler.mean_block * base.calendar.spacing_days,
                         seasons_used=seasons_used, event_rate=rate_check, views=tuple(out_views),
                         warnings=tuple(warnings))
 
@@ -489,7 +490,7 @@ def _case_resampler(case: StressCase, base: _Base, warnings: list[str]) -> tuple
     if case.worst_seasons is None and case.block_days is None:
         return base.resampler, None
     history = base.history
-    mean_block = (max(1.0, case.block_days / history.step_days) if case.block_days is not None
+    mean_block = (max(1.0, case.block_days / base.calendar.spacing_days) if case.block_days is not None
                   else base.resampler.mean_block)
     seasons_used = None
     if case.worst_seasons is not None:
@@ -541,7 +542,7 @@ def _view(name: str, case: StressCase, base: _Base, model: np.ndarray, baseline_
     strategies.update({n: distribution(c) for n, c in baseline_cost.items()})
     extra = float(at_base.mean() - base.mean_cost)
     saved = float(at_base.mean() - at_best.mean())
-    moving = float((at_best < at_base).mean())
+    moving = float(cheaper(at_best, at_base).mean())
     savings = reference - at_base
     headline = _headline(case.name, name, float(cutoffs[base_index]), float(cutoffs[best]), extra, saved,
                          moving, decision.near_optimal_band, base.scenario.currency)
@@ -550,7 +551,7 @@ def _view(name: str, case: StressCase, base: _Base, model: np.ndarray, baseline_
     return StressView(probabilities=name, base_cutoff=float(cutoffs[base_index]), strategies=strategies,
                       extra_cost=extra, best_cutoff=float(cutoffs[best]), best_cost=distribution(at_best),
                       saved_by_moving=saved, prob_moving_saves=moving, savings=distribution(savings),
-                      prob_saving=float((savings > 0).mean()), decision=decision, headline=headline,
+                      prob_saving=float(cheaper(at_base, reference).mean()), decision=decision, headline=headline,
                       mean_cost=model.mean(axis=0), model_cost_at_base=at_base,
                       model_cost_at_best=at_best, baseline_cost=baseline_cost)
 
@@ -579,7 +580,7 @@ def _headline(case: str, view: str, base: float, best: float, extra: float, save
 def _worst_seasons(history: History, costs: Costs, cutoff: float, k: int) -> tuple[int, ...]:
     """The k seasons with the highest historical cost per occasion when acting at ``cutoff``."""
     rows = history.evaluated
-    cost = occasion_costs(history.p[rows] >= cutoff, history.event[rows], costs)
+    cost = occasion_costs(decimals.reaches(history.p[rows], cutoff), history.event[rows], costs)
     labels, index = np.unique(history.season[rows], return_inverse=True)
     per_occasion = np.bincount(index, weights=cost) / np.bincount(index)
     order = np.argsort(-per_occasion, kind="stable")[:k]

@@ -13,7 +13,7 @@ from collections.abc import Sequence
 import numpy as np
 import pandas as pd
 
-from . import scoring
+from . import decimals, scoring
 from .costs import price
 from .decision import per_cutoff
 from .history import History
@@ -106,7 +106,7 @@ def _value_curve(history: History, cutoffs: np.ndarray) -> pd.DataFrame:
     cutoff for each ratio) and the value of acting at a cutoff equal to the ratio."""
     p, event = history.p[history.evaluated], history.event[history.evaluated]
     counts = scoring.count_at_cutoffs(p, event, cutoffs)
-    ratios = np.round(np.linspace(0.01, 0.99, 99), 2)
+    ratios = decimals.grid(0.01, 0.99, 0.01)
     base_rate = float(event.mean())
     at_ratio = scoring.count_at_cutoffs(p, event, ratios)
     r_at = scoring.rates(at_ratio)

@@ -192,6 +192,15 @@ def test_class_with_fewer_than_five_occasions_is_refused(outcome, fragment, good
                    fragment, "use a longer history or a wider season")
 
 
+def test_weekdays_on_a_monthly_history_are_refused(write_history, write_scenario, history_frame, out):
+    monthly = history_frame[pd.to_datetime(history_frame["date"]).dt.day == 1]  # the 1st of each month
+    write_history(monthly)
+    scenario = write_scenario(season={"weekdays": ["mon", "tue", "wed", "thu", "fri"]})
+    assert_refused(gonogo("run", scenario, "--out", out), out,
+                   "scenario.toml [season] weekdays: ", "history.csv has a row every month",
+                   "leave weekdays out of [season]")
+
+
 def test_rare_class_is_counted_in_the_season_only(write_history, write_scenario, history_frame, out):
     # 4 events in June-August only: the whole history has plenty, the season too few
     frame = history_frame.copy()
@@ -222,6 +231,13 @@ def test_validation_date_outside_the_history_is_refused(when, write_history, wri
     assert_refused(gonogo("run", scenario, "--out", out), out, "scenario.toml [history] validation_from",
                    f"{when} is outside the evaluated history (2020-01-01 to 2022-12-31)",
                    "pick a date inside it")
+
+
+def test_check_command_names_the_historys_calendar(write_history, history_frame):
+    workdays = history_frame[pd.to_datetime(history_frame["date"]).dt.day_of_week < 5]
+    result = gonogo("check", write_history(workdays))
+    assert result.exit_code == 0, result.output
+    assert "daily on mon, tue, wed, thu, fri" in result.stdout
 
 
 def test_check_command_refuses_bad_input_the_same_way(write_history, text_frame, tmp_path):

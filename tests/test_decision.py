@@ -13,7 +13,7 @@ import pytest
 
 from simulator.decision import CONFIDENT, NEAR_OPTIMAL, cutoff_ranges, decide, distribution, per_cutoff
 from simulator.history import history_from_frame
-from simulator.run import run_history
+from simulator.run import run, run_history
 from simulator.scenario import break_even_probability
 
 CUTOFFS = np.array([0.1, 0.2, 0.3, 0.4, 0.5, 0.6, 0.7])
@@ -79,7 +79,7 @@ def test_near_optimal_band_is_the_run_within_one_percent_around_the_recommended(
     assert decision.near_optimal_band == (0.2, 0.4)
 
 
-def test_break_even_ranges_where_the_mean_is_at_most_the_reference(hand_made, rng):
+def test_break_even_ranges_where_the_mean_is_below_the_reference(hand_made, rng):
     decision = decide(*hand_made, CUTOFFS, seasons_per_history=5, rng=rng)
     assert decision.break_even == [(0.2, 0.5), (0.7, 0.7)]
 
@@ -104,6 +104,58 @@ def test_a_season_that_saves_nothing_does_not_count_as_saving(rng):
     decision = decide(cost, reference, np.array([0.1, 0.2]), seasons_per_history=1, rng=rng)
     assert decision.recommended_cutoff == 0.1
     assert decision.prob_saving == 0.5
+
+
+def test_a_cutoff_that_costs_the_reference_to_the_last_bit_is_no_saving(rng):
+    # Cutoff 0.1 acts as the reference does: the same money, summed in another order, so it
+    # differs from the reference's by a few units in the last place (IEEE 754; Goldberg 1991,
+    # "What every computer scientist should know about floating-point arithmetic"). It must not
+    # count as cheaper, on average or in any season; 0.2 is cheaper by a whole euro everywhere.
+    reference = np.array([581826.0, 529800.0, 634800.0, 600000.0])
+    tie = np.nextafter(reference, -np.inf)  # a hair cheaper in every season
+    cost = np.column_stack([tie, reference - 1.0, reference + 50.0])
+    decision = decide(cost, reference, CUTOFFS[:3], seasons_per_history=1, rng=rng)
+    assert decision.break_even == [(0.2, 0.2)]
+    assert decision.confident_break_even == [(0.2, 0.2)]
+    assert per_cutoff(cost, reference)["prob_saving"].tolist() == [0.0, 1.0, 0.0]
+    # ties of the lowest cost go to the lowest cutoff though they differ in the last bit
+    twins = np.column_stack([reference + 1.0, np.nextafter(reference, np.inf), reference])
+    assert decide(twins, reference + 5, CUTOFFS[:3], seasons_per_history=1, rng=rng).recommended_index == 1
+
+
+def test_demo_cutoffs_that_act_as_always_act_do_not_beat_it(tmp_path):
+    # The demo's reference is always_act. A cutoff no higher than every P(dry day) of the history
+    # acts on every occasion, exactly as the reference does: a tie, not a saving.
+    from simulator.demo import write_demo_files
+    from simulator.scenario import read_scenario
+
+    result = run(read_scenario(write_demo_files(tmp_path)), replicates=300)
+    assert result.reference == "always_act"
+    acts_always = result.cutoffs <= result.history.p[result.history.evaluated].min()
+    assert acts_always[0] and acts_always.sum() >= 2
+    for ranges in (result.decision.break_even, result.decision.confident_break_even):
+        inside = np.zeros(result.cutoffs.size, dtype=bool)
+        for lo, hi in ranges:
+            inside |= (result.cutoffs >= lo) & (result.cutoffs <= hi)
+        assert not (inside & acts_always).any()
+    assert result.decision.break_even[0][0] > 0.0
+
+
+def test_cutoffs_above_every_probability_do_not_beat_never_act(toml_text, synthetic, rng):
+    # Under the never_act reference a cutoff above every probability never acts: a tie. The same
+    # rule holds for the stress cases, which decide with the same function.
+    from simulator.scenario import scenario_from_text
+
+    text = toml_text(simulation={"replicates": 200, "seed": 3, "reference": "never_act"})
+    scenario = scenario_from_text(text + '\n[[stress]]\nname = "dearer misses"\n'
+                                  "cost_multipliers = { miss = 1.5 }\n")
+    frame = synthetic.calibrated_frame(rng, p=rng.uniform(0.05, 0.80, 1096))
+    result = run_history(scenario, history_from_frame(frame, scenario))
+    top = result.history.p.max()
+    decisions = [result.decision] + [view.decision for case in result.stress for view in case.views]
+    for decision in decisions:
+        for _, hi in decision.break_even + decision.confident_break_even:
+            assert hi <= top
 
 
 def test_near_optimal_band_is_relative_to_the_size_of_an_income(rng):

@@ -28,7 +28,7 @@ def test_the_python_examples_run_as_written(monkeypatch):
     for block in blocks:
         exec(compile(block, str(DOC), "exec"), namespace)  # noqa: S102 - our own documentation
     result, cheap = namespace["result"], namespace["cheap"]
-    assert [site.name for site in result.sites] == ["Gannetholm Harbour", "Ferrowby Moor", "Pellisford",
+    assert [site.name for site in result.sites] == ["Ferrowby Moor", "Gannetholm Harbour", "Pellisford",
                                                     "Scarth Top", "Tarnbeck Lane"]
     assert result.replicates == 500 and cheap.scenario.costs.miss == 4500
     assert {p.name for p in namespace["written"]} >= {"cutoffs.csv", "summary.json", "report.html"}

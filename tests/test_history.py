@@ -169,11 +169,11 @@ def test_validation_period_starts_on_validation_from(make_history):
     assert history.has_validation
 
 
-def test_weekly_history_has_a_seven_day_step(make_history):
+def test_weekly_history_is_weekly(make_history):
     frame = _frame(n=60)
     frame["date"] = pd.date_range("2019-01-07", periods=60, freq="7D").strftime("%Y-%m-%d")
     history = make_history(frame)
-    assert history.step_days == 7
+    assert history.frequency.kind == "weekly" and history.frequency.step_days == 7
     assert history.warnings == ()
 
 

@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import re
 import tomllib
+from datetime import date
 from pathlib import Path
 
 import numpy as np
@@ -367,3 +368,13 @@ def test_rules_demo_documents_every_key_and_runs():
     block = summary(result)["operations"]
     assert block["working_days"] == 150  # 152 weekdays April-October 2027, less 2 holidays
     assert block["deadline"] == "2027-09-24"
+
+
+def test_a_season_holiday_is_no_working_day():
+    # 2027-06-15 is a Tuesday inside the rules demo's season and not one of its [operations] holidays
+    scenario = read_scenario(RULES_DEMO)
+    season = scenario.season.model_copy(update={"holidays": (date(2027, 6, 15),)})
+    scenario = scenario.model_copy(update={"season": season})
+    result = run_history(scenario, read_history(scenario), replicates=30)
+    assert np.datetime64("2027-06-15") not in result.calendar.dates
+    assert summary(result)["operations"]["working_days"] == 149  # the demo's 150, less that day

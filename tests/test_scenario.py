@@ -139,6 +139,29 @@ def test_misspelt_weekday_suggests_the_closest(toml_text):
     assert '"frd" is not a weekday; did you mean "fri"?' in message and "[season] weekdays" in message
 
 
+@pytest.mark.parametrize("section", ["season", "operations"])
+@pytest.mark.parametrize("holidays, expected", [
+    (["2027-05-03", "2027-13-01"], "item 2, '2027-13-01', is not a date; write dates as YYYY-MM-DD"),
+    (["next monday"], "item 1, 'next monday', is not a date; write dates as YYYY-MM-DD"),
+    ([20270503], "item 1, 20270503, is not a date; write dates as YYYY-MM-DD"),
+    ("2027-05-03", "list the dates in brackets, e.g. holidays = [2027-05-03, 2027-08-30]"),
+])
+def test_a_holiday_that_is_not_a_date_is_refused_naming_the_item(section, holidays, expected, toml_text):
+    keys = {"holidays": holidays}
+    if section == "operations":
+        keys.update(crews_out_on="acting", spoiled_on="event", day_rate=100)
+    message = _error(toml_text(**{section: keys}))
+    assert message.startswith(f"my.toml [{section}] holidays: ") and expected in message
+
+
+def test_season_holidays_read_as_toml_dates_or_text(make_scenario):
+    season = make_scenario(season={"holidays": ["2027-05-03", " 2027-08-30"]}).season
+    assert [str(d) for d in season.holidays] == ["2027-05-03", "2027-08-30"]
+    toml = scenario_from_text('name = "x"\n[costs]\nhit = 1\nfalse_alarm = 2\nmiss = 3\n'
+                              "[season]\nholidays = [2027-05-03]\n")
+    assert [str(d) for d in toml.season.holidays] == ["2027-05-03"]
+
+
 def test_month_out_of_range_is_refused(toml_text):
     assert "[season] months" in _error(toml_text(season={"months": [4, 13]}))
 

@@ -220,13 +220,34 @@ def test_a_site_with_too_few_events_is_refused_naming_the_site(frame):
         history_from_frame(rare, scenario, label="history.csv")
 
 
-def test_a_repeated_date_at_one_site_names_the_rows_and_the_site(frame):
-    scenario = scenario_from_text(SITES_TOML)
-    twice = pd.concat([frame.iloc[:3], frame.iloc[[2]], frame.iloc[3:]]).reset_index(drop=True)
+def _refusal(frame: pd.DataFrame) -> str:
+    """The one-line message that refuses ``frame`` as the two-depot history."""
     with pytest.raises(InputError) as err:
-        history_from_frame(twice, scenario, label="history.csv")
-    assert str(err.value) == ('history.csv row 5, column "date": 2016-01-02 appears again for site '
-                              '"North" (first at row 4); keep one row per site and date')
+        history_from_frame(frame, scenario_from_text(SITES_TOML), label="history.csv")
+    return str(err.value)
+
+
+def test_a_repeated_date_at_one_site_names_the_rows_and_the_site(frame):
+    twice = pd.concat([frame.iloc[:3], frame.iloc[[2]], frame.iloc[3:]]).reset_index(drop=True)
+    assert _refusal(twice) == ('history.csv row 5, column "date": 2016-01-02 appears again for site '
+                               '"North" (first at row 4); keep one row per site and date')
+
+
+def test_sites_with_rows_at_different_spacings_are_refused(frame):
+    dates = pd.to_datetime(frame["date"])
+    weekly_south = frame[(frame["site"] == "North") | (dates.dt.day_of_week == 0)]  # South: Mondays only
+    assert _refusal(weekly_south) == ('history.csv: site "North" has a row every day and site "South" '
+                                      "every week; give every site forecasts at the same spacing")
+
+
+def test_sites_on_different_weekdays_are_daily_on_all_of_them(frame):
+    # North reports on working days, South every day: the joint calendar is every day
+    scenario = scenario_from_text(SITES_TOML)
+    dates = pd.to_datetime(frame["date"])
+    mixed = frame[(frame["site"] == "South") | (dates.dt.day_of_week < 5)]
+    history = history_from_frame(mixed, scenario, label="history.csv")
+    assert history.frequency.describe() == "daily"
+    assert history.for_site(0).frequency.is_daily
 
 
 @pytest.mark.parametrize("extra, fragment", [
@@ -305,7 +326,8 @@ def test_the_gritting_example_prices_five_depots_and_warns_of_the_missing_nights
 
     path = Path(__file__).resolve().parents[1] / "scenarios" / "gritting_depots.toml"
     result = run(read_scenario(path), replicates=100)
-    assert [site.name for site in result.sites] == ["Gannetholm Harbour", "Ferrowby Moor", "Pellisford",
+    # sites in the order of their names, whatever the file's order
+    assert [site.name for site in result.sites] == ["Ferrowby Moor", "Gannetholm Harbour", "Pellisford",
                                                     "Scarth Top", "Tarnbeck Lane"]
     assert result.portfolio.table.set_index("site").loc["Tarnbeck Lane", "missing_dates"] == 9
     assert any('"Tarnbeck Lane" 9 (from 2022-01-10)' in w for w in result.warnings)
