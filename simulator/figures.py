@@ -11,6 +11,10 @@ Every function draws in one of two layouts: ``narrow=False`` for a desktop page 
 (8 inches wide at 150 dpi), ``narrow=True`` for a phone (4.2 inches wide at 170 dpi, legends in one
 column): shown 350 CSS pixels wide, a 9-point label of the narrow layout is about 10 pixels high,
 where the wide one would shrink to about 5. Legends sit outside the axes, so they never cover data.
+
+Strings from a scenario or a history are plain text here: no text is parsed as mathematical markup
+(``text.parse_math`` is off in every figure), and each user string passes through
+:func:`user_text`, which writes control characters as escapes (no font has glyphs for them).
 """
 
 from __future__ import annotations
@@ -27,6 +31,8 @@ from matplotlib.figure import Figure
 from matplotlib import dates as mdates
 from matplotlib.ticker import FuncFormatter, MaxNLocator
 
+from .errors import printable
+
 __all__ = ["Chart", "Words", "OKABE_ITO", "BASELINE_STYLE", "focus_range", "cost_chart", "savings_chart", "reliability_chart",
            "roc_chart", "value_chart", "stress_chart", "components_chart", "completion_chart"]
 
@@ -37,7 +43,14 @@ _DPI = 150
 _STYLE = {"font.size": 10, "axes.titlesize": 11, "axes.titleweight": "bold", "axes.titlelocation": "left",
           "axes.spines.top": False, "axes.spines.right": False, "axes.grid": True, "grid.color": "#dddddd",
           "grid.linewidth": 0.6, "axes.edgecolor": "#444444", "legend.frameon": False,
-          "legend.fontsize": 9}
+          "legend.fontsize": 9,
+          "text.parse_math": False}  # "$" in a user's name is a dollar sign, never mathematical markup
+
+
+def user_text(text: str) -> str:
+    """A user's string as it is drawn: plain text (see the module's docstring), control characters
+    written as escapes."""
+    return printable(str(text))
 
 # colour and dash of each baseline line, each pair its own (the model is always solid blue, the
 # recommended cutoff solid black, the page's slider marker yellow): long dashes, dash-dot, dots,
@@ -66,6 +79,11 @@ class Words:
     labels: dict[str, str] = field(default_factory=dict)  # strategy name -> short legend label
     reference: str = "never_act"
     decimals: int = 2  # decimals of a cutoff on this grid
+
+    def __post_init__(self) -> None:
+        for name in ("event", "action", "currency", "occasion"):
+            object.__setattr__(self, name, user_text(getattr(self, name)))
+        object.__setattr__(self, "labels", {k: user_text(v) for k, v in self.labels.items()})
 
 
 @dataclass(frozen=True)
@@ -360,9 +378,10 @@ def stress_chart(names: Sequence[str], mean: Sequence[float], p05: Sequence[floa
         ax.plot(best, y, "D", color=OKABE_ITO["vermillion"], mfc="white", mew=1.6, ms=7,
                 label="Expected, at the case's own best cutoff")
         style = BASELINE_STYLE.get(words.reference, {"color": _GREY})
+        reference_name = words.labels.get(words.reference, words.reference)
         ax.plot(reference, y, "|", color=style["color"], ms=18, mew=3, zorder=4,
-                label=f"Expected, {words.labels.get(words.reference, words.reference).lower()} (the reference rule)")
-        ax.set_yticks(y, [_wrap(n, 22 if narrow else 34) for n in names])
+                label=f"Expected, {reference_name[:1].lower() + reference_name[1:]} (the reference rule)")
+        ax.set_yticks(y, [_wrap(user_text(n), 22 if narrow else 34) for n in names])
         ax.grid(axis="y", visible=False)
         ax.set_ylim(-0.6, len(names) - 0.4)
         ax.set_xlabel(f"Season cost ({words.currency})")
@@ -389,7 +408,7 @@ def components_chart(names: Sequence[str], values: Sequence[float], reference: S
         if reference is not None:
             ax.barh(y - height / 2, reference, height=height, color=OKABE_ITO["vermillion"], hatch="///",
                     edgecolor="white", label="The reference rule")
-        ax.set_yticks(y, list(names))
+        ax.set_yticks(y, [user_text(n) for n in names])
         ax.grid(axis="y", visible=False)
         ax.set_xlabel(f"Expected cost in a season ({words.currency})")
         _money_axis(ax.xaxis)
@@ -400,29 +419,38 @@ def components_chart(names: Sequence[str], values: Sequence[float], reference: S
         return Chart(_png(fig))
 
 
-def completion_chart(weeks: Sequence[str], shares: Sequence[float], deadline: str | None,
-                     words: Words, narrow: bool = False) -> Chart:
-    """Share of simulated seasons with the work finished by the end of each week (a step curve)."""
-    _, _, ncol, wrap = _layout(narrow)
+def completion_chart(dates: Sequence[str], shares: Sequence[float], reference: Sequence[float] | None,
+                     deadline: str | None, words: Words, reference_label: str = "Reference rule",
+                     narrow: bool = False) -> Chart:
+    """Share of simulated seasons with the work finished by the end of each day (a daily step curve:
+    its height at the deadline is the share finished on time), at the cutoff and, when given, under
+    the reference rule."""
     with mpl.rc_context(_STYLE):
         fig = _figure(3.6, narrow, 4.4)
         ax = fig.add_subplot()
-        start = np.array(weeks, dtype="datetime64[D]")
-        end = start + 7  # finished during the week: counted from its end
-        done = 100 * np.cumsum(np.asarray(shares, dtype=float))
-        ax.step(np.concatenate([[start[0]], end]), np.concatenate([[0.0], done]), where="post",
-                color=OKABE_ITO["blue"], lw=2, label="Seasons with the work finished")
+        day = np.array(dates, dtype="datetime64[D]")
+        done = 100 * np.asarray(shares, dtype=float)
+        # finished during a day: counted from the end of it
+        ax.step(np.concatenate([[day[0]], day + 1]), np.concatenate([[0.0], done]), where="post",
+                color=OKABE_ITO["blue"], lw=2, label="Following the forecast at the recommended cutoff")
+        if reference is not None:
+            ax.step(np.concatenate([[day[0]], day + 1]), np.concatenate([[0.0], 100 * np.asarray(reference)]),
+                    where="post", color="#555555", lw=1.5, linestyle=(0, (1, 1.5)),
+                    label=f"{reference_label} (reference)")
         if deadline:
-            ax.axvline(np.datetime64(deadline, "D"), color=OKABE_ITO["vermillion"], lw=1.5,
-                       linestyle=(0, (4, 2)), label=f"Deadline {deadline}")
+            ax.axvline(np.datetime64(deadline, "D") + 1, color=OKABE_ITO["vermillion"], lw=1.5,
+                       linestyle=(0, (4, 2)), label=f"Deadline {deadline} (end of the day)")
         ax.set_ylim(0, 102)
+        started = (done > 0) | (100 * np.asarray(reference if reference is not None else done) > 0)
+        first = int(np.argmax(started)) if started.any() else 0
+        ax.set_xlim(day[max(first - 7, 0)], day[-1] + 1)  # from a week before the first season finishes
         ax.set_ylabel("Seasons finished (% of\nsimulated seasons)")
-        ax.set_xlabel("Date (end of the week the work was finished)")
+        ax.set_xlabel("Date (end of the day the work was finished)")
         _title(ax, "When the work gets done at the recommended cutoff", narrow)
         if narrow:
             ax.xaxis.set_major_locator(mdates.MonthLocator())
             ax.xaxis.set_major_formatter(mdates.DateFormatter("%b"))
-        fig.legend(loc="outside lower center", ncol=2)
+        fig.legend(loc="outside lower center", ncol=1)
         if not narrow:
             fig.autofmt_xdate()
         return Chart(_png(fig))

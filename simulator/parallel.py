@@ -31,6 +31,7 @@ import multiprocessing
 import os
 import pickle
 import socket
+import struct
 import sys
 from collections.abc import Callable, Iterable, Iterator
 from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
@@ -46,6 +47,7 @@ __all__ = ["Executor", "InlineExecutor", "PoolExecutor", "DaskExecutor", "open_e
            "default_workers", "CONNECT_TIMEOUT", "CLUSTER_ENV", "IN_FLIGHT_PER_WORKER"]
 
 CONNECT_TIMEOUT = 5.0  # seconds a cluster's scheduler has to answer
+_HANDSHAKE_BYTES = 1 << 20  # a Dask handshake is a few hundred bytes; a first message above this is not one
 CLUSTER_ENV = "GONOGO_CLUSTER"  # the command line's --cluster, when not given
 IN_FLIGHT_PER_WORKER = 2  # tasks submitted ahead per worker
 
@@ -279,7 +281,14 @@ def _bounded(submit, tasks, limit, wait_any) -> Iterator[tuple[int, Any]]:
 # a Dask cluster
 
 def _probe(address: str) -> None:
-    """Fail fast, in one line, when nothing listens at a tcp address (before Dask retries)."""
+    """Fail fast, in one line, when nothing listens at a tcp address, or something that is not a
+    Dask scheduler does (before Dask retries, or reads a stranger's bytes as a message length).
+
+    A Dask scheduler writes its handshake as soon as it accepts a connection, as one message that
+    starts with its length in bytes (an unsigned 64-bit little-endian integer; ``distributed.comm.tcp``,
+    ``TCP.write``, as read from the 2026.8 source). The probe reads those 8 bytes: a server that
+    closes at once, stays silent, or sends a length no handshake has is not a Dask scheduler.
+    """
     from distributed.comm.addressing import parse_address, parse_host_port
 
     try:
@@ -294,12 +303,39 @@ def _probe(address: str) -> None:
     except ValueError:
         raise InputError(f"cluster {address}: no port; write the address as tcp://host:8786") from None
     try:
-        socket.create_connection((host, port), timeout=CONNECT_TIMEOUT).close()
+        connection = socket.create_connection((host, port), timeout=CONNECT_TIMEOUT)
     except OSError as exc:
         reason = exc.strerror or type(exc).__name__
         raise InputError(f"cluster {address}: no answer within {CONNECT_TIMEOUT:g} s ({reason.lower()}); "
                          "check the address and that the Dask scheduler is running, or leave out "
                          f"--cluster and {CLUSTER_ENV} to run on this machine") from None
+    if scheme != "tcp":
+        connection.close()
+        return
+    first, silent = b"", False
+    with connection:
+        try:
+            while len(first) < 8:
+                more = connection.recv(8 - len(first))
+                if not more:
+                    break
+                first += more
+        except TimeoutError:
+            silent = True
+        except OSError:  # reset
+            pass
+    if len(first) < 8:
+        what = (f"sent nothing within {CONNECT_TIMEOUT:g} s" if silent and not first else
+                "closed the connection" if not first else "sent a few bytes and stopped")
+        raise InputError(f"cluster {address}: the server there {what}, which a Dask scheduler does not; "
+                         "check the address and port (a scheduler listens on 8786 by default), or leave "
+                         f"out --cluster and {CLUSTER_ENV} to run on this machine")
+    length = struct.unpack("<Q", first)[0]
+    if not 0 < length <= _HANDSHAKE_BYTES:
+        raise InputError(f"cluster {address}: the server there does not speak Dask's protocol (its first "
+                         "message is not a Dask handshake); check the address and port (a scheduler "
+                         f"listens on 8786 by default), or leave out --cluster and {CLUSTER_ENV} to run on "
+                         "this machine")
 
 
 class DaskExecutor(Executor):
