@@ -1,7 +1,10 @@
 """The ``gonogo`` command line: the only module that prints or exits.
 
 Each command's docstring is its ``--help`` text. A user's mistake (an :class:`InputError`) is
-printed as one line on standard error with exit status 2, and nothing is written.
+printed as one line on standard error with exit status 2, and nothing is written. A run stopped by
+Ctrl-C (SIGINT) or SIGTERM ends within a few seconds with one line and exit status 130 or 143
+(128 + the signal's number, as shells report it): the stop passes through the run as an exception,
+so the worker processes are ended and no staging folder is left (:func:`_stops`).
 
 Every string from a scenario or a history is untrusted: the consoles interpret no markup (square
 brackets print as they are), and each such string passes through :func:`_plain`, which writes its
@@ -11,7 +14,9 @@ control characters as escapes, before it reaches the terminal.
 from __future__ import annotations
 
 import json
+import signal
 import sys
+import threading
 import warnings
 from contextlib import contextmanager
 from pathlib import Path
@@ -22,6 +27,8 @@ from rich.console import Console
 from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeRemainingColumn
 from rich.table import Table
 from rich.text import Text
+
+from gonogo_command import raise_stopped, stop_name
 
 from . import __version__
 from .account import account, money, season_name, seasons_text, share, signed_money, strategy_label
@@ -79,6 +86,32 @@ def _user_errors():
             yield
         except InputError as error:
             _fail(error)
+
+
+@contextmanager
+def _stops(unfinished: str = "the run did not finish and the output folder is as it was"):
+    """Ctrl-C or SIGTERM during a command: one line, exit status 128 + the signal's number.
+
+    Both arrive as an exception in the main thread (SIGTERM as ``gonogo_command.Stopped``), so every
+    ``finally`` on the way out runs: the executor kills its workers and frees its shared memory
+    (:func:`simulator.parallel.open_executor`), and a result set being written is taken away whole
+    (:func:`simulator.result_set.write_files`). Click would otherwise print "Aborted!" with status 1.
+    """
+    # only in the main thread, and never where SIGTERM was ignored from the start (nohup and the like)
+    own = (threading.current_thread() is threading.main_thread()
+           and signal.getsignal(signal.SIGTERM) is not signal.SIG_IGN)
+    previous = signal.signal(signal.SIGTERM, raise_stopped) if own else None
+    try:
+        yield
+    except KeyboardInterrupt as stop:
+        signum, how = stop_name(stop)
+        where = getattr(stop, "after_writing", None)
+        state = f"the results were already written to {where}" if where is not None else unfinished
+        err_console.print(f"stopped by {how}: {_plain(state)}", soft_wrap=True)
+        raise typer.Exit(code=128 + signum) from None
+    finally:
+        if own:
+            signal.signal(signal.SIGTERM, previous)
 
 
 @contextmanager
@@ -324,7 +357,11 @@ def _execute(scenario: Scenario, history: Path | None, out: Path | None, replica
         with err_console.status("drawing the figures and writing the report"):
             files = render_files(result)
     written = write_files(files, out, force)
-    _report_run(result, out, written, quiet, as_json)
+    try:
+        _report_run(result, out, written, quiet, as_json)
+    except KeyboardInterrupt as stop:
+        stop.after_writing = out
+        raise
 
 
 Replicates = Annotated[int | None, typer.Option(min=20, help="How many replicate seasons to simulate "
@@ -373,7 +410,7 @@ def run_command(
     the same simulated seasons and sites.csv gives each site's own cutoff; the headline is then for
     all sites at one common cutoff.
     """
-    with _user_errors():
+    with _stops(), _user_errors():
         _execute(read_scenario(scenario), history, out, replicates, seed, force, quiet, as_json,
                  walk_forward=True if walk_forward else None, workers=workers, cluster=cluster)
 
@@ -393,7 +430,7 @@ def demo_command(
     """
     from .demo import write_demo_files
 
-    with _user_errors():
+    with _stops("the demo did not finish; the results in the output folder are as they were"), _user_errors():
         check_out_folder(out, force)
         scenario_path = write_demo_files(out)
         scenario = read_scenario(scenario_path)
@@ -410,7 +447,7 @@ def check_command(
     """Check a history and describe it (rows, period, event rate, forecast quality) without simulating."""
     from . import scoring
 
-    with _user_errors():
+    with _stops("the check did not finish"), _user_errors():
         spec = (read_scenario(scenario) if scenario is not None
                 else Scenario(name=history.stem, costs=Costs(hit=0, false_alarm=1, miss=1)))
         h = read_history(spec, history)

@@ -1,9 +1,10 @@
 """Files out: ``summary.json``, ``cutoffs.csv`` and the tables beside them (``sites.csv`` with a
 site column).
 
-Everything is rendered in memory first and then written file by file to a temporary name and
-renamed, so a crash never leaves a half-written file; a folder that already holds files is only
-written into with ``force``.
+Everything is rendered in memory first (:func:`render_files`), then written as one whole result
+set by :func:`simulator.result_set.write_files`: staged beside the output folder and swapped in, so
+a reader sees the previous set or the new one, never a mix; a folder that already holds files is
+only written into with ``force``.
 """
 
 from __future__ import annotations
@@ -11,7 +12,6 @@ from __future__ import annotations
 import dataclasses
 import json
 import math
-import os
 from collections.abc import Mapping
 from pathlib import Path
 from typing import Any
@@ -21,7 +21,7 @@ import pandas as pd
 
 from . import __version__
 from .account import account
-from .errors import InputError
+from .result_set import check_out_folder, write_files
 from .run import RunResult
 from .selection import Calibration, Selection
 from .stress import StressResult
@@ -146,30 +146,6 @@ def table_names(result: RunResult) -> list[str]:
     if result.portfolio is not None:
         names.append("sites.csv")
     return names
-
-
-def check_out_folder(out: Path, force: bool) -> None:
-    """Refuse to write into a folder that already holds files, unless ``force``."""
-    if out.exists() and not out.is_dir():
-        raise InputError(f"{out}: is a file, not a folder; choose another --out")
-    if out.is_dir() and any(out.iterdir()) and not force:
-        raise InputError(f"{out}: already holds results; add --force to replace them, or choose "
-                         "another --out")
-
-
-def write_files(files: Mapping[str, bytes], out: Path, force: bool) -> list[Path]:
-    """Write ``files`` into ``out`` (created if needed), each to a temporary name then renamed."""
-    check_out_folder(out, force)
-    out.mkdir(parents=True, exist_ok=True)
-    written = []
-    for name, data in files.items():
-        target = out / name
-        target.parent.mkdir(parents=True, exist_ok=True)
-        temporary = target.with_name(f".{target.name}.tmp-{os.getpid()}")
-        temporary.write_bytes(data)
-        os.replace(temporary, target)
-        written.append(target)
-    return written
 
 
 # ------------------------------------------------------------------------------------------------

@@ -18,9 +18,10 @@ sites, and :class:`Portfolio` sets each site's own cutoff beside it.
 from __future__ import annotations
 
 import dataclasses
+import threading
 import uuid
 from collections.abc import Callable, Iterator, Sequence
-from concurrent.futures import ThreadPoolExecutor
+from concurrent.futures import Future
 from contextlib import contextmanager
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -736,9 +737,16 @@ def _alongside(executor: Executor, fn: Callable, *args) -> Callable[[], Any]:
     the function that gives the result."""
     if isinstance(executor, InlineExecutor):
         return lambda: fn(*args)
-    thread = ThreadPoolExecutor(max_workers=1)
-    future = thread.submit(fn, *args)
-    thread.shutdown(wait=False)  # the thread ends once its one task is done
+    future: Future = Future()
+
+    def make() -> None:
+        try:
+            future.set_result(fn(*args))
+        except BaseException as exc:  # noqa: BLE001 - handed to whoever asks for the result
+            future.set_exception(exc)
+
+    # a daemon thread: a run stopped meanwhile (Ctrl-C) ends at once rather than after the tables
+    threading.Thread(target=make, name="gonogo-tables", daemon=True).start()
     return future.result
 
 
