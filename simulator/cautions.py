@@ -18,8 +18,8 @@ GENERAL = ("A cost-optimal cutoff never overrides safety rules, site risk assess
 
 def hazard_caution(event: str) -> str:
     """The caution of an event that is a hazard to people (``[event] hazard = true``)."""
-    return (f"The event \u201c{event}\u201d is a hazard to people: whatever this run recommends, nobody is sent "
-            "into danger to save money, and the safety rules of the day decide first.")
+    return (f"The event \u201c{event}\u201d is a hazard to people: nobody is sent into danger to save money, "
+            "whatever the numbers say; the safety rules of the day decide first.")
 
 
 def cautions(scenario: Scenario, rules: bool | None = None) -> tuple[str, ...]:

@@ -109,11 +109,11 @@ class Verdict:
         if self.n_seasons < 2:
             return (f"The history holds {self.n_seasons} season, so a cutoff cannot be checked on a season it was "
                     f"not chosen on; {rule} is the cheapest rule without the forecast.")
-        saved = (f"saved {_money(self.mean, currency)}" if self.mean >= 0
-                 else f"cost {_money(-self.mean, currency)} more")
-        found = (f"With the cutoff chosen on the other seasons, acting on the forecast {saved} a season on average "
-                 f"against the best rule without it ({rule}), priced on each of the {self.n_seasons} past seasons "
-                 f"in turn (90% interval of that mean {_money(self.p05, currency)} to {_money(self.p95, currency)})")
+        versus = (f"saved {_money(self.mean, currency)} a season on average over the best rule without it ({rule})"
+                  if self.mean >= 0 else f"cost {_money(-self.mean, currency)} more a season on average than the "
+                  f"best rule without it ({rule})")
+        found = (f"Priced on each of the {self.n_seasons} past seasons at the cutoff chosen on the others, acting on "
+                 f"the forecast {versus} (90% interval {_money(self.p05, currency)} to {_money(self.p95, currency)})")
         if self.use_forecast or self.mean < 0:
             return found + "."
         return found + ", not clearly more than a forecast of no skill saves by chance."
