@@ -96,6 +96,8 @@ def summary(result: RunResult) -> dict[str, Any]:
         out["selection"] = _selection_entry(result.selection)
     if result.portfolio is not None:  # a site column: the run's numbers above are the portfolio's
         out["portfolio"] = _portfolio_entry(result)
+    if result.comparison is not None:  # two or more [forecasts]: "forecasts" and "forecast_pairs"
+        out.update(result.comparison.summary())
     return _clean(out)
 
 
@@ -119,6 +121,8 @@ def render_files(result: RunResult) -> dict[str, bytes]:
         files["selection.csv"] = _csv(_selection_frame(result.selection))
     if result.portfolio is not None:
         files["sites.csv"] = _csv(result.portfolio.table)
+    if result.comparison is not None:
+        files["forecasts.csv"] = _csv(result.comparison.table())
     files.update(render_report(result, contents))
     return files
 

@@ -45,6 +45,9 @@ class HistorySection(_Section):
     side: Literal["above", "below"] | None = None
     direction: Literal["up", "down"] | None = None
     validation_from: date | None = None
+    # a row where one of the [forecasts] has no probability: refuse the file, or leave the row out
+    # of the evaluation for every forecast (they are compared on the same occasions)
+    missing_forecast: Literal["refuse", "drop_row"] = "refuse"
 
     @model_validator(mode="after")
     def _one_way_to_the_outcome(self):
@@ -358,6 +361,9 @@ class Scenario(_Section):
     operations: OperationsSection | None = None
     # per-site overrides, keyed by the site's name as the history's site column writes it
     sites: dict[str, SiteSection] = {}
+    # several forecasts of the same event: display name -> probability column, in the order to show
+    # them; the first is the main forecast (it becomes [history] probability_column)
+    forecasts: dict[str, str] = {}
     # where the file was read from (not a user key): history paths are relative to it
     source: Path | None = Field(default=None, exclude=True)
     sha256: str = Field(default="", exclude=True)
@@ -370,6 +376,41 @@ class Scenario(_Section):
     def slug(self) -> str:
         safe = "".join(ch.lower() if ch.isalnum() else "-" for ch in self.name)
         return "-".join(part for part in safe.split("-") if part) or "scenario"
+
+    @model_validator(mode="before")
+    @classmethod
+    def _main_forecast_column(cls, data: Any) -> Any:
+        """``[forecasts]`` replaces ``[history] probability_column``: its first column becomes it."""
+        if not isinstance(data, dict) or not isinstance(data.get("forecasts"), dict) or not data["forecasts"]:
+            return data
+        history = data.get("history", {})
+        given = (history.model_fields_set if isinstance(history, HistorySection)
+                 else set(history) if isinstance(history, dict) else set())
+        if "probability_column" in given:
+            raise ValueError("[forecasts] replaces [history] probability_column; list the main forecast "
+                             "first under [forecasts] and remove probability_column")
+        first = next(iter(data["forecasts"].values()))
+        if isinstance(history, HistorySection):
+            history = history.model_dump(exclude_unset=True)
+        if isinstance(history, dict) and isinstance(first, str):
+            data = {**data, "history": {**history, "probability_column": first}}
+        return data
+
+    @field_validator("forecasts")
+    @classmethod
+    def _forecast_names(cls, value: dict[str, str]) -> dict[str, str]:
+        for name, column in value.items():
+            if not name.strip() or not column.strip():
+                raise ValueError('each forecast needs a name and a column, as "our model" = "p_ours"')
+        return value
+
+    @property
+    def forecast_columns(self) -> tuple[tuple[str, str], ...]:
+        """(display name, probability column) of every forecast, the main one first: the
+        ``[forecasts]`` table, or the one ``[history] probability_column`` (named "forecast")."""
+        if self.forecasts:
+            return tuple(self.forecasts.items())
+        return (("forecast", self.history.probability_column),)
 
     @model_validator(mode="after")
     def _stress_names_differ(self):
@@ -530,7 +571,7 @@ def _first_problem(exc: ValidationError, label: str) -> str:
 
 
 _SECTIONS = ("history", "event", "decision", "costs", "season", "simulation", "operations", "stress",
-             "sites")
+             "sites", "forecasts")
 
 
 def _table(loc: list[str]) -> str:
