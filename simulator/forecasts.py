@@ -33,7 +33,7 @@ import pandas as pd
 from .decision import Decision, cheaper, distribution, money_tolerance, per_cutoff
 from .history import History
 from .selection import ValidationCheck
-from .tables import forecast_quality
+from .tables import forecast_scores, forecast_value_curve
 
 __all__ = ["ForecastResult", "ForecastPair", "Comparison", "compare_forecasts", "SCORES"]
 
@@ -153,7 +153,8 @@ class Comparison:
 def compare_forecasts(history: History, model_costs: Sequence[np.ndarray], reference_cost: np.ndarray,
                       cutoffs: np.ndarray, columns: Sequence[str],
                       decide_one: Callable[[np.ndarray], Decision],
-                      check: Callable[[History], ValidationCheck | None]) -> Comparison:
+                      check: Callable[[History], ValidationCheck | None],
+                      main_quality: tuple[dict[str, float], pd.DataFrame] | None = None) -> Comparison:
     """Decide for each forecast and compare every pair on the same replicate seasons.
 
     Parameters
@@ -166,11 +167,15 @@ def compare_forecasts(history: History, model_costs: Sequence[np.ndarray], refer
     columns : each forecast's probability column, in the order listed.
     decide_one : the run's decision for one forecast's costs (the same bootstrap draws for each).
     check : the honest check of a history with a validation period (None without one).
+    main_quality : the main forecast's scores and value curve, when the run has them already.
     """
     results = []
     for j, name in enumerate(history.forecast_names):
         own = history.with_forecast(j)
-        quality, value_curve, _ = forecast_quality(own, cutoffs)
+        if j == 0 and main_quality is not None:
+            quality, value_curve = main_quality
+        else:
+            quality, value_curve = forecast_scores(own), forecast_value_curve(own, cutoffs)
         results.append(ForecastResult(name=name, column=columns[j], decision=decide_one(model_costs[j]),
                                       model_cost=model_costs[j], scores=quality, value_curve=value_curve,
                                       validation=check(own)))

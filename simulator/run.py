@@ -317,7 +317,7 @@ def run_history(scenario: Scenario, history: History, *, replicates: int | None 
             lambda cost: (decision if cost is model_cost else
                           decide(cost, baseline_cost[sim.reference], cutoffs, seasons_per_history,
                                  block_rng(seed, 0, _INTERVAL_STREAM))),
-            check)
+            check, main_quality=(quality, value_curve))
     return RunResult(scenario=scenario, history=history, calendar=calendar, cutoffs=cutoffs,
                      replicates=replicates, seed=seed, mean_block_days=mean_block * calendar.spacing_days,
                      theoretical_cutoff=p_star, decision=decision, model_cost=model_cost,
@@ -686,7 +686,8 @@ def _price_task(work: _Work, first_site: int, last_site: int, chunk: int | None)
             block = pricer(own, b) if calibrated else pricer(own)
             if others:  # every later forecast on the same rows: common random numbers
                 block = dataclasses.replace(block, extras={
-                    **block.extras, **{f"{_FORECAST_KEY}{j}": other(own).model for j, other in others}})
+                    **block.extras, **{f"{_FORECAST_KEY}{j}": _later_forecast(other, own, block)
+                                       for j, other in others}})
             priced.append(block)
         block = _join(priced)
         if chunk is not None:
@@ -704,6 +705,14 @@ def _price_task(work: _Work, first_site: int, last_site: int, chunk: int | None)
         if k + 1 == min((g + 1) * SUM_GROUP, len(work.scenarios)):
             out.append(("group", *group))
     return out
+
+
+def _later_forecast(pricer, rows: np.ndarray, main: PricedBlock) -> np.ndarray:
+    """A later forecast's season costs at every cutoff on the rows the main forecast's ``main``
+    block was priced on: the baselines' costs are the main's (they do not depend on the forecast)."""
+    if isinstance(pricer, SeasonPricer):
+        return pricer.model_cost(rows, main.baselines)
+    return pricer(rows).model  # the operating rules: every lane played again
 
 
 _MAX_DRAWN_BYTES = 256 * 2**20  # a task keeps its drawn replicate rows for reuse up to this size
