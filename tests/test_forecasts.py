@@ -247,3 +247,47 @@ def test_a_later_forecast_is_priced_as_its_own_run_on_the_same_replicates(rain, 
     assert (degraded.model_cost == alone.model_cost).all()
     assert degraded.decision == alone.decision
     assert (both.baseline_cost["perfect"] == alone.baseline_cost["perfect"]).all()
+
+
+def test_flip_applies_to_every_forecast(history_frame):
+    # [event] flip turns each forecast into the complementary class's, exactly (decimals.complement)
+    frame = history_frame.assign(p_other=np.round(history_frame["probability"] * 0.9, 2))
+    scenario = _scenario({"ours": "probability", "other": "p_other"}, event={"flip": True})
+    history = history_from_frame(frame, scenario, label="history.csv")
+    assert history.forecast_names == ("ours", "other")
+    assert (history.with_forecast(1).p == np.round(1 - frame["p_other"].to_numpy(), 2)).all()
+    assert (history.p == np.round(1 - frame["probability"].to_numpy(), 2)).all()
+
+
+# ------------------------------------------------------------------------------------------------
+# the command line
+
+def test_the_command_line_writes_the_comparison(write_history, write_scenario, history_frame, tmp_path):
+    from test_cli import gonogo
+
+    write_history(history_frame.assign(p_free=_degraded(history_frame["probability"].to_numpy(), 1.0, seed=5)))
+    scenario = write_scenario(history={"validation_from": "2022-01-01"})
+    scenario.write_text(scenario.read_text() + '\n[forecasts]\n"paid" = "probability"\n"free" = "p_free"\n')
+    out = tmp_path / "out"
+    result = gonogo("run", scenario, "--out", out, "--quiet")
+    assert result.exit_code == 0, result.output
+    assert (out / "forecasts.csv").exists()
+    import json
+    contents = json.loads((out / "summary.json").read_text())
+    assert list(contents["forecasts"]) == ["paid", "free"]
+    assert len(contents["forecast_pairs"]) == 1
+
+
+def test_the_command_line_refuses_a_missing_forecast_in_one_line(write_history, write_scenario, history_frame,
+                                                                 tmp_path):
+    from test_cli import assert_refused, gonogo
+
+    frame = history_frame.assign(p_free=history_frame["probability"].astype(object))
+    frame.loc[3, "p_free"] = ""
+    write_history(frame)
+    scenario = write_scenario()
+    scenario.write_text(scenario.read_text() + '\n[forecasts]\n"paid" = "probability"\n"free" = "p_free"\n')
+    out = tmp_path / "out"
+    assert_refused(gonogo("run", scenario, "--out", out), out,
+                   'history.csv row 5, column "p_free": the probability is missing',
+                   'missing_forecast = "drop_row"')
