@@ -107,6 +107,14 @@ def test_several_forecasts_over_many_sites_are_refused_in_one_line(history_frame
         run_history(scenario, history)
 
 
+def test_several_forecasts_in_the_calibrated_mode_are_refused_in_one_line(history_frame):
+    frame = history_frame.assign(p_other=history_frame["probability"])
+    scenario = _scenario({"ours": "probability", "other": "p_other"}, simulation={"mode": "calibrated"})
+    history = history_from_frame(frame, scenario, label="history.csv")
+    with pytest.raises(InputError, match=r'mode: "calibrated" draws the outcomes from one forecast'):
+        run_history(scenario, history)
+
+
 # ------------------------------------------------------------------------------------------------
 # the comparison
 
