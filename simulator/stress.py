@@ -38,6 +38,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from . import decimals
+from .account import money
 from .costs import PricedBlock, SeasonPricer, baseline_actions, occasion_costs, price
 from .decision import Decision, Distribution, cheaper, decide, distribution
 from .errors import InputError
@@ -556,24 +557,20 @@ def _view(name: str, case: StressCase, base: _Base, model: np.ndarray, baseline_
                       model_cost_at_best=at_best, baseline_cost=baseline_cost)
 
 
-def _money(value: float, currency: str) -> str:
-    return f"{value:,.0f} {currency}"
-
-
 def _headline(case: str, view: str, base: float, best: float, extra: float, saved: float,
               moving: float, band: tuple[float, float], currency: str) -> str:
     """The sentence a budget holder needs, for one view of one case."""
     what = f'"{case}"' + (" (forecast adapted to the new event rate)" if view == "adapted" else "")
     direction = "more" if extra >= 0 else "less"
-    text = (f"Keep the cutoff at {base:.2f} and {what} costs {_money(abs(extra), currency)} {direction} "
+    text = (f"Keep the cutoff at {base:.2f} and {what} costs {money(abs(extra), currency)} {direction} "
             f"a season on average")
     if best == base:
         return text + f"; {base:.2f} stays the cheapest cutoff."
     if band[0] <= base <= band[1]:
         return text + (f"; {base:.2f} stays within 1% of the lowest cost (moving to {best:.2f} would "
-                       f"save only {_money(saved, currency)}).")
+                       f"save only {money(saved, currency)}).")
     share = "of that" if 0 < saved <= extra else "a season"
-    return text + (f"; moving to {best:.2f} would save {_money(saved, currency)} {share} "
+    return text + (f"; moving to {best:.2f} would save {money(saved, currency)} {share} "
                    f"(cheaper in {moving:.0%} of seasons).")
 
 
