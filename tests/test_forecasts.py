@@ -98,20 +98,17 @@ def test_drop_row_evaluates_every_forecast_on_the_rows_all_have_and_says_how_man
         history_from_frame(frame, scenario, label="history.csv")
 
 
-def test_several_forecasts_over_many_sites_are_refused_in_one_line(history_frame):
+@pytest.mark.parametrize("sections, message", [
+    ({"history": {"site_column": "site"}}, r"\[forecasts\]: several forecasts cannot be compared over many sites"),
+    ({"simulation": {"mode": "calibrated"}}, r'mode: "calibrated" draws the outcomes from one forecast'),
+], ids=["many sites", "calibrated mode"])
+def test_what_several_forecasts_do_not_do_yet_is_refused_in_one_line(history_frame, sections, message):
     frame = pd.concat([history_frame.assign(site="North"), history_frame.assign(site="South")])
-    frame = frame.assign(p_other=frame["probability"])
-    scenario = _scenario({"ours": "probability", "other": "p_other"}, history={"site_column": "site"})
+    if "history" not in sections:
+        frame = history_frame
+    scenario = _scenario({"ours": "probability", "other": "probability"}, **sections)
     history = history_from_frame(frame, scenario, label="history.csv")
-    with pytest.raises(InputError, match=r"\[forecasts\]: several forecasts cannot be compared over many sites"):
-        run_history(scenario, history)
-
-
-def test_several_forecasts_in_the_calibrated_mode_are_refused_in_one_line(history_frame):
-    frame = history_frame.assign(p_other=history_frame["probability"])
-    scenario = _scenario({"ours": "probability", "other": "p_other"}, simulation={"mode": "calibrated"})
-    history = history_from_frame(frame, scenario, label="history.csv")
-    with pytest.raises(InputError, match=r'mode: "calibrated" draws the outcomes from one forecast'):
+    with pytest.raises(InputError, match=message):
         run_history(scenario, history)
 
 
