@@ -78,6 +78,9 @@ class EventSection(_Section):
 class DecisionSection(_Section):
     action: str = "act"
     cutoffs: tuple[float, float, float] = (0.0, 1.0, 0.01)
+    # what the cutoff is chosen by: the lowest mean season cost, the lowest 95th percentile, or the
+    # lowest mean of the worst 10% of seasons (decision.OBJECTIVES, decision.decide)
+    objective: Literal["mean", "p95", "shortfall10"] = "mean"
 
     @field_validator("cutoffs")
     @classmethod
