@@ -23,7 +23,8 @@ from .errors import InputError
 from .history import read_history
 from .outputs import check_out_folder, render_files, summary, write_files
 from .parallel import CLUSTER_ENV
-from .report import share
+from .decision import OBJECTIVE_NAMES
+from .report import OBJECTIVE_WORDS, risk_view, share
 from .run import RunResult, run
 from .scenario import Costs, Scenario, read_scenario
 
@@ -95,13 +96,17 @@ def _headline(result: RunResult) -> Table:
         p_star = "different at each site (sites.csv)" if s.get("portfolio") else "undefined"
     table.add_row("Recommended cutoff", f"{s['recommended_cutoff']:.2f}  (90% interval {lo:.2f} to {hi:.2f}; "
                                         f"break-even probability of the costs {p_star})")
+    if s["objective"] != "mean":  # chosen for the bad seasons: say so, and what it costs on average
+        table.add_row("Chosen by", f"the lowest {OBJECTIVE_NAMES[s['objective']]}. "
+                                   + risk_view(s)["paragraph"])
     table.add_row("Expected season cost", f"{_money(model['mean'], cur)}  (90% of seasons "
                                           f"{_money(model['p05'], cur)} to {_money(model['p95'], cur)})")
     sv = s["savings"]
     table.add_row(f"Saving against {ref}", f"{_money(sv['mean'], cur)}  (90% range {_money(sv['p05'], cur)} to "
                                            f"{_money(sv['p95'], cur)}; saves money in "
                                            f"{share(sv['prob_saving'])} of seasons)")
-    table.add_row(f"Cutoffs that beat {ref}", _ranges(s["break_even"]) + "  (on average); "
+    table.add_row(f"Cutoffs that beat {ref}", _ranges(s["break_even"])
+                  + f"  ({OBJECTIVE_WORDS[s['objective']]['basis']}); "
                   + _ranges(s["confident_break_even"]) + " (in 95% of seasons)")
     table.add_row("Season", f"{s['season_occasions']} occasions, {s['replicates']} replicate seasons, "
                             f"mean run {s['mean_block_days']:.1f} days")

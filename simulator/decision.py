@@ -14,7 +14,7 @@ import numpy as np
 __all__ = ["Distribution", "Decision", "distribution", "cutoff_ranges", "decide", "per_cutoff",
            "season_cost_columns", "shortfall", "objective_cost", "money_tolerance", "cheaper", "lowest",
            "NEAR_OPTIMAL", "CONFIDENT", "N_HISTORIES", "SAME_MONEY", "OBJECTIVES", "OBJECTIVE_COLUMN",
-           "SHORTFALL_SHARE"]
+           "OBJECTIVE_NAMES", "SHORTFALL_SHARE"]
 
 NEAR_OPTIMAL = 0.01  # a cutoff within 1% of the lowest mean season cost is near-optimal
 CONFIDENT = 0.95  # "confident" break-even: the model is cheaper in at least this share of seasons
@@ -25,6 +25,8 @@ SHORTFALL_SHARE = 0.10  # expected shortfall over the worst 10% of seasons
 # what a cutoff is chosen by ([decision] objective), and the cutoffs.csv column that holds it
 OBJECTIVES = ("mean", "p95", "shortfall10")
 OBJECTIVE_COLUMN = {"mean": "mean_cost", "p95": "p95_cost", "shortfall10": "shortfall10_cost"}
+OBJECTIVE_NAMES = {"mean": "expected season cost", "p95": "95th percentile of season cost",
+                   "shortfall10": "mean cost of the worst 10% of seasons"}  # what each one minimises
 _HISTORY_CHUNK = 100  # bootstrap histories judged at once by a risk objective (bounds memory)
 
 

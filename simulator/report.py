@@ -25,15 +25,24 @@ import jinja2
 import numpy as np
 
 from . import __version__, figures
+from .decision import OBJECTIVE_NAMES
 from .figures import Words
 from .scenario import WEEKDAYS
 
 __all__ = ["render_report", "headline_numbers", "recommendation", "format_value", "money", "share",
-           "cutoff_text", "strategy_label", "FIELD_FORMATS", "CAUTION"]
+           "cutoff_text", "strategy_label", "risk_view", "FIELD_FORMATS", "CAUTION", "OBJECTIVE_WORDS"]
 
 CAUTION = ("A cost-optimal cutoff does not replace safety rules, site risk assessments, local regulations "
            "or licensed professional judgement. The numbers price money only; they do not weigh harm "
            "to people.")
+
+# each [decision] objective in words (what it minimises: decision.OBJECTIVE_NAMES): the basis of
+# "costs no more than the reference", and its name on the risk chart
+OBJECTIVE_WORDS = {
+    "mean": {"basis": "on average", "name": "Lowest expected cost"},
+    "p95": {"basis": "in its 95th-percentile season", "name": "Lowest 95th percentile"},
+    "shortfall10": {"basis": "over the worst 10% of seasons", "name": "Lowest mean of the worst 10%"},
+}
 
 # how each cutoffs.csv column the explorer shows is written on the page
 FIELD_FORMATS = {"cutoff": "cutoff", "hits": "count", "false_alarms": "count", "misses": "count",
@@ -151,11 +160,45 @@ def recommendation(summary: Mapping[str, Any], occasion: str = "day", decimals: 
     more_or_less = "less" if summary["savings"]["mean"] >= 0 else "more"
     second = (f"That is {n['saving']} a season {more_or_less} than the reference rule ({ref}), and "
               f"following the forecast saves money in {n['prob_saving']} of simulated seasons.")
+    basis = OBJECTIVE_WORDS[summary.get("objective", "mean")]["basis"]
     if summary["break_even"]:
-        third = (f"Any cutoff from {n['break_even']} costs no more than the reference rule on average.")
+        third = (f"Any cutoff from {n['break_even']} costs no more than the reference rule {basis}.")
     else:
-        third = "No cutoff costs less than the reference rule on average: keep to the reference rule."
+        third = f"No cutoff costs less than the reference rule {basis}: keep to the reference rule."
     return [first, second, third]
+
+
+def risk_view(summary: Mapping[str, Any], decimals: int = 2) -> dict[str, str]:
+    """The trade-off between the average and the bad season, in words, from ``summary.json``.
+
+    ``tail`` is the bad-season measure the report draws (the 95th percentile when the objective is
+    ``p95``, else the mean of the worst 10% of seasons); ``paragraph`` compares the recommended
+    cutoff with the one the other view chooses (the mean's, or the tail's when the objective is the
+    mean), each difference once, per season.
+    """
+    cur = summary["currency"]
+    objective = summary.get("objective", "mean")
+    choices = summary["objectives"]
+    tail = "p95" if objective == "p95" else "shortfall10"
+    column = {"p95": "p95_cost", "shortfall10": "shortfall10_cost"}[tail]
+    tail_what = OBJECTIVE_NAMES[tail]
+    other = tail if objective == "mean" else "mean"
+    chosen, alternative = choices[objective], choices[other]
+    here = cutoff_text(chosen["cutoff"], decimals)
+    if alternative["cutoff"] == chosen["cutoff"]:
+        paragraph = (f"Here the lowest expected season cost and the lowest {tail_what} come at the same cutoff, "
+                     f"{here}: the average season and the bad season ask for the same choice.")
+    else:
+        mean_gap = alternative["mean_cost"] - chosen["mean_cost"]
+        tail_gap = alternative[column] - chosen[column]
+        there = cutoff_text(alternative["cutoff"], decimals)
+        reason = "the lowest " + ("expected season cost" if other == "mean" else tail_what)
+        paragraph = (f"Choosing for {reason} instead would move the cutoff from {here} to {there}: a season would "
+                     f"cost {money(abs(mean_gap), cur)} {'more' if mean_gap > 0 else 'less'} on average, and the "
+                     f"{tail_what} would be {money(abs(tail_gap), cur)} {'higher' if tail_gap > 0 else 'lower'} "
+                     f"(each per season, over {summary['replicates']:,} simulated seasons).")
+    return {"tail": tail, "tail_what": tail_what, "column": column, "paragraph": paragraph,
+            "objective_what": OBJECTIVE_NAMES[objective]}
 
 
 # ------------------------------------------------------------------------------------------------
@@ -405,6 +448,11 @@ def render_report(result, summary: Mapping[str, Any]) -> dict[str, bytes]:
             result.value_curve["value_at_cutoff_equal_to_ratio"].to_numpy(), result.theoretical_cutoff,
             float(row["relative_value"]), words),
     }
+    risk = risk_view(summary, decimals)
+    charts["risk"] = figures.risk_chart(
+        result.cutoffs, table["mean_cost"].to_numpy(), table[risk["column"]].to_numpy(),
+        _sentence_case(risk["tail_what"]), decision.choices,
+        {name: w["name"] for name, w in OBJECTIVE_WORDS.items()}, decision.objective, words)
     stress = _stress_cases(summary, currency, decimals)
     if stress:
         charts["stress"] = figures.stress_chart([c["name"] for c in stress], [c["mean"] for c in stress],
@@ -453,6 +501,7 @@ def render_report(result, summary: Mapping[str, Any]) -> dict[str, bytes]:
         "forward": (summary.get("selection") or {}).get("walk_forward"),
         "calibration": summary.get("calibration"),
         "portfolio": _portfolio(summary, currency, decimals),
+        "risk": risk,
     }
     html = _ENV.get_template("report.html.j2").render(context)
     files = {"report.html": html.encode("utf-8")}

@@ -225,3 +225,34 @@ def test_an_unknown_objective_is_one_line_naming_the_key(toml_text):
     assert "\n" not in message
     assert message.startswith("risk.toml [decision] objective:")
     assert "'p95'" in message and "'shortfall10'" in message and "p90" in message
+
+
+# ------------------------------------------------------------------------------------------------
+# what the reader sees
+
+
+def _printed_headline(result) -> str:
+    from rich.console import Console
+
+    from simulator.cli import _headline
+
+    console = Console(width=200, record=True, file=open("/dev/null", "w"))
+    console.print(_headline(result))
+    return " ".join(console.export_text().replace("\u2502", " ").split())  # without the table's rules
+
+
+def test_the_report_draws_the_trade_off_and_the_headline_names_a_risk_objective(wti):
+    from simulator.report import render_report
+
+    result = _oil_run(wti, "shortfall10")
+    written = summary(result)
+    files = render_report(result, written)
+    assert files["figures/risk.png"].startswith(b"\x89PNG")
+    page = files["report.html"].decode()
+    mean, tail = written["objectives"]["mean"]["cutoff"], written["objectives"]["shortfall10"]["cutoff"]
+    moved = f"would move the cutoff from {tail:.2f} to {mean:.2f}"
+    assert '<section id="risk">' in page and moved in page
+    printed = _printed_headline(result)
+    assert "Chosen by the lowest mean cost of the worst 10% of seasons" in printed and moved in printed
+    assert "(over the worst 10% of seasons)" in printed  # the basis of the cutoffs that beat the reference
+    assert "Chosen by" not in _printed_headline(_oil_run(wti, "mean"))
