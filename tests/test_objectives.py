@@ -124,9 +124,10 @@ def wti():
     return wti_big_move()
 
 
-def _oil_run(wti, objective: str):
-    text = f"""name = "oil desk"
-[event]
+def _oil_scenario(objective: str, head: str = "", replicates: int = 400):
+    """The oil desk's scenario (invented costs per trading day, in the default currency)."""
+    return scenario_from_text(f"""name = "oil desk"
+{head}[event]
 name = "big move"
 [decision]
 objective = "{objective}"
@@ -135,10 +136,13 @@ hit = 100
 false_alarm = 400
 miss = 1000
 [simulation]
-replicates = 400
+replicates = {replicates}
 seed = 11
-"""
-    scenario = scenario_from_text(text)
+""")
+
+
+def _oil_run(wti, objective: str):
+    scenario = _oil_scenario(objective)
     return run_history(scenario, history_from_frame(wti, scenario))
 
 
@@ -190,17 +194,7 @@ def test_objective_mean_written_out_gives_the_golden_numbers(tmp_path):
 
 @pytest.mark.parametrize("objective", OBJECTIVES)
 def test_the_validation_check_chooses_on_training_replicates_by_the_objective(wti, objective):
-    text = f"""name = "oil desk"
-[history]
-validation_from = "2016-01-01"
-[decision]
-objective = "{objective}"
-[costs]
-hit = 100
-false_alarm = 400
-miss = 1000
-"""
-    scenario = scenario_from_text(text)
+    scenario = _oil_scenario(objective, head='[history]\nvalidation_from = "2016-01-01"\n')
     history = history_from_frame(wti, scenario)
     calendar = season_calendar(history, scenario.season)
     selection = select_honestly(history, calendar, scenario.cutoffs, scenario.costs, "never_act",
