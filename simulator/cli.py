@@ -1,13 +1,23 @@
 """The ``gonogo`` command line: the only module that prints or exits.
 
 Each command's docstring is its ``--help`` text. A user's mistake (an :class:`InputError`) is
-printed as one line on standard error with exit status 2, and nothing is written.
+printed as one line on standard error with exit status 2, and nothing is written. A run stopped by
+Ctrl-C (SIGINT) or SIGTERM ends within a few seconds with one line and exit status 130 or 143
+(128 + the signal's number, as shells report it): the stop passes through the run as an exception,
+so the worker processes are ended and no staging folder is left (:func:`_stops`).
+
+Every string from a scenario or a history is untrusted: the consoles interpret no markup (square
+brackets print as they are), and each such string passes through :func:`_plain`, which writes its
+control characters as escapes, before it reaches the terminal.
 """
 
 from __future__ import annotations
 
 import json
+import signal
 import sys
+import threading
+import warnings
 from contextlib import contextmanager
 from pathlib import Path
 from typing import Annotated
@@ -18,13 +28,14 @@ from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, T
 from rich.table import Table
 from rich.text import Text
 
+from gonogo_command import raise_stopped, stop_name
+
 from . import __version__
-from .errors import InputError
+from .account import account, money, season_name, seasons_text, share, signed_money, strategy_label
+from .errors import InputError, printable
 from .history import read_history
 from .outputs import check_out_folder, render_files, summary, write_files
 from .parallel import CLUSTER_ENV
-from .decision import OBJECTIVE_NAMES
-from .report import OBJECTIVE_WORDS, risk_view, share
 from .run import RunResult, run
 from .scenario import Costs, Scenario, read_scenario
 
@@ -32,106 +43,103 @@ app = typer.Typer(add_completion=False, no_args_is_help=True, pretty_exceptions_
                   rich_markup_mode=None,
                   help="gonogo: choose the probability cutoff at which to act on a yes/no forecast, "
                        "and price what a season will cost at it.")
-out_console = Console()
-err_console = Console(stderr=True)
+# no console markup, highlighting or emoji codes: user strings print as they are written
+out_console = Console(markup=False, highlight=False, emoji=False)
+err_console = Console(stderr=True, markup=False, highlight=False, emoji=False)
 
 CAUTION = ("A cost-optimal cutoff never overrides safety rules, site risk assessments, local "
            "regulations or licensed professional judgement.")
 
 
+def _plain(value):
+    """A user's string (or every string in a dict or list of them, such as the summary) with its
+    control characters written as escapes, so that it cannot move the cursor, clear the screen or
+    retitle the window. The one gate for user strings on their way to the terminal."""
+    if isinstance(value, str):
+        return printable(value)
+    if isinstance(value, dict):
+        return {k: _plain(v) for k, v in value.items()}
+    if isinstance(value, list | tuple):
+        return type(value)(_plain(v) for v in value)
+    return value
+
+
+def _warn(message: str) -> None:
+    err_console.print(f"warning: {_plain(message)}", soft_wrap=True)
+
+
 def _fail(error: InputError) -> None:
-    err_console.print(f"error: {error}", markup=False, highlight=False, soft_wrap=True)
+    err_console.print(f"error: {_plain(str(error))}", soft_wrap=True)
     raise typer.Exit(code=2)
+
+
+def _show_warning(message, category, filename, lineno, file=None, line=None) -> None:
+    """Python's warnings (numpy's among them) as one line without a source path."""
+    _warn(str(message))
 
 
 @contextmanager
 def _user_errors():
+    with warnings.catch_warnings():
+        warnings.showwarning = _show_warning
+        try:
+            yield
+        except InputError as error:
+            _fail(error)
+
+
+@contextmanager
+def _stops(unfinished: str = "the run did not finish and the output folder is as it was"):
+    """Ctrl-C or SIGTERM during a command: one line, exit status 128 + the signal's number.
+
+    Both arrive as an exception in the main thread (SIGTERM as ``gonogo_command.Stopped``), so every
+    ``finally`` on the way out runs: the executor kills its workers and frees its shared memory
+    (:func:`simulator.parallel.open_executor`), and a result set being written is taken away whole
+    (:func:`simulator.result_set.write_files`). Click would otherwise print "Aborted!" with status 1.
+    """
+    # only in the main thread, and never where SIGTERM was ignored from the start (nohup and the like)
+    own = (threading.current_thread() is threading.main_thread()
+           and signal.getsignal(signal.SIGTERM) is not signal.SIG_IGN)
+    previous = signal.signal(signal.SIGTERM, raise_stopped) if own else None
     try:
         yield
-    except InputError as error:
-        _fail(error)
+    except KeyboardInterrupt as stop:
+        signum, how = stop_name(stop)
+        where = getattr(stop, "after_writing", None)
+        state = f"the results were already written to {where}" if where is not None else unfinished
+        err_console.print(f"stopped by {how}: {_plain(state)}", soft_wrap=True)
+        raise typer.Exit(code=128 + signum) from None
+    finally:
+        if own:
+            signal.signal(signal.SIGTERM, previous)
 
 
 @contextmanager
 def _progress_bar(enabled: bool):
-    if not enabled:
+    if not enabled or not err_console.is_terminal:  # a pipe would get the bar's blank line only
         yield None
         return
-    columns = (TextColumn("{task.description}"), BarColumn(), MofNCompleteColumn(),
+    columns = (TextColumn("{task.description}", markup=False), BarColumn(), MofNCompleteColumn(),
                TimeRemainingColumn())
     with Progress(*columns, console=err_console, transient=True) as bar:
         tasks: dict[str, int] = {}
 
         def update(step: str, done: int, total: int) -> None:
             if step not in tasks:
-                tasks[step] = bar.add_task(step, total=total)
+                tasks[step] = bar.add_task(_plain(step), total=total)
             bar.update(tasks[step], completed=done, total=total)
 
         yield update
 
 
-def _money(value: float, currency: str) -> str:
-    return f"{value:,.0f} {currency}"
-
-
-def _ranges(ranges: list) -> str:
-    return ", ".join(f"{lo:.2f} to {hi:.2f}" for lo, hi in ranges) or "none"
-
-
 def _headline(result: RunResult) -> Table:
-    s = summary(result)
-    cur = s["currency"]
-    model = s["strategies"]["model"]
-    ref = s["reference"]
-    lo, hi = s["recommended_cutoff_interval"]
-    table = Table(title=f"{s['scenario']['name']}: act (\"{s['scenario']['action']}\") when the "
-                        f"probability of \"{s['scenario']['event']}\" is at least the cutoff",
-                  show_header=False, title_justify="left")
+    """The run's account (:func:`simulator.account.account`) as a two-column table."""
+    told = account(_plain(summary(result)))
+    table = Table(title=told.title, show_header=False, title_justify="left")
     table.add_column(style="bold")
     table.add_column()
-    p_star = s["theoretical_cutoff"]
-    if p_star is not None:
-        p_star = f"{p_star:.2f}"
-    else:
-        p_star = "different at each site (sites.csv)" if s.get("portfolio") else "undefined"
-    table.add_row("Recommended cutoff", f"{s['recommended_cutoff']:.2f}  (90% interval {lo:.2f} to {hi:.2f}; "
-                                        f"break-even probability of the costs {p_star})")
-    if s["objective"] != "mean":  # chosen for the bad seasons: say so, and what it costs on average
-        table.add_row("Chosen by", f"the lowest {OBJECTIVE_NAMES[s['objective']]}. "
-                                   + risk_view(s)["paragraph"])
-    table.add_row("Expected season cost", f"{_money(model['mean'], cur)}  (90% of seasons "
-                                          f"{_money(model['p05'], cur)} to {_money(model['p95'], cur)})")
-    sv = s["savings"]
-    table.add_row(f"Saving against {ref}", f"{_money(sv['mean'], cur)}  (90% range {_money(sv['p05'], cur)} to "
-                                           f"{_money(sv['p95'], cur)}; saves money in "
-                                           f"{share(sv['prob_saving'])} of seasons)")
-    table.add_row(f"Cutoffs that beat {ref}", _ranges(s["break_even"])
-                  + f"  ({OBJECTIVE_WORDS[s['objective']]['basis']}); "
-                  + _ranges(s["confident_break_even"]) + " (in 95% of seasons)")
-    table.add_row("Season", f"{s['season_occasions']} occasions, {s['replicates']} replicate seasons, "
-                            f"mean run {s['mean_block_days']:.1f} days")
-    portfolio = s.get("portfolio")
-    if portfolio:  # the rows above are all sites together at one common cutoff
-        own = portfolio["total_cost"]["own_cutoffs"]
-        best = portfolio["ranking"][0]
-        table.add_row(f"{portfolio['sites']} sites", f"totals at one cutoff for all; each site at its own cutoff "
-                      f"{_money(own['mean'], cur)} (90% of seasons {_money(own['p05'], cur)} to "
-                      f"{_money(own['p95'], cur)}); forecast worth most at \"{best['site']}\" "
-                      f"({_money(best['forecast_value'], cur)} a season); per site: sites.csv")
-    operations = s.get("operations")
-    if operations:
-        at = operations["at_recommended_cutoff"]
-        done = at.get("completion_date") or {}
-        finish = (f"work done by {done['p50']} in half the seasons (90%: {done['p05']} to {done['p95']}); "
-                  if done.get("p50") else "")
-        table.add_row("Under the operating rules",
-                      f"{finish}late in {share(at['share_late'])} of seasons "
-                      f"(mean {at['days_late']['mean']:.1f} days late); safety stop decided "
-                      f"{at['safety_stop_days']['mean']:.1f} days a season")
-    for name, d in s["strategies"].items():
-        if name != "model":
-            table.add_row(f"  {name}", f"{_money(d['mean'], cur)}  ({_money(d['p05'], cur)} to "
-                                       f"{_money(d['p95'], cur)})")
+    for finding in told.first:
+        table.add_row(finding.label, finding.text)
     return table
 
 
@@ -146,22 +154,30 @@ def _fitted_table(title: str, headers: list[tuple[str, str]], rows: list[list[st
 
     rule = "  ".join("-" * w for w in widths)
     body = [line([h[0] for h in headers]), line([h[1] for h in headers]), rule, *map(line, rows)]
-    text = Text(title + "\n", style="italic")
-    text.append("\n".join(body))
+    text = Text(_plain(title) + "\n", style="italic", no_wrap=True)  # printed with soft_wrap: lines kept whole
+    text.append("\n".join(_plain(body)))
     return text
+
+
+def _labels(result: RunResult) -> tuple[str, str, list[int]]:
+    """The reference rule in plain words, the unit of an occasion, and the season's months."""
+    s = result.scenario
+    unit = "day" if result.history.frequency.is_daily else "occasion"
+    return (_plain(strategy_label(result.reference, s.decision.action, s.event.name, unit)), unit,
+            list(s.season.months))
 
 
 def _stress_tables(result: RunResult) -> list:
     """The stress cases as one table, then each case's headline sentence."""
     if not result.stress:
         return []
-    cur = result.scenario.currency
+    cur = _plain(result.scenario.currency)
     base_cutoff = result.decision.recommended_cutoff
-    ref = result.reference
+    ref, _, _ = _labels(result)
     base = result.strategies["model"]
-    savings = result.baseline_cost[ref] - result.model_cost[:, result.decision.recommended_index]
-    rows = [["base case", f"{result.quality['event_rate']:.3f}", f"{base.mean:,.0f}", "",
-             f"{base_cutoff:.2f}", "", f"{savings.mean():,.0f} ({share((savings > 0).mean())})"]]
+    savings = result.baseline_cost[result.reference] - result.model_cost[:, result.decision.recommended_index]
+    rows = [["base case", f"{result.quality['event_rate']:.3f}", money(base.mean, ""), "",
+             f"{base_cutoff:.2f}", "", f"{money(savings.mean(), '')} ({share((savings > 0).mean())})"]]
     sentences = []
     for case in result.stress:
         rate = case.event_rate
@@ -170,11 +186,11 @@ def _stress_tables(result: RunResult) -> list:
             if rate is not None:
                 shown = f"{rate.achieved:.3f}" + ("" if rate.reached else f" (aim {rate.target:.3f})")
             label = case.name if v.probabilities == "as_forecast" else "  adapted"
-            rows.append([label, shown, f"{v.strategies['model'].mean:,.0f}", f"{v.extra_cost:+,.0f}",
-                         f"{v.best_cutoff:.2f}", f"{v.saved_by_moving:,.0f}",
-                         f"{v.savings.mean:,.0f} ({share(v.prob_saving)})"])
-            sentences.append(f"- {v.headline}")
-    table = _fitted_table(f"Stress tests, {cur} a season (means over replicate seasons)",
+            rows.append([label, shown, money(v.strategies["model"].mean, ""), signed_money(v.extra_cost, ""),
+                         f"{v.best_cutoff:.2f}", money(v.saved_by_moving, ""),
+                         f"{money(v.savings.mean, '')} ({share(v.prob_saving)})"])
+            sentences.append(_plain(f"- {v.headline}"))
+    table = _fitted_table(f"Stress tests, {cur} a season (means over simulated seasons)",
                           [("", "Case"), ("Event", "rate"), ("Cost at", f"{base_cutoff:.2f}"), ("", "Change"),
                            ("Best", "cutoff"), ("Saved by", "moving"), ("Saving", "(share)")], rows)
     note = (f"Saving: against {ref} at {base_cutoff:.2f}, mean and the share of seasons that save. "
@@ -183,22 +199,26 @@ def _stress_tables(result: RunResult) -> list:
 
 
 def _selection_tables(result: RunResult) -> list:
-    """The validation check and the walk-forward, when run."""
+    """The validation check and the walk-forward, when run: each at the cutoff chosen on the
+    period before it (the report shows the same tables)."""
     sel = result.selection
     if sel is None:
         return []
-    cur = result.scenario.currency
+    cur = _plain(result.scenario.currency)
+    ref, unit, months = _labels(result)
+    rules = result.scenario.operations is not None
+    per = f"{unit} played" if rules else unit
     out: list = []
     if sel.validation is not None:
         v = sel.validation
         t, val = v.training, v.validation
-        fixed = (" (each past season played under the operating rules on this season's calendar)"
-                 if result.scenario.operations is not None else "")
-        table = Table(title=f"Chosen on the training period, priced on the validation period: cutoff "
-                            f"{v.chosen_cutoff:.2f}{fixed}", title_justify="left")
+        played = (" (each past season played under the operating rules on this season's calendar)"
+                  if rules else "")
+        table = Table(title=f"Cutoff chosen on the training period, {v.chosen_cutoff:.2f}, priced on both "
+                            f"periods{played}", title_justify="left")
         table.add_column("")
-        table.add_column(f"training {t.start[:4]}-{t.end[:4]}", justify="right")
-        table.add_column(f"validation {val.start[:4]}-{val.end[:4]}", justify="right")
+        table.add_column(f"training {seasons_text(t.start, t.end, months)}", justify="right")
+        table.add_column(f"validation {seasons_text(val.start, val.end, months)}", justify="right")
         for key, label in (("hits", "hits"), ("false_alarms", "false alarms"), ("misses", "misses"),
                            ("correct_negatives", "correct negatives")):
             table.add_row(label, str(getattr(t, key)), str(getattr(val, key)))
@@ -206,36 +226,33 @@ def _selection_tables(result: RunResult) -> list:
                            ("miss_rate", "miss rate (events)"),
                            ("false_alarm_rate", "false alarm rate (non-events)")):
             table.add_row(label, f"{getattr(t, key):.3f}", f"{getattr(val, key):.3f}")
-        table.add_row("cost per occasion", _money(t.cost_per_occasion, cur), _money(val.cost_per_occasion, cur))
+        table.add_row(f"cost per {per}", money(t.cost_per_occasion, cur), money(val.cost_per_occasion, cur))
         out.append(table)
         lo, hi = v.expected_range
-        verdict = (f"[bold]worse than the training range ({_money(lo, cur)} to {_money(hi, cur)} per "
-                   "occasion): overfitted, or the world changed[/bold]" if v.flag else
-                   f"within what training leads one to expect (up to {_money(hi, cur)} per occasion)")
-        out.append(f"Validation cost at {v.chosen_cutoff:.2f}: {_money(val.cost, cur)}, {verdict}. With "
-                   f"hindsight the validation period's best cutoff, {v.validation_best_cutoff:.2f}, costs "
-                   f"{_money(v.validation_best_cost, cur)}: the optimism of choosing on the past is "
-                   f"{_money(v.optimism, cur)}.")
+        verdict = ((f"worse than the training range ({money(lo, cur)} to {money(hi, cur)} per "
+                    f"{per}): overfitted, or the world changed", "bold") if v.flag else
+                   f"within what training leads one to expect (up to {money(hi, cur)} per {per})")
+        out.append(Text.assemble(f"Validation period at {v.chosen_cutoff:.2f}: {money(val.cost, cur)} in all, ",
+                                 verdict, f". With hindsight the validation period's best cutoff, "
+                                 f"{v.validation_best_cutoff:.2f}, costs {money(v.validation_best_cost, cur)}: the "
+                                 f"optimism of choosing on the past is {money(v.optimism, cur)} over the validation "
+                                 "period."))
     if sel.walk_forward is not None:
         w = sel.walk_forward
-        rows = []
-        for s in w.steps:
-            lo, hi = s.expected_range
-            rows.append([str(s.season), f"{s.priced.cutoff:.2f}", f"{s.priced.cost_per_occasion:,.0f}",
-                         f"{s.training.cost_per_occasion:,.0f}", f"{lo:,.0f}-{hi:,.0f}",
-                         "worse" if s.flag else "", f"{s.best_cutoff:.2f}",
-                         f"{s.reference_cost / s.priced.n_occasions:,.0f}"])
+        rows = [[season_name(s.season, months), f"{s.priced.cutoff:.2f}", money(s.priced.cost, ""),
+                 f"{s.best_cutoff:.2f}", money(s.best_cost, ""), money(s.reference_cost, ""),
+                 "worse" if s.flag else ""] for s in w.steps]
         table = _fitted_table(f"Walk-forward: each season priced at the cutoff chosen on the seasons "
-                              f"before it ({cur} per occasion)",
-                              [("", "Season"), ("", "Cutoff"), ("", "Cost"), ("", "Training"),
-                               ("Training", "90% range"), ("", "Flag"), ("Hindsight", "cutoff"),
-                               ("", result.reference)], rows)
+                              f"before it ({cur} a season)",
+                              [("", "Season"), ("Chosen", "before it"), ("", "Cost"), ("Hindsight", "cutoff"),
+                               ("", "Its cost"), ("Reference", "rule"), ("", "Flag")], rows)
         out.append(table)
-        flagged = ", ".join(str(x) for x in w.flagged_seasons) or "none"
-        out.append(f"Walk-forward total {_money(w.total_cost, cur)} against {_money(w.in_sample_cost, cur)} "
-                   f"with one cutoff chosen in hindsight ({w.in_sample_cutoff:.2f}): optimism "
-                   f"{_money(w.optimism, cur)}; saving against {result.reference} "
-                   f"{_money(w.savings, cur)}. Seasons dearer than their training range: {flagged}.")
+        flagged = ", ".join(season_name(x, months) for x in w.flagged_seasons) or "none"
+        out.append(f"Reference rule: {ref}. Walk-forward total {money(w.total_cost, cur)} over "
+                   f"{len(w.steps)} seasons, against {money(w.in_sample_cost, cur)} with one cutoff chosen in "
+                   f"hindsight ({w.in_sample_cutoff:.2f}): optimism {money(w.optimism, cur)}; saving against the "
+                   f"reference rule {money(w.savings, cur)}. Seasons dearer per {per} than their training "
+                   f"range: {flagged}.")
     return out
 
 
@@ -247,18 +264,18 @@ def _sites_tables(result: RunResult) -> list:
     they ran, each site's checks on later seasons and its stress headline (from sites.csv)."""
     if result.portfolio is None:
         return []
-    cur = result.scenario.currency
+    cur = _plain(result.scenario.currency)
     frame = result.portfolio.table.sort_values("value_rank", kind="stable")
     shown = frame.head(SITES_SHOWN)
     more = (f"... and {len(frame) - len(shown)} more sites: sites.csv" if len(frame) > len(shown)
             else "Per site, with every figure: sites.csv")
     rows = [[r.site, f"{r.recommended_cutoff:.2f}", f"{r.recommended_cutoff_low:.2f}-{r.recommended_cutoff_high:.2f}",
-             f"{r.mean_cost:,.0f}", f"{r.mean_savings:,.0f} ({share(r.prob_saving)})", f"{r.forecast_value:,.0f}"]
+             money(r.mean_cost, ""), f"{money(r.mean_savings, '')} ({share(r.prob_saving)})", money(r.forecast_value, "")]
             for r in shown.itertuples()]
     out: list = [_fitted_table(f"Each site at its own cutoff ({cur} a season; by the value of the forecast)",
                                [("", "Site"), ("Own", "cutoff"), ("90%", "interval"), ("Mean", "cost"),
-                                ("Saving against", f"{result.reference} (share)"), ("Value of", "forecast")],
-                               rows), more]
+                                ("Saving against", "reference (share)"), ("Value of", "forecast")],
+                               rows), f"Reference rule: {_labels(result)[0]}. {more}"]
     validation, forward = "validation_chosen_cutoff" in frame.columns, "walk_forward_cost" in frame.columns
     if validation or forward:
         headers = [("", "Site")]
@@ -268,11 +285,11 @@ def _sites_tables(result: RunResult) -> list:
         for r in shown.itertuples():
             row = [r.site]
             if validation:
-                row += [f"{r.validation_chosen_cutoff:.2f}", f"{r.validation_optimism:,.0f}",
+                row += [f"{r.validation_chosen_cutoff:.2f}", money(r.validation_optimism, ""),
                         "worse" if r.validation_flag else ""]
             if forward:
                 flagged = r.walk_forward_flagged_seasons
-                row += [f"{r.walk_forward_optimism:,.0f}", flagged if isinstance(flagged, str) else ""]
+                row += [money(r.walk_forward_optimism, ""), flagged if isinstance(flagged, str) else ""]
             rows.append(row)
         out.append(_fitted_table(f"Each site's cutoff chosen on the past, priced on later seasons ({cur})", headers,
                                  rows))
@@ -287,7 +304,7 @@ def _sites_tables(result: RunResult) -> list:
     stressed = [site for site in result.portfolio.ranking[:SITES_SHOWN] if site.stress]
     if stressed:
         out.append("Stress cases of each site (all of them: stress.csv):")
-        out += [f"- {site.name}: {case.views[0].headline}" for site in stressed for case in site.stress]
+        out += [_plain(f"- {site.name}: {case.views[0].headline}") for site in stressed for case in site.stress]
     return out
 
 
@@ -305,23 +322,25 @@ def _calibration_lines(result: RunResult) -> list:
 
 def _report_run(result: RunResult, out: Path, written: list[Path], quiet: bool, as_json: bool) -> None:
     for warning in result.warnings:
-        err_console.print(f"warning: {warning}", markup=False, highlight=False, soft_wrap=True)
+        _warn(warning)
     if as_json:
         sys.stdout.write(json.dumps(summary(result), indent=2) + "\n")
         return
     if quiet:
         return
     hazard = result.scenario.event.hazard
-    caution = Text.assemble(("Caution: ", "bold"), (f'"{result.scenario.event.name}" is a hazard to people. '
+    caution = Text.assemble(("Caution: ", "bold"), (f'"{_plain(result.scenario.event.name)}" is a hazard to people. '
                                                     if hazard else "", "bold"), CAUTION)
     if hazard:  # said first, and again at the end
         out_console.print(caution)
     out_console.print(_headline(result))
     for part in (_sites_tables(result) + _stress_tables(result) + _selection_tables(result)
                  + _calibration_lines(result)):
-        out_console.print(part, soft_wrap=isinstance(part, Text))  # tables keep their lines whole
+        if isinstance(part, str):
+            part = _plain(part)
+        out_console.print(part, soft_wrap=isinstance(part, Text) and bool(part.no_wrap))  # tables keep their lines
     out_console.print(caution)
-    out_console.print(f"Wrote {len(written)} files to {out}/; open {out / 'report.html'} to read the report")
+    out_console.print(_plain(f"Wrote {len(written)} files to {out}/; open {out / 'report.html'} to read the report"))
 
 
 def _execute(scenario: Scenario, history: Path | None, out: Path | None, replicates: int | None,
@@ -338,7 +357,11 @@ def _execute(scenario: Scenario, history: Path | None, out: Path | None, replica
         with err_console.status("drawing the figures and writing the report"):
             files = render_files(result)
     written = write_files(files, out, force)
-    _report_run(result, out, written, quiet, as_json)
+    try:
+        _report_run(result, out, written, quiet, as_json)
+    except KeyboardInterrupt as stop:
+        stop.after_writing = out
+        raise
 
 
 Replicates = Annotated[int | None, typer.Option(min=20, help="How many replicate seasons to simulate "
@@ -387,7 +410,7 @@ def run_command(
     the same simulated seasons and sites.csv gives each site's own cutoff; the headline is then for
     all sites at one common cutoff.
     """
-    with _user_errors():
+    with _stops(), _user_errors():
         _execute(read_scenario(scenario), history, out, replicates, seed, force, quiet, as_json,
                  walk_forward=True if walk_forward else None, workers=workers, cluster=cluster)
 
@@ -407,7 +430,7 @@ def demo_command(
     """
     from .demo import write_demo_files
 
-    with _user_errors():
+    with _stops("the demo did not finish; the results in the output folder are as they were"), _user_errors():
         check_out_folder(out, force)
         scenario_path = write_demo_files(out)
         scenario = read_scenario(scenario_path)
@@ -424,14 +447,14 @@ def check_command(
     """Check a history and describe it (rows, period, event rate, forecast quality) without simulating."""
     from . import scoring
 
-    with _user_errors():
+    with _stops("the check did not finish"), _user_errors():
         spec = (read_scenario(scenario) if scenario is not None
                 else Scenario(name=history.stem, costs=Costs(hit=0, false_alarm=1, miss=1)))
         h = read_history(spec, history)
     for warning in h.warnings:
-        err_console.print(f"warning: {warning}", markup=False, highlight=False, soft_wrap=True)
+        _warn(warning)
     p, event = h.p[h.evaluated], h.event[h.evaluated]
-    table = Table(title=f"{history}: ok", show_header=False, title_justify="left")
+    table = Table(title=_plain(f"{history}: ok"), show_header=False, title_justify="left")
     table.add_column(style="bold")
     table.add_column()
     table.add_row("Rows", f"{h.n_rows} ({h.n_evaluated} in the season, {len(h.seasons)} seasons)")
@@ -439,10 +462,10 @@ def check_command(
     table.add_row("Calendar", f"{h.frequency.describe()} (the priced season is laid on it)")
     if h.has_sites:
         names = ", ".join(h.site_names[:5]) + (", ..." if h.n_sites > 5 else "")
-        table.add_row("Sites", f"{h.n_sites} (column \"{spec.history.site_column}\"): {names}")
+        table.add_row("Sites", _plain(f"{h.n_sites} (column \"{spec.history.site_column}\"): {names}"))
     if h.has_validation:
         table.add_row("Training / validation", f"{int(h.training.sum())} / {int(h.validation.sum())} occasions")
-    table.add_row(f"Event rate (\"{spec.event.name}\")", f"{event.mean():.3f} ({int(event.sum())} occasions)")
+    table.add_row(_plain(f"Event rate (\"{spec.event.name}\")"), f"{event.mean():.3f} ({int(event.sum())} occasions)")
     table.add_row("Mean forecast probability", f"{p.mean():.3f}")
     table.add_row("Brier score", f"{scoring.brier_score(p, event):.4f} (skill against the base rate "
                                  f"{scoring.brier_skill_score(p, event):.3f})")

@@ -6,6 +6,10 @@ colour-blind-safe set ("Color Universal Design", J*Fly), and every line also dif
 marker, so the charts survive colour-blind eyes and grey printers. Money axes carry the scenario's
 currency; probabilities and rates are labelled as such. PNG metadata is left empty, so the same
 run gives byte-identical files.
+
+Strings from a scenario or a history are plain text here: no text is parsed as mathematical markup
+(``text.parse_math`` is off in every figure), and each user string passes through
+:func:`user_text`, which writes control characters as escapes (no font has glyphs for them).
 """
 
 from __future__ import annotations
@@ -21,6 +25,8 @@ from matplotlib.backends.backend_agg import FigureCanvasAgg
 from matplotlib.figure import Figure
 from matplotlib.ticker import FuncFormatter
 
+from .errors import printable
+
 __all__ = ["Chart", "Words", "OKABE_ITO", "cost_chart", "savings_chart", "reliability_chart",
            "roc_chart", "value_chart", "stress_chart", "components_chart", "completion_chart", "risk_chart"]
 
@@ -31,7 +37,14 @@ _DPI = 150
 _STYLE = {"font.size": 10, "axes.titlesize": 11, "axes.titleweight": "bold", "axes.titlelocation": "left",
           "axes.spines.top": False, "axes.spines.right": False, "axes.grid": True, "grid.color": "#dddddd",
           "grid.linewidth": 0.6, "axes.edgecolor": "#444444", "legend.frameon": False,
-          "legend.fontsize": 9}
+          "legend.fontsize": 9,
+          "text.parse_math": False}  # "$" in a user's name is a dollar sign, never mathematical markup
+
+
+def user_text(text: str) -> str:
+    """A user's string as it is drawn: plain text (see the module's docstring), control characters
+    written as escapes."""
+    return printable(str(text))
 
 # colour, dash and marker of each baseline line (the model is always solid blue)
 _BASELINE_STYLE = {
@@ -54,6 +67,11 @@ class Words:
     labels: dict[str, str] = field(default_factory=dict)  # strategy name -> short legend label
     reference: str = "never_act"
     decimals: int = 2  # decimals of a cutoff on this grid
+
+    def __post_init__(self) -> None:
+        for name in ("event", "action", "currency", "occasion"):
+            object.__setattr__(self, name, user_text(getattr(self, name)))
+        object.__setattr__(self, "labels", {k: user_text(v) for k, v in self.labels.items()})
 
 
 @dataclass(frozen=True)
@@ -278,7 +296,7 @@ def stress_chart(names: Sequence[str], mean: Sequence[float], p05: Sequence[floa
         ax.plot(mean, y, "o", color=OKABE_ITO["blue"], ms=8, label="Expected, at the recommended cutoff")
         ax.plot(best, y, "D", color=OKABE_ITO["vermillion"], mfc="white", mew=1.6, ms=7,
                 label="Expected, at the case's own best cutoff")
-        ax.set_yticks(y, [_wrap(n, 34) for n in names])
+        ax.set_yticks(y, [_wrap(user_text(n), 34) for n in names])
         ax.grid(axis="y", visible=False)
         ax.set_xlabel(f"Season cost ({words.currency})")
         _money_axis(ax.xaxis)
@@ -301,7 +319,7 @@ def components_chart(names: Sequence[str], values: Sequence[float], reference: S
         if reference is not None:
             ax.barh(y - height / 2, reference, height=height, color=OKABE_ITO["vermillion"], hatch="///",
                     edgecolor="white", label="The reference rule")
-        ax.set_yticks(y, list(names))
+        ax.set_yticks(y, [user_text(n) for n in names])
         ax.grid(axis="y", visible=False)
         ax.set_xlabel(f"Expected cost in a season ({words.currency})")
         _money_axis(ax.xaxis)
@@ -310,23 +328,32 @@ def components_chart(names: Sequence[str], values: Sequence[float], reference: S
         return Chart(_png(fig))
 
 
-def completion_chart(weeks: Sequence[str], shares: Sequence[float], deadline: str | None,
-                     words: Words) -> Chart:
-    """Share of simulated seasons with the work finished by the end of each week (a step curve)."""
+def completion_chart(dates: Sequence[str], shares: Sequence[float], reference: Sequence[float] | None,
+                     deadline: str | None, words: Words, reference_label: str = "Reference rule") -> Chart:
+    """Share of simulated seasons with the work finished by the end of each day (a daily step curve:
+    its height at the deadline is the share finished on time), at the cutoff and, when given, under
+    the reference rule."""
     with mpl.rc_context(_STYLE):
         fig = _figure(8.0, 3.6)
         ax = fig.add_subplot()
-        start = np.array(weeks, dtype="datetime64[D]")
-        end = start + 7  # finished during the week: counted from its end
-        done = 100 * np.cumsum(np.asarray(shares, dtype=float))
-        ax.step(np.concatenate([[start[0]], end]), np.concatenate([[0.0], done]), where="post",
-                color=OKABE_ITO["blue"], lw=2, label="Seasons with the work finished")
+        day = np.array(dates, dtype="datetime64[D]")
+        done = 100 * np.asarray(shares, dtype=float)
+        # finished during a day: counted from the end of it
+        ax.step(np.concatenate([[day[0]], day + 1]), np.concatenate([[0.0], done]), where="post",
+                color=OKABE_ITO["blue"], lw=2, label="Following the forecast at the recommended cutoff")
+        if reference is not None:
+            ax.step(np.concatenate([[day[0]], day + 1]), np.concatenate([[0.0], 100 * np.asarray(reference)]),
+                    where="post", color="#555555", lw=1.5, linestyle=(0, (1, 1.5)),
+                    label=f"{reference_label} (reference)")
         if deadline:
-            ax.axvline(np.datetime64(deadline, "D"), color=OKABE_ITO["vermillion"], lw=1.5,
-                       linestyle=(0, (4, 2)), label=f"Deadline {deadline}")
+            ax.axvline(np.datetime64(deadline, "D") + 1, color=OKABE_ITO["vermillion"], lw=1.5,
+                       linestyle=(0, (4, 2)), label=f"Deadline {deadline} (end of the day)")
         ax.set_ylim(0, 102)
+        started = (done > 0) | (100 * np.asarray(reference if reference is not None else done) > 0)
+        first = int(np.argmax(started)) if started.any() else 0
+        ax.set_xlim(day[max(first - 7, 0)], day[-1] + 1)  # from a week before the first season finishes
         ax.set_ylabel("Seasons finished (% of\nsimulated seasons)")
-        ax.set_xlabel("Date (end of the week the work was finished)")
+        ax.set_xlabel("Date (end of the day the work was finished)")
         ax.set_title("When the work gets done at the recommended cutoff")
         ax.legend(loc="upper left")
         fig.autofmt_xdate()

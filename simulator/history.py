@@ -20,7 +20,7 @@ import numpy as np
 import pandas as pd
 
 from . import decimals
-from .errors import InputError, closest, did_you_mean, read_input_file
+from .errors import InputError, closest, did_you_mean, excerpt, read_input_file
 from .scenario import WEEKDAYS, HistorySection, Scenario, SeasonSection
 
 __all__ = ["History", "Frequency", "read_history", "history_from_frame", "history_frequency", "season_mask",
@@ -314,7 +314,13 @@ def history_from_frame(frame: pd.DataFrame, scenario: Scenario, *, label: str = 
     columns = [str(c) for c in frame.columns]
     frame.columns = columns
     where = _Where(label, first_row)
-    for role, name in _required_columns(spec):
+    required = _required_columns(spec)
+    if len(columns) == 1 and columns[0] not in [name for _, name in required]:
+        # not a table: its first line is not quoted back (it may be anything, e.g. a system file)
+        raise InputError(f"{label}: has a single column, so it is not a history table; give a file with "
+                         "date, probability and outcome columns (in a CSV file, a header row with the "
+                         "names separated by commas)")
+    for role, name in required:
         if name not in columns:
             raise InputError(f'{label}: no column "{name}" (the {role}){did_you_mean(name, columns)}; '
                              f"name it in the scenario's [history] {role}_column")
@@ -495,7 +501,7 @@ def _parse_dates(values: pd.Series, where: _Where, column: str) -> np.ndarray:
     bad = parsed.isna().to_numpy()
     if bad.any():
         i = np.flatnonzero(bad)[0]
-        raise where.error(i, column, f"{values.iloc[i]!r} is not a date; write dates as YYYY-MM-DD")
+        raise where.error(i, column, f"{excerpt(values.iloc[i])} is not a date; write dates as YYYY-MM-DD")
     if getattr(parsed.dt, "tz", None) is not None:
         parsed = parsed.dt.tz_localize(None)
     return parsed.to_numpy().astype("datetime64[D]")
@@ -539,7 +545,7 @@ def _parse_numbers(values: pd.Series, where: _Where, column: str, missing: str, 
     bad = np.isnan(numbers)
     if bad.any():
         i = np.flatnonzero(bad)[0]
-        raise where.error(i, column, f"{values.iloc[i]!r} is not a number{not_number}")
+        raise where.error(i, column, f"{excerpt(values.iloc[i])} is not a number{not_number}")
     return numbers
 
 
@@ -575,7 +581,7 @@ def _parse_outcome(frame: pd.DataFrame, spec: HistorySection, where: _Where,
         bad = ~(is_true | is_false)
         if bad.any():
             i = np.flatnonzero(bad)[0]
-            raise where.error(i, column, f"{values.iloc[i]!r} is not a yes/no outcome; write 1 or 0 "
+            raise where.error(i, column, f"{excerpt(values.iloc[i])} is not a yes/no outcome; write 1 or 0 "
                               "(true/false and yes/no also work)")
         return is_true, np.ones(len(frame), dtype=bool)
     column = spec.value_column

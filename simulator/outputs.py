@@ -1,9 +1,10 @@
 """Files out: ``summary.json``, ``cutoffs.csv`` and the tables beside them (``sites.csv`` with a
 site column).
 
-Everything is rendered in memory first and then written file by file to a temporary name and
-renamed, so a crash never leaves a half-written file; a folder that already holds files is only
-written into with ``force``.
+Everything is rendered in memory first (:func:`render_files`), then written as one whole result
+set by :func:`simulator.result_set.write_files`: staged beside the output folder and swapped in, so
+a reader sees the previous set or the new one, never a mix; a folder that already holds files is
+only written into with ``force``.
 """
 
 from __future__ import annotations
@@ -11,7 +12,6 @@ from __future__ import annotations
 import dataclasses
 import json
 import math
-import os
 from collections.abc import Mapping
 from pathlib import Path
 from typing import Any
@@ -20,7 +20,8 @@ import numpy as np
 import pandas as pd
 
 from . import __version__
-from .errors import InputError
+from .account import account
+from .result_set import check_out_folder, write_files
 from .run import RunResult
 from .selection import Calibration, Selection
 from .stress import StressResult
@@ -59,7 +60,8 @@ def summary(result: RunResult) -> dict[str, Any]:
         "tool_version": __version__,
         "scenario": {"name": scenario.name, "sha256": scenario.sha256, "event": scenario.event.name,
                      "action": scenario.decision.action, "flip": scenario.event.flip,
-                     "hazard": scenario.event.hazard},
+                     "hazard": scenario.event.hazard, "cutoffs": list(scenario.decision.cutoffs),
+                     "season_months": list(scenario.season.months)},
         "history": {"file": Path(history.label).name, "sha256": history.sha256, "rows": history.n_rows,
                     "evaluated_rows": history.n_evaluated,
                     "training_rows": int(history.training.sum()),
@@ -69,6 +71,7 @@ def summary(result: RunResult) -> dict[str, Any]:
         "currency": scenario.currency,
         "season_year": result.calendar.year,
         "season_occasions": result.calendar.n_occasions,
+        "occasion_unit": "day" if history.frequency.is_daily else "occasion",
         "replicates": result.replicates,
         "seed": result.seed,
         "mean_block_days": result.mean_block_days,
@@ -86,7 +89,7 @@ def summary(result: RunResult) -> dict[str, Any]:
         "savings": {"mean": decision.savings.mean, "p05": decision.savings.p05,
                     "p95": decision.savings.p95, "prob_saving": decision.prob_saving},
         "recommended": recommended,
-        "warnings": list(result.warnings),
+        "warnings": [_file_names_only(w, result) for w in result.warnings],
     }
     if result.operations is not None:  # only with [operations]: components, completion, safety stop
         out["operations"] = result.operations.summary(decision.recommended_index)
@@ -98,7 +101,18 @@ def summary(result: RunResult) -> dict[str, Any]:
         out["selection"] = _selection_entry(result.selection)
     if result.portfolio is not None:  # a site column: the run's numbers above are the portfolio's
         out["portfolio"] = _portfolio_entry(result)
-    return _clean(out)
+    out = _clean(out)
+    out["account"] = [finding.as_dict() for finding in account(out).findings]
+    return out
+
+
+def _file_names_only(text: str, result: RunResult) -> str:
+    """A message with the history's and the scenario's paths cut to their file names (a report and
+    its summary are shared: they name files, never a folder of this machine)."""
+    for path in (result.history.label, result.scenario.source):
+        if path and str(path) != Path(path).name:
+            text = text.replace(str(path), Path(path).name)
+    return text
 
 
 def _objectives_entry(result: RunResult) -> dict[str, dict[str, float]]:
@@ -117,47 +131,34 @@ def render_files(result: RunResult) -> dict[str, bytes]:
     from .report import render_report  # matplotlib and jinja2 load only when files are rendered
 
     contents = summary(result)
-    files = {
-        "summary.json": (json.dumps(contents, indent=2) + "\n").encode(),
-        "cutoffs.csv": result.table.to_csv(index=False, lineterminator="\n").encode(),
-        "value_curve.csv": result.value_curve.to_csv(index=False, lineterminator="\n").encode(),
-        "reliability.csv": result.reliability.to_csv(index=False, lineterminator="\n").encode(),
+    render = {
+        "summary.json": lambda: (json.dumps(contents, indent=2) + "\n").encode(),
+        "cutoffs.csv": lambda: _csv(result.table),
+        "value_curve.csv": lambda: _csv(result.value_curve),
+        "reliability.csv": lambda: _csv(result.reliability),
+        "stress.csv": lambda: _csv(_stress_frame(result)),
+        "calibration.csv": lambda: _csv(result.calibration.table),
+        "selection.csv": lambda: _csv(_selection_frame(result.selection)),
+        "sites.csv": lambda: _csv(result.portfolio.table),
     }
-    if result.stress is not None or (result.portfolio is not None
-                                     and any(site.stress is not None for site in result.portfolio.sites)):
-        files["stress.csv"] = _csv(_stress_frame(result))
-    if result.calibration is not None:
-        files["calibration.csv"] = _csv(result.calibration.table)
-    if result.selection is not None:
-        files["selection.csv"] = _csv(_selection_frame(result.selection))
-    if result.portfolio is not None:
-        files["sites.csv"] = _csv(result.portfolio.table)
+    files = {name: render[name]() for name in table_names(result)}  # the report lists the same names
     files.update(render_report(result, contents))
     return files
 
 
-def check_out_folder(out: Path, force: bool) -> None:
-    """Refuse to write into a folder that already holds files, unless ``force``."""
-    if out.exists() and not out.is_dir():
-        raise InputError(f"{out}: is a file, not a folder; choose another --out")
-    if out.is_dir() and any(out.iterdir()) and not force:
-        raise InputError(f"{out}: already holds results; add --force to replace them, or choose "
-                         "another --out")
-
-
-def write_files(files: Mapping[str, bytes], out: Path, force: bool) -> list[Path]:
-    """Write ``files`` into ``out`` (created if needed), each to a temporary name then renamed."""
-    check_out_folder(out, force)
-    out.mkdir(parents=True, exist_ok=True)
-    written = []
-    for name, data in files.items():
-        target = out / name
-        target.parent.mkdir(parents=True, exist_ok=True)
-        temporary = target.with_name(f".{target.name}.tmp-{os.getpid()}")
-        temporary.write_bytes(data)
-        os.replace(temporary, target)
-        written.append(target)
-    return written
+def table_names(result: RunResult) -> list[str]:
+    """The files written beside the report (and its figures), in the order they are written."""
+    names = ["summary.json", "cutoffs.csv", "value_curve.csv", "reliability.csv"]
+    if result.stress is not None or (result.portfolio is not None
+                                     and any(site.stress is not None for site in result.portfolio.sites)):
+        names.append("stress.csv")
+    if result.calibration is not None:
+        names.append("calibration.csv")
+    if result.selection is not None:
+        names.append("selection.csv")
+    if result.portfolio is not None:
+        names.append("sites.csv")
+    return names
 
 
 # ------------------------------------------------------------------------------------------------

@@ -30,8 +30,13 @@ import io
 import multiprocessing
 import os
 import pickle
+import select
+import signal
 import socket
+import struct
 import sys
+import threading
+import time
 from collections.abc import Callable, Iterable, Iterator
 from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
 from contextlib import contextmanager
@@ -43,9 +48,10 @@ import numpy as np
 from .errors import InputError
 
 __all__ = ["Executor", "InlineExecutor", "PoolExecutor", "DaskExecutor", "open_executor", "prepare",
-           "default_workers", "CONNECT_TIMEOUT", "CLUSTER_ENV", "IN_FLIGHT_PER_WORKER"]
+           "default_workers", "process_running", "CONNECT_TIMEOUT", "CLUSTER_ENV", "IN_FLIGHT_PER_WORKER"]
 
 CONNECT_TIMEOUT = 5.0  # seconds a cluster's scheduler has to answer
+_HANDSHAKE_BYTES = 1 << 20  # a Dask handshake is a few hundred bytes; a first message above this is not one
 CLUSTER_ENV = "GONOGO_CLUSTER"  # the command line's --cluster, when not given
 IN_FLIGHT_PER_WORKER = 2  # tasks submitted ahead per worker
 
@@ -73,6 +79,10 @@ class Executor:
     def close(self) -> None:
         pass
 
+    def abort(self) -> None:
+        """End at once, without waiting for tasks under way (after a stop or a failure)."""
+        self.close()
+
 
 class InlineExecutor(Executor):
     """Every task in this process, in order."""
@@ -88,9 +98,104 @@ class InlineExecutor(Executor):
 _SHARED: Any = None  # in a worker process: the run's shared inputs, installed once per worker
 
 
-def _install(shared: Any) -> None:
+def _install(shared: Any, parent: int | None = None) -> None:
+    """A worker's start: ignore Ctrl-C (the run's own process handles it and ends the workers),
+    end with the run's process ``parent`` (:func:`_end_with`), then load the shared inputs."""
     global _SHARED
+    signal.signal(signal.SIGINT, signal.SIG_IGN)
+    if parent is not None:
+        _end_with(parent)
     _SHARED = shared.load() if isinstance(shared, _InSharedMemory) else shared
+
+
+_PR_SET_PDEATHSIG = 1  # linux/prctl.h
+
+
+def _end_with(pid: int) -> None:
+    """End this worker process as soon as process ``pid`` (the run's) has ended, however it ended.
+
+    A run's process killed by SIGKILL cannot end its workers, and a worker of
+    ``concurrent.futures`` waits for its next task for good (it holds a writing end of its own task
+    queue, so never sees the queue close); the process that forks the workers and the resource
+    tracker then wait for the workers, and the tracker frees the semaphores and the shared-memory
+    block in /dev/shm only once all of them have ended. So each worker watches the run's process:
+    a thread waits on a pidfd of it (``pidfd_open``, Linux 5.3 and later), which becomes readable
+    when it ends, or elsewhere polls it twice a second, then ends the worker with ``os._exit``.
+    ``prctl(PR_SET_PDEATHSIG, SIGKILL)`` also ends the worker with its direct parent (the
+    forkserver, or the run's process under ``spawn``) on Linux.
+    """
+    try:
+        ctypes.CDLL(None).prctl(_PR_SET_PDEATHSIG, signal.SIGKILL, 0, 0, 0)
+    except (OSError, AttributeError, TypeError):  # not Linux
+        pass
+    try:
+        pidfd = os.pidfd_open(pid)
+    except ProcessLookupError:
+        os._exit(1)  # the run has already ended
+    except (AttributeError, OSError):
+        pidfd = None
+
+    def watch() -> None:
+        if pidfd is not None:
+            select.select([pidfd], [], [])
+        else:
+            while process_running(pid):
+                time.sleep(0.5)
+        os._exit(1)
+
+    threading.Thread(target=watch, name="gonogo-end-with-run", daemon=True).start()
+
+
+def process_running(pid: int) -> bool:
+    """Whether process ``pid`` runs (a process of another user counts: it cannot be signalled)."""
+    try:
+        os.kill(pid, 0)
+    except ProcessLookupError:
+        return False
+    except OSError:
+        return True
+    return True
+
+
+_TRACKER_WARNINGS = "ignore::UserWarning:multiprocessing.resource_tracker"
+
+
+def _quiet_tracker() -> None:
+    """Keep the resource tracker (started after this, with this process's warning options) from
+    warning about "leaked" semaphores and shared memory when a run's process was killed: it frees
+    them then, as it should, and the warning would be the only thing printed after the kill."""
+    if _TRACKER_WARNINGS not in sys.warnoptions:
+        sys.warnoptions.append(_TRACKER_WARNINGS)
+
+
+@contextmanager
+def _without_ctrl_c() -> Iterator[None]:
+    """Ctrl-C and SIGTERM held back (not lost) while worker processes are started from here.
+
+    A stop in the middle of starting a worker would leave a process started but unknown to the
+    pool, half fed with its inputs, to fail noisily later. So in the main thread both signals are
+    only noted meanwhile and raised again at the end, where the usual handlers turn them into
+    exceptions. Ctrl-C is also blocked in this thread, and a child inherits that: the forkserver
+    started here, and every worker it forks, never sees the terminal's Ctrl-C (which reaches the
+    whole process group), even while still loading its modules; the run's process ends them.
+    (The resource tracker does the same for itself.)
+    """
+    noted: list[int] = []
+    previous: dict[int, Any] = {}
+    if threading.current_thread() is threading.main_thread():
+        previous = {s: signal.signal(s, lambda signum, frame: noted.append(signum))
+                    for s in (signal.SIGINT, signal.SIGTERM) if signal.getsignal(s) is not signal.SIG_IGN}
+    mask = (signal.pthread_sigmask(signal.SIG_BLOCK, {signal.SIGINT}) if hasattr(signal, "pthread_sigmask")
+            else None)
+    try:
+        yield
+    finally:
+        if mask is not None:
+            signal.pthread_sigmask(signal.SIG_SETMASK, mask)
+        for signum, handler in previous.items():
+            signal.signal(signum, handler)
+        if noted:
+            signal.raise_signal(noted[0])
 
 
 class _InSharedMemory:
@@ -216,10 +321,23 @@ def prepare(workers: int | None = 1, cluster: Any = None) -> None:
     runs of this Python process)."""
     if cluster is not None or (default_workers() if workers is None else int(workers)) < 2:
         return
-    if _context().get_start_method() == "forkserver":
+    _start_forkserver(_context())
+
+
+def _start_forkserver(context: multiprocessing.context.BaseContext) -> None:
+    """The resource tracker, then the forkserver where it is the start method, started deaf to Ctrl-C."""
+    if os.name != "posix":  # neither exists
+        return
+    from multiprocessing import resource_tracker
+
+    _quiet_tracker()
+    # the tracker first: starting it unblocks Ctrl-C in this thread when done (it blocks it itself)
+    resource_tracker.ensure_running()
+    if context.get_start_method() == "forkserver":
         from multiprocessing import forkserver
 
-        forkserver.ensure_running()
+        with _without_ctrl_c():
+            forkserver.ensure_running()
 
 
 class PoolExecutor(Executor):
@@ -236,13 +354,20 @@ class PoolExecutor(Executor):
         if self._pool is not None and shared is not self._shared:  # the same inputs keep the workers
             self.close()
         if self._pool is None:
+            context = _context()
+            _start_forkserver(context)  # and the resource tracker, before the shared memory
             self._shipped = _InSharedMemory.make(shared)
-            self._pool = ProcessPoolExecutor(max_workers=self.workers, mp_context=_context(),
+            self._pool = ProcessPoolExecutor(max_workers=self.workers, mp_context=context,
                                              initializer=_install,
-                                             initargs=(shared if self._shipped is None else self._shipped,))
+                                             initargs=(shared if self._shipped is None else self._shipped,
+                                                       os.getpid()))
             self._shared = shared
-        yield from _bounded(lambda task: self._pool.submit(_call_installed, fn, task), tasks,
-                            IN_FLIGHT_PER_WORKER * self.workers,
+
+        def submit(task):
+            with _without_ctrl_c():  # a worker started under spawn is born deaf to Ctrl-C too
+                return self._pool.submit(_call_installed, fn, task)
+
+        yield from _bounded(submit, tasks, IN_FLIGHT_PER_WORKER * self.workers,
                             lambda pending: wait(pending, return_when=FIRST_COMPLETED)[0])
 
     def close(self) -> None:
@@ -253,6 +378,20 @@ class PoolExecutor(Executor):
         if self._shipped is not None:
             self._shipped.release()
             self._shipped = None
+
+    def abort(self) -> None:
+        """End at once (the run was stopped, or failed): kill the workers rather than let them finish
+        their tasks, then free what :meth:`close` frees."""
+        if self._pool is not None:
+            processes = list((getattr(self._pool, "_processes", None) or {}).values())
+            for process in processes:
+                process.kill()
+            self._pool.shutdown(wait=True, cancel_futures=True)  # sees the workers gone, and ends
+            for process in processes:
+                process.join(timeout=5)
+            self._pool = None
+            self._shared = None
+        self.close()
 
 
 def _bounded(submit, tasks, limit, wait_any) -> Iterator[tuple[int, Any]]:
@@ -279,7 +418,14 @@ def _bounded(submit, tasks, limit, wait_any) -> Iterator[tuple[int, Any]]:
 # a Dask cluster
 
 def _probe(address: str) -> None:
-    """Fail fast, in one line, when nothing listens at a tcp address (before Dask retries)."""
+    """Fail fast, in one line, when nothing listens at a tcp address, or something that is not a
+    Dask scheduler does (before Dask retries, or reads a stranger's bytes as a message length).
+
+    A Dask scheduler writes its handshake as soon as it accepts a connection, as one message that
+    starts with its length in bytes (an unsigned 64-bit little-endian integer; ``distributed.comm.tcp``,
+    ``TCP.write``, as read from the 2026.8 source). The probe reads those 8 bytes: a server that
+    closes at once, stays silent, or sends a length no handshake has is not a Dask scheduler.
+    """
     from distributed.comm.addressing import parse_address, parse_host_port
 
     try:
@@ -294,12 +440,39 @@ def _probe(address: str) -> None:
     except ValueError:
         raise InputError(f"cluster {address}: no port; write the address as tcp://host:8786") from None
     try:
-        socket.create_connection((host, port), timeout=CONNECT_TIMEOUT).close()
+        connection = socket.create_connection((host, port), timeout=CONNECT_TIMEOUT)
     except OSError as exc:
         reason = exc.strerror or type(exc).__name__
         raise InputError(f"cluster {address}: no answer within {CONNECT_TIMEOUT:g} s ({reason.lower()}); "
                          "check the address and that the Dask scheduler is running, or leave out "
                          f"--cluster and {CLUSTER_ENV} to run on this machine") from None
+    if scheme != "tcp":
+        connection.close()
+        return
+    first, silent = b"", False
+    with connection:
+        try:
+            while len(first) < 8:
+                more = connection.recv(8 - len(first))
+                if not more:
+                    break
+                first += more
+        except TimeoutError:
+            silent = True
+        except OSError:  # reset
+            pass
+    if len(first) < 8:
+        what = (f"sent nothing within {CONNECT_TIMEOUT:g} s" if silent and not first else
+                "closed the connection" if not first else "sent a few bytes and stopped")
+        raise InputError(f"cluster {address}: the server there {what}, which a Dask scheduler does not; "
+                         "check the address and port (a scheduler listens on 8786 by default), or leave "
+                         f"out --cluster and {CLUSTER_ENV} to run on this machine")
+    length = struct.unpack("<Q", first)[0]
+    if not 0 < length <= _HANDSHAKE_BYTES:
+        raise InputError(f"cluster {address}: the server there does not speak Dask's protocol (its first "
+                         "message is not a Dask handshake); check the address and port (a scheduler "
+                         f"listens on 8786 by default), or leave out --cluster and {CLUSTER_ENV} to run on "
+                         "this machine")
 
 
 class DaskExecutor(Executor):
@@ -423,5 +596,7 @@ def open_executor(workers: int | None = 1, cluster: Any = None, *, inline: bool 
         executor = InlineExecutor() if n == 1 or inline else PoolExecutor(n)
     try:
         yield executor
-    finally:
-        executor.close()
+    except BaseException:  # a failure, Ctrl-C or SIGTERM: no waiting for the tasks under way
+        executor.abort()
+        raise
+    executor.close()

@@ -15,8 +15,10 @@ from __future__ import annotations
 
 import base64
 import calendar
+import hashlib
 import json
 import math
+import re
 from collections.abc import Mapping
 from pathlib import Path
 from typing import Any
@@ -25,24 +27,20 @@ import jinja2
 import numpy as np
 
 from . import __version__, figures
+from .account import (OBJECTIVE_WORDS, account, bad_season, cutoff_decimals, cutoff_text, format_value, money,
+                      money_exact, rate, ranges_text, season_name, seasons_text, share, short_label, signed_money,
+                      strategy_label)
 from .decision import OBJECTIVE_NAMES
 from .figures import Words
+from .scenario import BASELINES
 from .scenario import WEEKDAYS
 
 __all__ = ["render_report", "headline_numbers", "recommendation", "format_value", "money", "share",
-           "cutoff_text", "strategy_label", "risk_view", "FIELD_FORMATS", "CAUTION", "OBJECTIVE_WORDS"]
+           "cutoff_text", "strategy_label", "FIELD_FORMATS", "CAUTION"]
 
 CAUTION = ("A cost-optimal cutoff does not replace safety rules, site risk assessments, local regulations "
            "or licensed professional judgement. The numbers price money only; they do not weigh harm "
            "to people.")
-
-# each [decision] objective in words (what it minimises: decision.OBJECTIVE_NAMES): the basis of
-# "costs no more than the reference", and its name on the risk chart
-OBJECTIVE_WORDS = {
-    "mean": {"basis": "on average", "name": "Lowest expected cost"},
-    "p95": {"basis": "in its 95th-percentile season", "name": "Lowest 95th percentile"},
-    "shortfall10": {"basis": "over the worst 10% of seasons", "name": "Lowest mean of the worst 10%"},
-}
 
 # how each cutoffs.csv column the explorer shows is written on the page
 FIELD_FORMATS = {"cutoff": "cutoff", "hits": "count", "false_alarms": "count", "misses": "count",
@@ -51,86 +49,24 @@ FIELD_FORMATS = {"cutoff": "cutoff", "hits": "count", "false_alarms": "count", "
                  "p05_cost": "money", "p95_cost": "money", "mean_savings": "money",
                  "prob_saving": "share"}
 
+# what each file beside the report holds (the report lists the files actually written)
+FILE_NOTES = {"summary.json": " (every headline number, full precision)", "cutoffs.csv": " (one row per cutoff)",
+              "value_curve.csv": " (relative value by cost-loss ratio)", "reliability.csv": " (reliability table)",
+              "selection.csv": " (the cutoff chosen on earlier periods, priced on later ones)",
+              "stress.csv": " (every stress case)", "sites.csv": " (each site at its own cutoff)",
+              "calibration.csv": " (the recalibration curve)"}
+
 _ENV = jinja2.Environment(loader=jinja2.PackageLoader("simulator", "templates"),
                           autoescape=jinja2.select_autoescape(["html", "j2"]),
                           undefined=jinja2.StrictUndefined, trim_blocks=True, lstrip_blocks=True)
 
 
 # ------------------------------------------------------------------------------------------------
-# formatting: the one place numbers become text
-
-def money(value: float | None, currency: str) -> str:
-    """Whole units with thousands separators: ``391,743 EUR``; a dash when undefined."""
-    if value is None or not math.isfinite(value):
-        return "\u2013"
-    rounded = round(float(value))
-    return f"{rounded if rounded else 0:,} {currency}"
-
-
-def share(value: float | None) -> str:
-    """A probability as a whole percentage; never rounds a rare loss away (``over 99%``)."""
-    if value is None or not math.isfinite(value):
-        return "\u2013"
-    if 0.995 <= value < 1.0:
-        return "over 99%"
-    if 0.0 < value < 0.005:
-        return "under 1%"
-    return f"{value:.0%}"
-
-
-def rate(value: float | None) -> str:
-    """A rate of the classification matrix, one decimal: ``72.7%``."""
-    if value is None or not math.isfinite(value):
-        return "n/a"
-    return f"{value:.1%}"
-
-
-def cutoff_text(value: float, decimals: int = 2) -> str:
-    return f"{value:.{decimals}f}"
-
-
-def format_value(kind: str, value: Any, currency: str, decimals: int = 2) -> str:
-    """Text of one value by kind: ``money``, ``share``, ``rate``, ``count`` or ``cutoff``."""
-    if kind == "money":
-        return money(value, currency)
-    if kind == "share":
-        return share(value)
-    if kind == "rate":
-        return rate(value)
-    if kind == "count":
-        return f"{int(value):,}"
-    if kind == "cutoff":
-        return cutoff_text(value, decimals)
-    raise ValueError(f"unknown kind of value {kind!r}")
-
-
-def _ranges(ranges: list, decimals: int) -> str:
-    parts = [f"{cutoff_text(lo, decimals)} to {cutoff_text(hi, decimals)}" for lo, hi in ranges]
-    return " and from ".join(parts)
-
+# the recommendation: rendered from the run's account (simulator.account), as the terminal is
 
 def _sentence_case(text: str) -> str:
     return text[:1].upper() + text[1:]
 
-
-def strategy_label(name: str, action: str, event: str, occasion: str = "day") -> str:
-    """A strategy in plain words, in the scenario's terms (lower case, for mid-sentence use)."""
-    return {
-        "model": f"{action} when the probability of \u201c{event}\u201d reaches the cutoff",
-        "never_act": f"never {action}",
-        "always_act": f"always {action}",
-        "persistence": f"{action} if \u201c{event}\u201d happened on the previous {occasion}",
-        "seasonal_rate": f"{action} in the months when \u201c{event}\u201d was common enough to pay",
-        "perfect": "act exactly when it pays: the lowest cost possible",
-    }.get(name, name.replace("_", " "))
-
-
-_LEGEND = {"never_act": "Never {a}", "always_act": "Always {a}", "persistence": "Persistence (act as the previous {o} needed)",
-           "seasonal_rate": "By calendar month", "perfect": "Perfect foresight"}
-
-
-# ------------------------------------------------------------------------------------------------
-# the recommendation
 
 def headline_numbers(summary: Mapping[str, Any], decimals: int = 2) -> dict[str, str]:
     """The numbers the recommendation quotes, as they are written on the page."""
@@ -144,65 +80,44 @@ def headline_numbers(summary: Mapping[str, Any], decimals: int = 2) -> dict[str,
         "p95_cost": money(model["p95"], cur),
         "saving": money(abs(savings["mean"]), cur),
         "prob_saving": share(savings["prob_saving"]),
-        "break_even": _ranges(summary["break_even"], decimals),
+        "break_even": ranges_text(summary["break_even"], decimals),
     }
 
 
 def recommendation(summary: Mapping[str, Any], occasion: str = "day", decimals: int = 2) -> list[str]:
-    """The recommendation in three plain sentences, from ``summary.json`` alone."""
-    n = headline_numbers(summary, decimals)
-    s = summary["scenario"]
-    action, event = s["action"], s["event"]
-    ref = strategy_label(summary["reference"], action, event, occasion)
-    first = (f"{_sentence_case(action)} when the forecast probability of \u201c{event}\u201d is "
-             f"{n['cutoff']} or more: a season then costs {n['mean_cost']} on average, and between "
-             f"{n['p05_cost']} and {n['p95_cost']} in 90% of simulated seasons.")
-    more_or_less = "less" if summary["savings"]["mean"] >= 0 else "more"
-    second = (f"That is {n['saving']} a season {more_or_less} than the reference rule ({ref}), and "
-              f"following the forecast saves money in {n['prob_saving']} of simulated seasons.")
-    basis = OBJECTIVE_WORDS[summary.get("objective", "mean")]["basis"]
-    if summary["break_even"]:
-        third = (f"Any cutoff from {n['break_even']} costs no more than the reference rule {basis}.")
-    else:
-        third = f"No cutoff costs less than the reference rule {basis}: keep to the reference rule."
-    return [first, second, third]
-
-
-def risk_view(summary: Mapping[str, Any], decimals: int = 2) -> dict[str, str]:
-    """The trade-off between the average and the bad season, in words, from ``summary.json``.
-
-    ``tail`` is the bad-season measure the report draws (the 95th percentile when the objective is
-    ``p95``, else the mean of the worst 10% of seasons); ``paragraph`` compares the recommended
-    cutoff with the one the other view chooses (the mean's, or the tail's when the objective is the
-    mean), each difference once, per season.
-    """
-    cur = summary["currency"]
-    objective = summary.get("objective", "mean")
-    choices = summary["objectives"]
-    tail = "p95" if objective == "p95" else "shortfall10"
-    column = {"p95": "p95_cost", "shortfall10": "shortfall10_cost"}[tail]
-    tail_what = OBJECTIVE_NAMES[tail]
-    other = tail if objective == "mean" else "mean"
-    chosen, alternative = choices[objective], choices[other]
-    here = cutoff_text(chosen["cutoff"], decimals)
-    if alternative["cutoff"] == chosen["cutoff"]:
-        paragraph = (f"Here the lowest expected season cost and the lowest {tail_what} come at the same cutoff, "
-                     f"{here}: the average season and the bad season ask for the same choice.")
-    else:
-        mean_gap = alternative["mean_cost"] - chosen["mean_cost"]
-        tail_gap = alternative[column] - chosen[column]
-        there = cutoff_text(alternative["cutoff"], decimals)
-        reason = "the lowest " + ("expected season cost" if other == "mean" else tail_what)
-        paragraph = (f"Choosing for {reason} instead would move the cutoff from {here} to {there}: a season would "
-                     f"cost {money(abs(mean_gap), cur)} {'more' if mean_gap > 0 else 'less'} on average, and the "
-                     f"{tail_what} would be {money(abs(tail_gap), cur)} {'higher' if tail_gap > 0 else 'lower'} "
-                     f"(each per season, over {summary['replicates']:,} simulated seasons).")
-    return {"tail": tail, "tail_what": tail_what, "column": column, "paragraph": paragraph,
-            "objective_what": OBJECTIVE_NAMES[objective]}
+    """The recommendation in plain sentences: the account's first findings (``summary.json`` alone)."""
+    return account(summary).sentences
 
 
 # ------------------------------------------------------------------------------------------------
 # the page
+
+# characters that could end or bend a <script> element's content, or a JavaScript string, in JSON
+_SCRIPT_UNSAFE = {"<": "\\u003c", ">": "\\u003e", "&": "\\u0026", "\u2028": "\\u2028", "\u2029": "\\u2029"}
+
+
+def script_json(value: Any) -> str:
+    """``value`` as JSON that is safe inside a ``<script>`` element: ``<``, ``>``, ``&``, U+2028 and
+    U+2029 written as ``\\u`` escapes, so that no string in it (a user's ``</script>`` or ``<!--``
+    followed by ``<script``) can close the element or switch the HTML parser into its
+    script-data-escaped state (WHATWG HTML, "Restrictions for contents of script elements"). JSON
+    reads the escapes back as the same characters."""
+    text = json.dumps(_plain(value), separators=(",", ":"))
+    return re.sub("[<>&\u2028\u2029]", lambda m: _SCRIPT_UNSAFE[m.group()], text)
+
+
+_CSP_PLACEHOLDER = "__gonogo_script_hashes__"
+_INLINE_SCRIPT = re.compile(r"<script>(.*?)</script>", re.S)
+
+
+def _with_content_policy(html: str) -> str:
+    """The page with its Content-Security-Policy filled in: nothing from the network
+    (``default-src 'none'``), the page's own inline scripts by their SHA-256 hashes, its inline
+    style, and ``data:`` images (W3C, Content Security Policy Level 3, sections 6 and 8.3)."""
+    hashes = " ".join("'sha256-" + base64.b64encode(hashlib.sha256(body.encode("utf-8")).digest()).decode("ascii") + "'"
+                      for body in _INLINE_SCRIPT.findall(html))
+    return html.replace(_CSP_PLACEHOLDER, hashes, 1)
+
 
 def _plain(value: Any) -> Any:
     """numpy values as plain Python, NaN as None (JSON for the page's script)."""
@@ -259,15 +174,20 @@ def _occasion_days(result) -> str:
     return text
 
 
-def _decimals(step: float) -> int:
-    """Decimals that write every cutoff of a grid with this step exactly (at least two)."""
-    return next((d for d in range(2, 7) if abs(round(step, d) - step) < 1e-12), 6)
+# with [operations]: the lateness each cutoff gives, shown by the explorer too
+RULES_FIELD_FORMATS = {"share_late": "share", "mean_days_late": "days"}
+
+
+def _fields(table) -> dict[str, str]:
+    """The explorer's fields of this run's cutoff table (lateness only with operating rules)."""
+    return {**FIELD_FORMATS, **{k: v for k, v in RULES_FIELD_FORMATS.items() if k in table.columns}}
 
 
 def _explorer_rows(table, currency: str, decimals: int) -> list[dict[str, str]]:
-    columns = {name: table[name].to_numpy() for name in FIELD_FORMATS}
+    fields = _fields(table)
+    columns = {name: table[name].to_numpy() for name in fields}
     return [{name: format_value(kind, columns[name][i], currency, decimals)
-             for name, kind in FIELD_FORMATS.items()} for i in range(len(table))]
+             for name, kind in fields.items()} for i in range(len(table))]
 
 
 def _matrix(row, prefix: str, currency: str) -> dict[str, str]:
@@ -276,13 +196,11 @@ def _matrix(row, prefix: str, currency: str) -> dict[str, str]:
            for name, kind in FIELD_FORMATS.items() if kind in ("count", "rate")}
     n = int(sum(row[prefix + k] for k in ("hits", "false_alarms", "misses", "correct_negatives")))
     out["n"] = f"{n:,}"
-    out["cost"] = money(row[prefix + "historical_cost"] / n if n else None, currency)
+    if prefix + "historical_cost" in row:
+        out["cost"] = money(row[prefix + "historical_cost"] / n if n else None, currency)
+    elif "cost_per_occasion" in row:
+        out["cost"] = money(row["cost_per_occasion"], currency)
     return out
-
-
-def signed_money(value: float | None, currency: str) -> str:
-    text = money(value, currency)
-    return "+" + text if value is not None and math.isfinite(value) and round(value) > 0 else text
 
 
 def _stress_cases(summary: Mapping[str, Any], currency: str, decimals: int) -> list[dict[str, Any]]:
@@ -342,37 +260,81 @@ def _operations(summary: Mapping[str, Any], currency: str) -> dict[str, Any] | N
         "reference_values": [ref_parts.get(k, float("nan")) for k, _ in parts] if ref_parts else None,
         "dates": {k: dates.get(k) or "not finished" for k in ("p05", "p50", "p95")},
         "share_completed": share(at.get("share_completed")), "share_late": share(at.get("share_late")),
+        "reference_share_late": share(ref.get("share_late")),
         "late_mean": f"{late.get('mean', float('nan')):.1f}", "late_p95": f"{late.get('p95', float('nan')):.0f}",
-        "weeks": [w for w in at.get("completion_by_week") or [] if w[0] != "unfinished"],
         "deadline": ops.get("deadline"), "crews": ops.get("crews"), "work": ops.get("work_crew_days"),
         "working_days": ops.get("working_days"), "overtime_days": ops.get("overtime_days_available"),
         "days": days, "caution": ops.get("caution", ""),
     }
 
 
-def _read_back(section, currency: str) -> list[tuple[str, str]]:
-    """A scenario section's keys as plain (label, value) pairs; money keys in the currency."""
+MONEY_KEYS = frozenset({"hit", "false_alarm", "miss", "correct_negative", "day_rate", "standby_rate",
+                        "spoilage_cost", "damages_per_day_late", "unfinished_cost"})
+"""Keys of ``[costs]`` and ``[operations]`` whose values are money (every other number is not)."""
+
+
+def _plain_setting(key: str, value: Any, currency: str, action: str, event: str) -> tuple[str, str]:
+    """One scenario setting as a reader says it: (label, value), settings' codes in words."""
+    words = {
+        "crews_out_on": ("crews go out", {"acting": f"when we {action}",
+                                          "not_acting": f"when we do not {action}"}),
+        "spoiled_on": ("a day out is spoiled", {"event": f"when \u201c{event}\u201d happens",
+                                                "no_event": f"when \u201c{event}\u201d does not happen"}),
+        "safety_probability": ("the safety stop reads", {"as_in_file": "the probability as written in the history file",
+                                                         "of_event": f"the probability of \u201c{event}\u201d"}),
+    }
+    if key in words:
+        label, choices = words[key]
+        return label, choices.get(value, str(value))
+    label = key.replace("_", " ")
+    if isinstance(value, list | tuple):
+        return label, ", ".join(str(v) for v in value) or "none"
+    if key in MONEY_KEYS and isinstance(value, int | float):
+        return label, money_exact(value, currency)
+    if key == "work" and isinstance(value, int | float):
+        return label, f"{value:,g} crew-days"
+    if key == "event_rate":
+        return label, f"{value:g} times as often as in the history"
+    if key in ("overtime_multiple",):
+        return label, f"{value:g} times the day rate"
+    if key == "skill":
+        return label, f"{value:.0%} of each probability's distance from the event rate kept"
+    if key == "noise":
+        return label, f"standard deviation {value:g} on the log-odds scale"
+    if key == "block_days":
+        return "spells", f"runs of {value:g} days on average"
+    if key == "worst_seasons":
+        return label, f"only the {value} costliest past seasons"
+    if key == "work_lost_when_spoiled":
+        return label, f"{value:.0%}"
+    return label, str(value)
+
+
+def _read_back(section, currency: str, action: str, event: str) -> list[tuple[str, str]]:
+    """A scenario section's keys as plain (label, value) pairs; money in the currency, factors as such."""
     out = []
     for key, value in section.model_dump(exclude_none=True).items():
         if isinstance(value, Mapping):
-            value = ", ".join(f"{k.replace('_', ' ')} {v:g}" for k, v in value.items() if v is not None)
-        elif isinstance(value, list | tuple):
-            value = ", ".join(str(v) for v in value) or "none"
-        elif isinstance(value, float) and any(w in key for w in ("rate", "cost", "damages")):
-            value = money(value, currency)
-        out.append((key.replace("_", " "), str(value)))
+            factors = key.endswith("multipliers")
+            parts = [(k, v) for k, v in value.items() if v is not None]
+            value = ", ".join(f"{k.replace('_', ' ')} \u00d7{v:g}" if factors else
+                              " ".join(_plain_setting(k, v, currency, action, event)) for k, v in parts)
+            out.append((key.replace("_", " "), value))
+            continue
+        out.append(_plain_setting(key, value, currency, action, event))
     return out
 
 
 def _rules_read_back(scenario) -> list[tuple[str, list[tuple[str, str]]]]:
-    """The ``[operations]`` rules and every ``[[stress]]`` case, key by key, as the reader wrote them."""
+    """The ``[operations]`` rules and every ``[[stress]]`` case, key by key, in plain words."""
     rows = []
+    words = (scenario.currency, scenario.decision.action, scenario.event.name)
     rules = getattr(scenario, "operations", None)
     if rules is not None:
-        rows.append(("Operating rules", _read_back(rules, scenario.currency)))
+        rows.append(("Operating rules", _read_back(rules, *words)))
     for case in getattr(scenario, "stress", None) or ():
         rows.append((f"Stress case \u201c{case.name}\u201d",
-                     [(k, v) for k, v in _read_back(case, scenario.currency) if k != "name"]))
+                     [(k, v) for k, v in _read_back(case, *words) if k != "name"]))
     return rows
 
 
@@ -413,16 +375,36 @@ def _portfolio(summary: Mapping[str, Any], currency: str, decimals: int) -> dict
             "sd_independent": money(spread["sd_if_independent"], currency)}
 
 
+def _completion_by_day(result) -> tuple[list[str], list[float], list[float]] | None:
+    """Share of simulated seasons with the work finished by the end of each day of the season, at
+    the recommended cutoff and under the reference rule (from the replicates' completion days; None
+    without a backlog): dates, shares at the cutoff, shares under the reference."""
+    ops = result.operations
+    if ops is None or "completion_index" not in ops.extras or not ops.rules.limited:
+        return None
+    days = ops.rules.n_occasions
+
+    def by_day(lane: int) -> list[float]:
+        index = ops.lane("completion_index", lane)
+        finished = np.bincount(index[index >= 0], minlength=days)[:days]
+        return list(np.cumsum(finished) / index.size)
+
+    reference = ops.n_cutoffs + BASELINES.index(result.reference)
+    return ([str(d) for d in ops.rules.dates[:days]], by_day(result.decision.recommended_index),
+            by_day(reference))
+
+
 def render_report(result, summary: Mapping[str, Any]) -> dict[str, bytes]:
     """``report.html`` and ``figures/<name>.png``, rendered in memory from a run and its summary."""
+    from .outputs import table_names
     scenario, history, decision, table = result.scenario, result.history, result.decision, result.table
     currency = scenario.currency
     action, event = scenario.decision.action, scenario.event.name
     occasion = "day" if history.frequency.is_daily else "occasion"
-    decimals = _decimals(scenario.decision.cutoffs[2])
+    decimals = cutoff_decimals(scenario.decision.cutoffs[2])
     words = Words(event=event, action=action, currency=currency, occasion=occasion,
                   reference=result.reference, decimals=decimals,
-                  labels={k: v.format(a=action, e=event, o=occasion) for k, v in _LEGEND.items()})
+                  labels={k: short_label(k, action, occasion) for k in result.baseline_cost})
     best = decision.recommended_index
     row = table.iloc[best]
     ref_label = strategy_label(result.reference, action, event, occasion)
@@ -448,10 +430,14 @@ def render_report(result, summary: Mapping[str, Any]) -> dict[str, bytes]:
             result.value_curve["value_at_cutoff_equal_to_ratio"].to_numpy(), result.theoretical_cutoff,
             float(row["relative_value"]), words),
     }
-    risk = risk_view(summary, decimals)
+    tail, column = bad_season(decision.objective)
+    chosen_by = account(summary).get("objective")
+    risk = {"tail_what": OBJECTIVE_NAMES[tail], "objective_what": OBJECTIVE_NAMES[decision.objective],
+            # said once: in the recommendation when a risk objective chose, else here
+            "paragraph": chosen_by.sentence if chosen_by is not None and not chosen_by.first else ""}
     charts["risk"] = figures.risk_chart(
-        result.cutoffs, table["mean_cost"].to_numpy(), table[risk["column"]].to_numpy(),
-        _sentence_case(risk["tail_what"]), decision.choices,
+        result.cutoffs, table["mean_cost"].to_numpy(), table[column].to_numpy(),
+        OBJECTIVE_NAMES[tail].capitalize(), decision.choices,
         {name: w["name"] for name, w in OBJECTIVE_WORDS.items()}, decision.objective, words)
     stress = _stress_cases(summary, currency, decimals)
     if stress:
@@ -462,13 +448,17 @@ def render_report(result, summary: Mapping[str, Any]) -> dict[str, bytes]:
     if operations and operations["values"]:
         charts["operations_costs"] = figures.components_chart(
             operations["names"], operations["values"], operations["reference_values"], words)
-    if operations and operations["weeks"]:
-        charts["completion"] = figures.completion_chart(
-            [w[0] for w in operations["weeks"]], [w[1] for w in operations["weeks"]], operations["deadline"], words)
+    by_day = _completion_by_day(result) if operations else None
+    if by_day is not None:
+        charts["completion"] = figures.completion_chart(*by_day, operations["deadline"], words,
+                                                        reference_label=short_label(result.reference, action, occasion))
 
-    periods = [("Whole history", "")]
-    if history.has_validation:
-        periods += [("Training period", "training_"), ("Validation period", "validation_")]
+    months = list(scenario.season.months)
+    honest = (summary.get("selection") or {}).get("validation")
+    periods = []
+    if honest:  # the validation check's own cutoff, as the terminal shows it
+        periods = [(f"{label} {seasons_text(r['start'], r['end'], months)}", _matrix(r, "", currency))
+                   for label, r in (("Training", honest["training"]), ("Validation", honest["validation"]))]
     short = dict(words.labels, model=f"Follow the forecast at {cutoff_text(decision.recommended_cutoff, decimals)}")
     strategies = [{"label": short.get(name, name),
                    "what": "" if name in ("never_act", "always_act") else strategy_label(name, action, event, occasion),
@@ -486,10 +476,14 @@ def render_report(result, summary: Mapping[str, Any]) -> dict[str, bytes]:
         "caution": CAUTION, "hazard": scenario.event.hazard, "occasion": occasion,
         "ref_label": ref_label, "Action": _sentence_case(action), "decimals": decimals,
         "cut": lambda v: cutoff_text(v, decimals), "money": lambda v: money(v, currency), "share": share,
-        "rate": rate, "ranges": lambda r: _ranges(r, decimals) or "none",
+        "rate": rate, "ranges": lambda r: ranges_text(r, decimals) or "none",
+        "season_name": lambda y: season_name(y, months), "account": account(summary),
+        "money_exact": lambda v: money_exact(v, currency), "file_notes": FILE_NOTES,
+        "history_occasion": f"site-{occasion}" if summary.get("portfolio") else occasion,
+        "beside": table_names(result),
         "images": {name: _data_uri(chart.png) for name, chart in charts.items()},
-        "now": explorer["rows"][best], "periods": [(label, _matrix(row, p, currency)) for label, p in periods],
-        "explorer_json": json.dumps(_plain(explorer), separators=(",", ":")).replace("</", "<\\/"),
+        "now": explorer["rows"][best], "everything": _matrix(row, "", currency), "periods": periods,
+        "explorer_json": script_json(explorer), "script_hashes": _CSP_PLACEHOLDER,
         "strategies": strategies, "losing": share(float((savings < 0).mean())),
         "stress": stress, "operations": operations,
         "rules": _rules_read_back(scenario),
@@ -497,13 +491,13 @@ def render_report(result, summary: Mapping[str, Any]) -> dict[str, bytes]:
         "scenario_file": Path(scenario.source).name if scenario.source else "(given in code)",
         "auto_block": scenario.simulation.block_days == "auto",
         "n_cutoffs": len(table), "recommended_index": best,
-        "honest": (summary.get("selection") or {}).get("validation"),
+        "honest": honest,
         "forward": (summary.get("selection") or {}).get("walk_forward"),
         "calibration": summary.get("calibration"),
         "portfolio": _portfolio(summary, currency, decimals),
         "risk": risk,
     }
-    html = _ENV.get_template("report.html.j2").render(context)
+    html = _with_content_policy(_ENV.get_template("report.html.j2").render(context))
     files = {"report.html": html.encode("utf-8")}
     files.update({f"figures/{name}.png": chart.png for name, chart in charts.items()})
     return files

@@ -18,9 +18,10 @@ sites, and :class:`Portfolio` sets each site's own cutoff beside it.
 from __future__ import annotations
 
 import dataclasses
+import threading
 import uuid
 from collections.abc import Callable, Iterator, Sequence
-from concurrent.futures import ThreadPoolExecutor
+from concurrent.futures import Future
 from contextlib import contextmanager
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -39,7 +40,9 @@ from .operations import OperationsResult, UserProcess, make_rules
 from .operations_fast import OperationsPricer
 from .parallel import Executor, InlineExecutor, open_executor, prepare
 from .resample import BLOCK, Calendar, Resampler, block_rng, calendar_warnings, n_blocks, season_calendar
-from .scenario import BASELINES, Scenario, break_even_probability, cost_warnings, read_scenario
+from .scenario import (BASELINES, Scenario, break_even_probability, check_workload, cost_warnings,
+                       read_scenario)
+from .scoring import relative_value_from_costs
 from .selection import Calibration, Selection, calibrate, select_honestly
 from .stress import ReplicatePricer, StressResult, run_stress
 from .tables import cutoff_table, forecast_quality, forecast_scores, history_table, with_replicates
@@ -221,6 +224,8 @@ def run(scenario: Scenario | str | Path, history_path: str | Path | None = None,
     """
     if not isinstance(scenario, Scenario):
         scenario = read_scenario(scenario)
+    if replicates is not None:
+        check_workload(int(replicates), len(scenario.cutoffs), "--replicates")
     prepare(workers, cluster)  # worker processes get ready while the history is read
     history = read_history(scenario, history_path)
     return run_history(scenario, history, replicates=replicates, seed=seed, progress=progress,
@@ -273,7 +278,7 @@ def run_history(scenario: Scenario, history: History, *, replicates: int | None 
                       block_rng(seed, 0, _INTERVAL_STREAM), scenario.decision.objective)
     table = cutoff_table([(history, costs)], cutoffs, p_star, model_cost, baseline_cost[sim.reference])
     if operations is not None:
-        table = pd.concat([table, pd.DataFrame(operations.per_cutoff())], axis=1)
+        table = _priced_by_rules(pd.concat([table, pd.DataFrame(operations.per_cutoff())], axis=1), baseline_cost)
     quality, value_curve, reliability = forecast_quality(history, cutoffs)
     warnings = (tuple(history.warnings) + tuple(calendar_warnings(calendar, scenario.season, _label(scenario)))
                 + tuple(cost_warnings(costs, scenario.decision.action)))
@@ -300,6 +305,25 @@ def run_history(scenario: Scenario, history: History, *, replicates: int | None 
                      value_curve=value_curve, reliability=reliability, warnings=warnings,
                      operations=operations, stress=stress, calibration=calibration,
                      selection=selection)
+
+
+def _priced_by_rules(table: pd.DataFrame, baseline_cost: dict[str, np.ndarray]) -> pd.DataFrame:
+    """The cutoff table of a run under ``[operations]``: every money figure from the rules.
+
+    The rules replace the fixed cost per occasion, so the columns priced by the ``[costs]`` matrix
+    on the history (``*historical_cost``, ``net_benefit``) are left empty, and the relative value is
+    that of the rules' own mean season costs: V = (min(E_never, E_always) - E_model) /
+    (min(E_never, E_always) - E_perfect) (Richardson 2000, "Skill and relative economic value of the
+    ECMWF ensemble prediction system", QJRMS 126, 649-667), on the simulated seasons.
+    """
+    table = table.copy()
+    for column in table.columns:
+        if column.endswith("historical_cost") or column == "net_benefit":
+            table[column] = np.nan
+    means = {name: float(cost.mean()) for name, cost in baseline_cost.items()}
+    table["relative_value"] = relative_value_from_costs(table["mean_cost"].to_numpy(), means["never_act"],
+                                                        means["always_act"], means["perfect"])
+    return table
 
 
 # ------------------------------------------------------------------------------------------------
@@ -715,9 +739,16 @@ def _alongside(executor: Executor, fn: Callable, *args) -> Callable[[], Any]:
     the function that gives the result."""
     if isinstance(executor, InlineExecutor):
         return lambda: fn(*args)
-    thread = ThreadPoolExecutor(max_workers=1)
-    future = thread.submit(fn, *args)
-    thread.shutdown(wait=False)  # the thread ends once its one task is done
+    future: Future = Future()
+
+    def make() -> None:
+        try:
+            future.set_result(fn(*args))
+        except BaseException as exc:  # noqa: BLE001 - handed to whoever asks for the result
+            future.set_exception(exc)
+
+    # a daemon thread: a run stopped meanwhile (Ctrl-C) ends at once rather than after the tables
+    threading.Thread(target=make, name="gonogo-tables", daemon=True).start()
     return future.result
 
 

@@ -3,12 +3,20 @@
 One schema, :class:`Scenario`, is the single source of truth for every key a user can write. Unknown
 keys are errors that name the key and the closest valid one; a cost matrix under which one action is
 always best produces a warning (returned, never printed: ``cli.py`` prints).
+
+Every number key has a range and every string a length limit in the schema, and NaN and infinity are
+refused everywhere, so that nonsense is refused in one line before any work starts. A message says
+what values are allowed; it is made from the schema itself (:func:`_allowed`), so the schema stays the
+one place that says it. The limits are the project's own choice (no published source): wide enough
+that a practitioner never meets them in earnest (money within 1e12 per occasion, factors up to 1000,
+years 1900 to 2200), and listed in the README's key table.
 """
 
 from __future__ import annotations
 
 import hashlib
 import tomllib
+import types
 import typing
 from datetime import date, datetime, time
 from pathlib import Path
@@ -19,29 +27,70 @@ from pydantic import (BaseModel, ConfigDict, Field, ValidationError, create_mode
                       model_validator)
 
 from . import decimals
-from .errors import InputError, did_you_mean, read_input_file
+from .errors import InputError, did_you_mean, excerpt, printable, quoted, read_input_file
 
 __all__ = ["Scenario", "Costs", "read_scenario", "scenario_from_text", "cutoff_grid",
            "break_even_probability", "cost_warnings", "WEEKDAYS", "BASELINES",
            "OperationsSection", "StressCase", "CostChanges", "OperationsChanges", "STRESS_CHANGES",
-           "SiteSection", "SiteOperations"]
+           "SiteSection", "SiteOperations", "CostFactors", "OperationsFactors", "MAX_MONEY",
+           "MAX_FACTOR", "MAX_TEXT", "MAX_SCENARIO_BYTES", "YEARS", "MAX_SEASON_COSTS", "check_workload"]
 
 WEEKDAYS = ("mon", "tue", "wed", "thu", "fri", "sat", "sun")
+_WEEKDAY_NAMES = ("monday", "tuesday", "wednesday", "thursday", "friday", "saturday", "sunday")
 BASELINES = ("never_act", "always_act", "persistence", "seasonal_rate", "perfect")
+
+# limits of the schema (see the module's docstring and the README's key table)
+MAX_MONEY = 1e12  # any amount of money, in the scenario's currency
+MAX_FACTOR = 1000.0  # a multiplier of a cost, an operating-rule price or the event rate
+MAX_TEXT = 200  # characters of a name, a label or a column's name
+MAX_PATH = 4096  # characters of a file's path (Linux's PATH_MAX)
+MAX_CURRENCY = 40  # characters of the currency's name
+MAX_SCENARIO_BYTES = 1_000_000  # bytes of a scenario file
+MAX_WORK = 1e7  # crew-days of work in a season (counted in thousandths, well inside int64)
+MAX_SEASON_DAYS = 366  # a run length, a streak: at most a year of days
+MAX_SEASON_COSTS = 100_000_000  # replicates x cutoffs: the season costs held at once (800 MB as float64)
+YEARS = (1900, 2200)  # seasons a calendar may price
+MAX_HOLIDAYS = 10_000  # dates in a list of holidays
+
+Money = Annotated[float, Field(ge=-MAX_MONEY, le=MAX_MONEY)]  # negative = income
+Price = Annotated[float, Field(ge=0, le=MAX_MONEY)]
+Factor = Annotated[float, Field(ge=0, le=MAX_FACTOR)]
+Name = Annotated[str, Field(max_length=MAX_TEXT)]
+Days = Annotated[float, Field(ge=1, le=MAX_SEASON_DAYS)]
+Work = Annotated[float, Field(gt=0, le=MAX_WORK)]
+Holidays = Annotated[tuple[date, ...], Field(max_length=MAX_HOLIDAYS)]
+WeekdayList = Annotated[tuple[str, ...], Field(max_length=7, description='a list of weekdays written '
+                                              '"mon" to "sun" or in full ("monday")')]
 
 
 class _Section(BaseModel):
-    model_config = ConfigDict(extra="forbid", frozen=True)
+    model_config = ConfigDict(extra="forbid", frozen=True, allow_inf_nan=False)
+
+
+def _weekdays(value: tuple[str, ...]) -> tuple[str, ...]:
+    """Weekday names as the three-letter keys of :data:`WEEKDAYS`: "mon", "Monday" and "tues" are
+    read; "monkey" is not (a name must be the start, three letters at least, of a weekday's)."""
+    out = []
+    for v in value:
+        word = str(v).strip().lower()
+        day = next((d for d, full in zip(WEEKDAYS, _WEEKDAY_NAMES) if len(word) >= 3 and full.startswith(word)),
+                   None)
+        if day is None:
+            raise ValueError(f"{quoted(str(v))} is not a weekday{did_you_mean(word[:20], WEEKDAYS)}")
+        out.append(day)
+    if len(set(out)) != len(out):
+        raise ValueError("a weekday is listed twice")
+    return tuple(out)
 
 
 class HistorySection(_Section):
-    path: str | None = None
-    date_column: str = "date"
-    site_column: str | None = None  # a column naming each row's site; None: one site
-    probability_column: str = "probability"
-    outcome_column: str | None = None
-    value_column: str | None = None
-    threshold: float | None = None
+    path: Annotated[str, Field(max_length=MAX_PATH)] | None = None
+    date_column: Name = "date"
+    site_column: Name | None = None  # a column naming each row's site; None: one site
+    probability_column: Name = "probability"
+    outcome_column: Name | None = None
+    value_column: Name | None = None
+    threshold: Money | None = None
     side: Literal["above", "below"] | None = None
     direction: Literal["up", "down"] | None = None
     validation_from: date | None = None
@@ -70,14 +119,16 @@ class HistorySection(_Section):
 
 
 class EventSection(_Section):
-    name: str = "event"
+    name: Name = "event"
     flip: bool = False
     hazard: bool = False
 
 
 class DecisionSection(_Section):
-    action: str = "act"
-    cutoffs: tuple[float, float, float] = (0.0, 1.0, 0.01)
+    action: Name = "act"
+    cutoffs: Annotated[tuple[float, float, float], Field(
+        description="three numbers [from, to, step]: 0 <= from < to <= 1 and a step that divides the "
+                    "range into whole steps, e.g. [0.0, 1.0, 0.01]")] = (0.0, 1.0, 0.01)
     # what the cutoff is chosen by: the lowest mean season cost, the lowest 95th percentile, or the
     # lowest mean of the worst 10% of seasons (decision.OBJECTIVES, decision.decide)
     objective: Literal["mean", "p95", "shortfall10"] = "mean"
@@ -90,6 +141,9 @@ class DecisionSection(_Section):
             raise ValueError(f"from and to must satisfy 0 <= from < to <= 1, got {lo} and {hi}")
         if step <= 0:
             raise ValueError(f"the step must be positive, got {step}")
+        if step > hi - lo:
+            raise ValueError(f"the step {step} is wider than the range {lo} to {hi}; use a step of at most "
+                             f"{hi - lo:g}, e.g. 0.01")
         n = decimals.whole_steps(lo, hi, step)
         if n is None:
             raise ValueError(f"the step {step} does not divide {lo} to {hi} into whole steps")
@@ -101,10 +155,10 @@ class DecisionSection(_Section):
 class Costs(_Section):
     """Per-occasion cost of each cell of the classification matrix, in the scenario's currency."""
 
-    hit: float
-    false_alarm: float
-    miss: float
-    correct_negative: float = 0.0
+    hit: Money
+    false_alarm: Money
+    miss: Money
+    correct_negative: Money = 0.0
 
     def as_array(self) -> np.ndarray:
         """(hit, false_alarm, miss, correct_negative) as float64."""
@@ -128,7 +182,7 @@ def _date_list(value: Any) -> Any:
             except ValueError:
                 pass
         if type(item) is not date:
-            raise ValueError(f"item {i}, {item!r}, is not a date; write dates as YYYY-MM-DD, "
+            raise ValueError(f"item {i}, {excerpt(item)}, is not a date; write dates as YYYY-MM-DD, "
                              "e.g. holidays = [2027-05-03, 2027-08-30]")
         out.append(item)
     return tuple(out)
@@ -139,10 +193,11 @@ class SeasonSection(_Section):
     ``weekdays`` (daily data only) and not among ``holidays`` (dates that are not occasions, such
     as market holidays or closed days; the operating rules then have no working day on them)."""
 
-    months: tuple[Annotated[int, Field(ge=1, le=12)], ...] = tuple(range(1, 13))
-    weekdays: tuple[str, ...] = WEEKDAYS
-    holidays: tuple[date, ...] = ()
-    year: int | None = None
+    months: Annotated[tuple[Annotated[int, Field(ge=1, le=12)], ...], Field(
+        max_length=12, description="a list of months, each a whole number from 1 to 12")] = tuple(range(1, 13))
+    weekdays: WeekdayList = WEEKDAYS
+    holidays: Holidays = ()
+    year: Annotated[int, Field(ge=YEARS[0], le=YEARS[1])] | None = None
 
     @field_validator("months")
     @classmethod
@@ -158,13 +213,9 @@ class SeasonSection(_Section):
     @field_validator("weekdays")
     @classmethod
     def _weekdays(cls, value):
-        value = tuple(str(v).lower()[:3] for v in value)
-        for v in value:
-            if v not in WEEKDAYS:
-                raise ValueError(f'"{v}" is not a weekday{did_you_mean(v, WEEKDAYS)}')
         if not value:
             raise ValueError("list at least one weekday")
-        return value
+        return _weekdays(value)
 
     @property
     def weekday_numbers(self) -> tuple[int, ...]:
@@ -173,8 +224,8 @@ class SeasonSection(_Section):
 
 class SimulationSection(_Section):
     replicates: Annotated[int, Field(ge=20, le=10_000_000)] = 5000
-    seed: Annotated[int, Field(ge=0)] = 2027
-    block_days: Literal["auto"] | Annotated[float, Field(ge=1)] = "auto"
+    seed: Annotated[int, Field(ge=0, le=2**63 - 1)] = 2027
+    block_days: Literal["auto"] | Days = "auto"
     reference: Literal["never_act", "always_act", "persistence", "seasonal_rate"] = "never_act"
     window_days: Annotated[int, Field(ge=0, le=60)] = 10
     mode: Literal["replay", "calibrated"] = "replay"
@@ -192,20 +243,20 @@ class OperationsSection(_Section):
     crews: Annotated[int, Field(ge=1, le=1000)] = 1
     crews_out_on: Literal["acting", "not_acting"]
     spoiled_on: Literal["event", "no_event"]
-    day_rate: Annotated[float, Field(ge=0)]
-    standby_rate: Annotated[float, Field(ge=0)] | None = None
-    spoilage_cost: Annotated[float, Field(ge=0)] = 0.0
+    day_rate: Price
+    standby_rate: Price | None = None
+    spoilage_cost: Price = 0.0
     work_lost_when_spoiled: Annotated[float, Field(ge=0, le=1)] = 1.0
-    work: Annotated[float, Field(gt=0)] | None = None
+    work: Work | None = None
     deadline: date | None = None
-    damages_per_day_late: Annotated[float, Field(ge=0)] = 0.0
-    unfinished_cost: Annotated[float, Field(ge=0)] = 0.0
-    workdays: tuple[str, ...] | None = None
-    holidays: tuple[date, ...] = ()
-    overtime_weekdays: tuple[str, ...] = ()
-    overtime_multiple: Annotated[float, Field(ge=1)] = 1.5
+    damages_per_day_late: Price = 0.0
+    unfinished_cost: Price = 0.0
+    workdays: WeekdayList | None = None
+    holidays: Holidays = ()
+    overtime_weekdays: WeekdayList = ()
+    overtime_multiple: Annotated[float, Field(ge=1, le=100)] = 1.5
     max_overtime_days_per_week: Annotated[int, Field(ge=1, le=7)] = 1
-    max_standby_days: Annotated[int, Field(ge=1)] | None = None
+    max_standby_days: Annotated[int, Field(ge=1, le=MAX_SEASON_DAYS)] | None = None
     safety_stop_at: Annotated[float, Field(gt=0, le=1)] | None = None
     safety_probability: Literal["as_in_file", "of_event"] = "as_in_file"
 
@@ -214,15 +265,7 @@ class OperationsSection(_Section):
     @field_validator("workdays", "overtime_weekdays")
     @classmethod
     def _weekday_names(cls, value):
-        if value is None:
-            return value
-        value = tuple(str(v).lower()[:3] for v in value)
-        for v in value:
-            if v not in WEEKDAYS:
-                raise ValueError(f'"{v}" is not a weekday{did_you_mean(v, WEEKDAYS)}')
-        if len(set(value)) != len(value):
-            raise ValueError("a weekday is listed twice")
-        return value
+        return value if value is None else _weekdays(value)
 
     @model_validator(mode="after")
     def _rules_fit_together(self):
@@ -247,31 +290,42 @@ class OperationsSection(_Section):
         return self.day_rate if self.standby_rate is None else self.standby_rate
 
 
-class CostChanges(_Section):
-    """Cost keys a stress case replaces or multiplies; unset keys stay as in [costs]."""
-
-    hit: float | None = None
-    false_alarm: float | None = None
-    miss: float | None = None
-    correct_negative: float | None = None
-
+class _Changes(_Section):
     def given(self) -> dict[str, float]:
+        """The keys given, with their values."""
         return {k: v for k, v in self.model_dump().items() if v is not None}
 
 
-class OperationsChanges(_Section):
-    """Operating-rule prices (and the amount of work) a stress case replaces or multiplies."""
+class CostChanges(_Changes):
+    """Cost keys a stress case replaces; unset keys stay as in [costs]."""
 
-    day_rate: Annotated[float, Field(ge=0)] | None = None
-    standby_rate: Annotated[float, Field(ge=0)] | None = None
-    spoilage_cost: Annotated[float, Field(ge=0)] | None = None
-    damages_per_day_late: Annotated[float, Field(ge=0)] | None = None
-    unfinished_cost: Annotated[float, Field(ge=0)] | None = None
-    overtime_multiple: Annotated[float, Field(ge=0)] | None = None
-    work: Annotated[float, Field(gt=0)] | None = None
+    hit: Money | None = None
+    false_alarm: Money | None = None
+    miss: Money | None = None
+    correct_negative: Money | None = None
 
-    def given(self) -> dict[str, float]:
-        return {k: v for k, v in self.model_dump().items() if v is not None}
+
+class OperationsChanges(_Changes):
+    """Operating-rule prices (and the amount of work) a stress case replaces."""
+
+    day_rate: Price | None = None
+    standby_rate: Price | None = None
+    spoilage_cost: Price | None = None
+    damages_per_day_late: Price | None = None
+    unfinished_cost: Price | None = None
+    overtime_multiple: Annotated[float, Field(ge=1, le=100)] | None = None
+    work: Work | None = None
+
+
+def _factors(changes: type[_Changes]) -> type[_Changes]:
+    """The multipliers of the keys of ``changes``: each a factor from 0 to :data:`MAX_FACTOR`."""
+    name = changes.__name__.replace("Changes", "Factors")
+    return create_model(name, __base__=_Changes, __doc__=f"Factors for the keys of {changes.__name__}.",
+                        **{key: (Factor | None, None) for key in changes.model_fields})
+
+
+CostFactors = _factors(CostChanges)
+OperationsFactors = _factors(OperationsChanges)
 
 
 STRESS_CHANGES = ("event_rate", "costs", "cost_multipliers", "operations", "operations_multipliers",
@@ -281,16 +335,16 @@ STRESS_CHANGES = ("event_rate", "costs", "cost_multipliers", "operations", "oper
 class StressCase(_Section):
     """One ``[[stress]]`` table: a named change to the world the season is priced in."""
 
-    name: str
-    event_rate: Annotated[float, Field(gt=0)] | None = None
+    name: Name
+    event_rate: Annotated[float, Field(gt=0, le=MAX_FACTOR)] | None = None
     costs: CostChanges | None = None
-    cost_multipliers: CostChanges | None = None
+    cost_multipliers: CostFactors | None = None  # type: ignore[valid-type]
     operations: OperationsChanges | None = None
-    operations_multipliers: OperationsChanges | None = None
+    operations_multipliers: OperationsFactors | None = None  # type: ignore[valid-type]
     skill: Annotated[float, Field(ge=0, le=1)] | None = None
-    noise: Annotated[float, Field(ge=0)] | None = None
-    block_days: Annotated[float, Field(ge=1)] | None = None
-    worst_seasons: Annotated[int, Field(ge=1)] | None = None
+    noise: Annotated[float, Field(ge=0, le=10)] | None = None  # sd on the log-odds scale
+    block_days: Days | None = None
+    worst_seasons: Annotated[int, Field(ge=1, le=1000)] | None = None
 
     @model_validator(mode="after")
     def _changes_something(self):
@@ -298,8 +352,6 @@ class StressCase(_Section):
             raise ValueError("a stress case needs at least one change: " + ", ".join(STRESS_CHANGES))
         new = self.costs.given() if self.costs else {}
         factors = self.cost_multipliers.given() if self.cost_multipliers else {}
-        if any(v < 0 for v in factors.values()):
-            raise ValueError("cost_multipliers must not be negative")
         both = sorted(set(new) & set(factors))
         if both:
             raise ValueError(f'"{both[0]}" has both a new value (costs) and a multiplier '
@@ -330,13 +382,14 @@ class StressCase(_Section):
         values.update(self.costs.given() if self.costs else {})
         for key, factor in (self.cost_multipliers.given() if self.cost_multipliers else {}).items():
             values[key] = values[key] * factor
-        return Costs(**values)
+        return Costs.model_construct(**values)  # a factor may take a cost past MAX_MONEY: still finite
 
 
 SiteOperations = create_model(
     "SiteOperations", __base__=_Section, __doc__="Keys of [operations] a site replaces; unset keys "
     "stay as in the scenario's [operations] (the merged rules are checked as a whole).",
-    **{key: (field.annotation | None, None) for key, field in OperationsSection.model_fields.items()})
+    **{key: (typing.Optional[field.rebuild_annotation()], None)
+       for key, field in OperationsSection.model_fields.items()})
 
 
 class SiteSection(_Section):
@@ -349,18 +402,18 @@ class SiteSection(_Section):
 
 
 class Scenario(_Section):
-    name: str
-    currency: str = "EUR"
+    name: Name
+    currency: Annotated[str, Field(max_length=MAX_CURRENCY)] = "EUR"
     history: HistorySection = HistorySection()
     event: EventSection = EventSection()
     decision: DecisionSection = DecisionSection()
     costs: Costs
     season: SeasonSection = SeasonSection()
     simulation: SimulationSection = SimulationSection()
-    stress: list[StressCase] = []
+    stress: Annotated[list[StressCase], Field(max_length=100, description="at most 100 [[stress]] tables")] = []
     operations: OperationsSection | None = None
     # per-site overrides, keyed by the site's name as the history's site column writes it
-    sites: dict[str, SiteSection] = {}
+    sites: dict[Name, SiteSection] = {}
     # where the file was read from (not a user key): history paths are relative to it
     source: Path | None = Field(default=None, exclude=True)
     sha256: str = Field(default="", exclude=True)
@@ -416,6 +469,16 @@ def cutoff_grid(lo: float, hi: float, step: float) -> np.ndarray:
     return decimals.grid(lo, hi, step)
 
 
+def check_workload(replicates: int, n_cutoffs: int, where: str) -> None:
+    """Refuse, before any work, a run whose table of season costs (replicates x cutoffs) would pass
+    :data:`MAX_SEASON_COSTS`; ``where`` names the key or option that set the replicates."""
+    if replicates * n_cutoffs > MAX_SEASON_COSTS:
+        raise InputError(f"{where}: {replicates:,} replicate seasons x {n_cutoffs:,} cutoffs is "
+                         f"{replicates * n_cutoffs:,} season costs, more than the {MAX_SEASON_COSTS:,} a run "
+                         f"may hold; use at most {MAX_SEASON_COSTS // n_cutoffs:,} replicates, or a coarser "
+                         "cutoff step")
+
+
 def break_even_probability(costs: Costs) -> float:
     """Probability at which acting and not acting have the same expected cost.
 
@@ -450,8 +513,15 @@ def cost_warnings(costs: Costs, action: str) -> list[str]:
 # reading
 
 def read_scenario(path: str | Path) -> Scenario:
-    """Read and validate a scenario file; every problem becomes a one-line :class:`InputError`."""
+    """Read and validate a scenario file; every problem becomes a one-line :class:`InputError`.
+
+    A file larger than :data:`MAX_SCENARIO_BYTES` is refused before it is read.
+    """
     path = Path(path)
+    if path.is_file() and path.stat().st_size > MAX_SCENARIO_BYTES:
+        raise InputError(f"{path}: the file is {path.stat().st_size:,} bytes, more than the "
+                         f"{MAX_SCENARIO_BYTES:,} bytes a scenario file may have; give the scenario's "
+                         ".toml file (the history goes in its own file, named by [history] path)")
     raw = read_input_file(path, "scenario", "the scenario's .toml file")
     try:
         text = raw.decode("utf-8")
@@ -467,12 +537,16 @@ def scenario_from_text(text: str, label: str = "scenario") -> Scenario:
     try:
         data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
-        raise InputError(f"{label}: not valid TOML ({exc}); check the syntax near that line") from None
+        raise InputError(f"{label}: not valid TOML ({printable(str(exc))[:120]}); check the syntax "
+                         "near that line") from None
+    except RecursionError:
+        raise InputError(f"{label}: not valid TOML (nested too deeply); check the file") from None
     try:
         scenario = Scenario.model_validate(data)
     except ValidationError as exc:
         raise InputError(_first_problem(exc, label)) from None
     _check_sites(scenario, label)
+    check_workload(scenario.simulation.replicates, len(scenario.cutoffs), f"{label} [simulation] replicates")
     return scenario
 
 
@@ -480,23 +554,21 @@ def _check_sites(scenario: Scenario, label: str) -> None:
     """Every ``[sites."<name>"]`` table merged over the scenario must make a valid section."""
     if scenario.sites and scenario.history.site_column is None:
         first = next(iter(scenario.sites))
-        raise InputError(f'{label} [sites."{first}"]: per-site tables need a site column; add '
+        raise InputError(f"{label} [sites.{quoted(first)}]: per-site tables need a site column; add "
                          'site_column = "<column naming each row\'s site>" to [history]')
     for name in scenario.sites:
         try:
             scenario.for_site(name)
         except ValidationError as exc:
             err = exc.errors(include_url=False)[0]
-            section = "costs" if exc.title == "Costs" else "operations"
-            key = ".".join(str(p) for p in err["loc"])
-            where = f'{label} [sites."{name}".{section}]'
-            if err["type"] == "missing":
+            section, model = ("costs", Costs) if exc.title == "Costs" else ("operations", OperationsSection)
+            field, depth = _field_at(model, [str(p) for p in err["loc"]])
+            key = ".".join(str(p) for p in err["loc"][:depth])
+            where = f"{label} [sites.{quoted(name)}.{section}]"
+            if err["type"] == "missing" and len(err["loc"]) == depth:
                 raise InputError(f"{where}: {key} is required and [{section}] does not give it; add it "
                                  f"here or to [{section}]") from None
-            value = err.get("input")
-            shown = f" (got {value!r})" if key and not isinstance(value, dict | list) else ""
-            message = err["msg"].removeprefix("Value error, ")
-            raise InputError(f"{where}{' ' + key if key else ''}: {message}{shown}") from None
+            raise InputError(f"{where}{' ' + key if key else ''}: {_what_is_wrong(err, field)}") from None
 
 
 def _first_problem(exc: ValidationError, label: str) -> str:
@@ -512,11 +584,14 @@ def _first_problem(exc: ValidationError, label: str) -> str:
         if loc[0] == "stress" and len(loc) > 2:
             where = f"[[stress]] table {int(loc[1]) + 1}" + (f" {'.'.join(loc[2:-1])}" if len(loc) > 3 else "")
         valid = [k for k in model.model_fields if k not in ("source", "sha256")]
-        return f'{label} {where}: unknown key "{key}"{did_you_mean(key, valid)}'
+        return f"{label} {where}: unknown key {quoted(key)}{did_you_mean(key, valid)}"
+    field, depth = _field_at(Scenario, loc)
+    inside = len(loc) > depth  # the problem is inside the key's value (a list entry, a dict's key)
+    loc = loc[:depth]
     section = [p for p in loc if not p.isdigit()]
     if section and section[0] == "stress" and len(loc) > 1 and loc[1].isdigit():
         where = f"[[stress]] table {int(loc[1]) + 1}" + (f" {'.'.join(loc[2:])}" if len(loc) > 2 else "")
-    elif loc and loc[0] == "sites" and len(loc) > 2:
+    elif loc and loc[0] == "sites" and len(loc) > 1:
         where = f"[{_table(loc[:3])}]" + (f" {'.'.join(loc[3:])}" if len(loc) > 3 else "")
     elif not section:
         where = "top level"
@@ -524,12 +599,26 @@ def _first_problem(exc: ValidationError, label: str) -> str:
         where = f"[{section[0]}]" + (f" {'.'.join(section[1:])}" if len(section) > 1 else "")
     else:
         where = f'"{section[0]}"'  # a top-level key such as name
-    if kind == "missing":
+    if kind == "missing" and not inside:
         return f"{label} {where}: this key is required; add it"
-    message = err["msg"].removeprefix("Value error, ")
+    if loc[:1] == ["sites"] and len(loc) == 2 and inside:  # a site's name: a [sites."<name>"] key
+        return f"{label} [sites]: a site's name must be text of at most {MAX_TEXT} characters"
+    return f"{label} {where}: {_what_is_wrong(err, field)}"
+
+
+def _what_is_wrong(err: dict, field: Any) -> str:
+    """The message for one pydantic error at ``field``: our own validators' words as they are; for
+    a value of the wrong type or out of range, what values the schema allows, then what was given."""
+    kind = err["type"]
+    if kind == "value_error" or field is None:
+        message = err["msg"].removeprefix("Value error, ")
+    else:
+        allowed = _allowed(field)
+        message = f"must be {allowed}" if allowed else err["msg"]
     value = err.get("input")
-    shown = f" (got {value!r})" if not isinstance(value, dict | list) and value is not None else ""
-    return f"{label} {where}: {message}{shown}"
+    if kind != "missing" and value is not None and not isinstance(value, dict | list | tuple):
+        message += f" (got {excerpt(value)})"
+    return message
 
 
 _SECTIONS = ("history", "event", "decision", "costs", "season", "simulation", "operations", "stress",
@@ -538,7 +627,15 @@ _SECTIONS = ("history", "event", "decision", "costs", "season", "simulation", "o
 
 def _table(loc: list[str]) -> str:
     """A table's name as TOML writes it: ``sites."North depot".costs``."""
-    return ".".join(f'"{part}"' if i == 1 and loc[0] == "sites" else part for i, part in enumerate(loc))
+    return ".".join(quoted(part) if i == 1 and loc[0] == "sites" else part for i, part in enumerate(loc))
+
+
+def _submodel(annotation: Any) -> type[BaseModel] | None:
+    """The model an annotation holds: the model itself, X | None, list[X] or dict[str, X]."""
+    for member in (annotation, *typing.get_args(annotation)):
+        if isinstance(member, type) and issubclass(member, BaseModel):
+            return member
+    return None
 
 
 def _model_at(loc: list[str]) -> type[BaseModel]:
@@ -549,10 +646,83 @@ def _model_at(loc: list[str]) -> type[BaseModel]:
         field = model.model_fields.get(part)
         if field is None:
             break
-        annotation = field.annotation
-        # an optional section (X | None) names its model among the union's members
-        for member in (annotation, *typing.get_args(annotation)):  # also list[Model]
-            if isinstance(member, type) and issubclass(member, BaseModel):
-                model = member
-                break
+        model = _submodel(field.annotation) or model
     return model
+
+
+def _field_at(root: type[BaseModel], loc: list[str]) -> tuple[Any, int]:
+    """The deepest schema field that ``loc`` (a pydantic error's location) names, and how many of
+    ``loc``'s parts lead to it (what follows is inside the field's value: a list entry, a union's
+    member). ``(None, 0)`` when ``loc`` names no field."""
+    model: Any = root
+    found, depth = None, 0
+    for i, part in enumerate(loc):
+        if model is None:
+            break
+        if part.isdigit() or (i == 1 and loc[0] == "sites" and root is Scenario):
+            depth = i + 1  # a [[stress]] table, or a site's table: part of the place
+            continue
+        field = model.model_fields.get(part)
+        if field is None:
+            break
+        found, depth = field, i + 1
+        model = _submodel(field.annotation)
+    return found, depth
+
+
+def _allowed(field: Any) -> str | None:
+    """What values a schema field allows, in words, from its type and constraints (or its
+    ``description``, for fields whose rule is more than a type and a range)."""
+    if field.description:
+        return field.description
+    return _describe(field.annotation, field.metadata)
+
+
+def _describe(annotation: Any, metadata: list) -> str | None:
+    origin = typing.get_origin(annotation)
+    if origin is Annotated:
+        base, *extras = typing.get_args(annotation)
+        said = next((extra.description for extra in extras if getattr(extra, "description", None)), None)
+        if said:
+            return said
+        inner = [m for extra in extras for m in getattr(extra, "metadata", [extra])]
+        return _describe(base, [*metadata, *inner])
+    if origin in (typing.Union, types.UnionType):
+        parts = [_describe(member, metadata) for member in typing.get_args(annotation) if member is not type(None)]
+        return " or ".join(p for p in parts if p) or None
+    if origin is Literal:
+        values = [f'"{v}"' for v in typing.get_args(annotation)]
+        return values[0] if len(values) == 1 else "one of " + ", ".join(values)
+    if annotation is bool:
+        return "true or false"
+    if annotation is date:
+        return "a date written YYYY-MM-DD"
+    if annotation is str:
+        longest = next((m.max_length for m in metadata if getattr(m, "max_length", None)), None)
+        return "text" + (f" of at most {longest:,} characters" if longest else "")
+    if annotation in (int, float):
+        what = "a whole number" if annotation is int else "a number"
+        bound = {k: getattr(m, k) for m in metadata for k in ("ge", "gt", "le", "lt") if getattr(m, k, None) is not None}
+        low = (f"from {_number(bound['ge'])}" if "ge" in bound else
+               f"above {_number(bound['gt'])}" if "gt" in bound else "")
+        high = (f"to {_number(bound['le'])}" if "le" in bound else
+                f"below {_number(bound['lt'])}" if "lt" in bound else "")
+        if low and high:
+            return f"{what} {low} {high}" if low.startswith("from") else f"{what} {low}, at most {high[3:]}"
+        return " ".join(part for part in (what, low or ("up " + high if high else "")) if part)
+    if origin in (tuple, list):
+        item = _describe(typing.get_args(annotation)[0], [])
+        longest = next((m.max_length for m in metadata if getattr(m, "max_length", None)), None)
+        return ("a list" + (f" of at most {longest:,} entries" if longest else "")
+                + (f", each {item}" if item else ""))
+    return None
+
+
+def _number(value: float) -> str:
+    """A limit as a person writes it: 366, 0.5, -1e12."""
+    if value == int(value) and abs(value) < 1e10:
+        return f"{int(value):,}"
+    if abs(value) >= 1e6:
+        mantissa, exponent = f"{value:.3g}".split("e")
+        return f"{mantissa}e{int(exponent)}"
+    return f"{value:g}"

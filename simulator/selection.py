@@ -150,7 +150,11 @@ class PeriodRecord:
     """A period's classification matrix and cost at one cutoff.
 
     ``miss_rate`` and ``false_alarm_rate`` are the error rates of each class (events not acted on,
-    non-events acted on); ``cost`` is the period's total, in the scenario's currency.
+    non-events acted on); ``cost`` is the period's total, in the scenario's currency, over
+    ``n_priced`` occasions: the period's own ``n_occasions`` when priced by the ``[costs]`` matrix;
+    with ``[operations]``, the days played (each season of the period laid on the calendar of the
+    season priced, so each season counts that calendar's days). ``cost_per_occasion`` is
+    ``cost / n_priced``.
     """
 
     period: str
@@ -168,6 +172,7 @@ class PeriodRecord:
     false_alarm_rate: float
     cost: float
     cost_per_occasion: float
+    n_priced: int
 
 
 @dataclass(frozen=True)
@@ -409,4 +414,4 @@ def _record(c: _Context, period: str, mask: np.ndarray, known: np.ndarray, index
                         misses=int(counts.misses), correct_negatives=int(counts.correct_negatives),
                         hit_rate=float(r.hit_rate), specificity=float(r.specificity),
                         miss_rate=float(r.miss_rate), false_alarm_rate=float(r.false_alarm_rate),
-                        cost=cost, cost_per_occasion=cost / n_priced)
+                        cost=cost, cost_per_occasion=cost / n_priced, n_priced=n_priced)

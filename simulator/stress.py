@@ -38,6 +38,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from . import decimals
+from .account import money
 from .costs import PricedBlock, SeasonPricer, baseline_actions, occasion_costs, price
 from .decision import OBJECTIVE_NAMES, Decision, Distribution, cheaper, decide, distribution, objective_cost
 from .errors import InputError
@@ -560,10 +561,6 @@ def _view(name: str, case: StressCase, base: _Base, model: np.ndarray, baseline_
                       model_cost_at_best=at_best, baseline_cost=baseline_cost)
 
 
-def _money(value: float, currency: str) -> str:
-    return f"{value:,.0f} {currency}"
-
-
 def _headline(case: str, view: str, base: float, best: float, extra: float, saved: float,
               moving: float, band: tuple[float, float], currency: str, objective: str = "mean",
               lowered: float = 0.0) -> str:
@@ -572,25 +569,25 @@ def _headline(case: str, view: str, base: float, best: float, extra: float, save
     there lowers that value."""
     what = f'"{case}"' + (" (forecast adapted to the new event rate)" if view == "adapted" else "")
     direction = "more" if extra >= 0 else "less"
-    text = (f"Keep the cutoff at {base:.2f} and {what} costs {_money(abs(extra), currency)} {direction} "
+    text = (f"Keep the cutoff at {base:.2f} and {what} costs {money(abs(extra), currency)} {direction} "
             f"a season on average")
     if objective != "mean":
         measure = OBJECTIVE_NAMES[objective]
         if best == base:
             return text + f"; {base:.2f} keeps the lowest {measure}."
-        change = f"{_money(abs(saved), currency)} {'less' if saved >= 0 else 'more'} on average"
+        change = f"{money(abs(saved), currency)} {'less' if saved >= 0 else 'more'} on average"
         if band[0] <= base <= band[1]:
             return text + (f"; {base:.2f} stays within 1% of the lowest {measure} (moving to {best:.2f} "
-                           f"would lower it by only {_money(lowered, currency)}, at {change}).")
-        return text + (f"; moving to {best:.2f} would lower the {measure} by {_money(lowered, currency)} "
+                           f"would lower it by only {money(lowered, currency)}, at {change}).")
+        return text + (f"; moving to {best:.2f} would lower the {measure} by {money(lowered, currency)} "
                        f"a season, at {change}.")
     if best == base:
         return text + f"; {base:.2f} stays the cheapest cutoff."
     if band[0] <= base <= band[1]:
         return text + (f"; {base:.2f} stays within 1% of the lowest cost (moving to {best:.2f} would "
-                       f"save only {_money(saved, currency)}).")
+                       f"save only {money(saved, currency)}).")
     share = "of that" if 0 < saved <= extra else "a season"
-    return text + (f"; moving to {best:.2f} would save {_money(saved, currency)} {share} "
+    return text + (f"; moving to {best:.2f} would save {money(saved, currency)} {share} "
                    f"(cheaper in {moving:.0%} of seasons).")
 
 

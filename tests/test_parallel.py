@@ -12,7 +12,9 @@ import importlib
 import json
 import pickle
 import socket
+import threading
 import time
+from contextlib import contextmanager
 from multiprocessing.shared_memory import SharedMemory
 
 import numpy as np
@@ -117,6 +119,57 @@ def test_a_cluster_that_does_not_answer_is_refused_quickly_and_nothing_is_writte
     assert len(message.splitlines()) == 1 and "Traceback" not in result.output
     assert message.startswith("error: cluster tcp://127.0.0.1:")
     assert "check the address" in message and "GONOGO_CLUSTER" in message
+    assert not out.exists()
+
+
+@contextmanager
+def _stranger(reply: bytes | None):
+    """A plain TCP server on this machine that is not Dask: it accepts, sends ``reply`` (or closes at
+    once when None), and keeps serving in a thread until the test ends."""
+    server = socket.socket()
+    server.bind(("127.0.0.1", 0))
+    server.listen(8)
+    server.settimeout(0.2)
+    stop = threading.Event()
+
+    def serve() -> None:
+        while not stop.is_set():
+            try:
+                connection, _ = server.accept()
+            except OSError:
+                continue
+            with connection:
+                if reply is not None:
+                    connection.sendall(reply)
+                    stop.wait(0.5)
+
+    thread = threading.Thread(target=serve, daemon=True)
+    thread.start()
+    try:
+        yield server.getsockname()[1]
+    finally:
+        stop.set()
+        thread.join(timeout=5)
+        server.close()
+
+
+@pytest.mark.parametrize("reply", [b"HTTP/1.1 200 OK\r\nContent-Length: 5\r\n\r\nhello", b"\x00" * 16, None],
+                         ids=["web server", "zeros", "closes at once"])
+def test_a_server_that_is_not_dask_is_refused_in_one_line_without_waiting(scenario_path, tmp_path, reply):
+    # issue 16 item 6: before, Dask read the first 8 bytes of a web server's answer as a message
+    # length (3 EiB), and a traceback and a 10 s wait followed the error line
+    out = tmp_path / "out"
+    with _stranger(reply) as port:
+        start = time.monotonic()
+        result = CliRunner().invoke(app, ["run", str(scenario_path), "--out", str(out),
+                                          "--cluster", f"tcp://127.0.0.1:{port}"])
+        elapsed = time.monotonic() - start
+    assert result.exit_code == 2, result.output
+    message = result.stderr.strip()
+    assert len(message.splitlines()) == 1 and "Traceback" not in result.output, result.output
+    assert message.startswith(f"error: cluster tcp://127.0.0.1:{port}: the server there ")
+    assert "GONOGO_CLUSTER" in message
+    assert elapsed < 4, elapsed
     assert not out.exists()
 
 

@@ -65,11 +65,12 @@ def test_readme_quotes_the_stress_headline_as_the_run_says_it(stress_run):
 
 
 def test_readme_quotes_the_bad_season_choice_as_the_run_makes_it(stress_run):
+    from simulator.account import money
     from simulator.outputs import summary
 
     objectives = summary(stress_run)["objectives"]
     mean, tail = objectives["mean"], objectives["shortfall10"]
     quoted = (f"the cutoff moves from **{mean['cutoff']:.2f}** to **{tail['cutoff']:.2f}**,\n"
-              f"a season costs {tail['mean_cost'] - mean['mean_cost']:,.0f} EUR more on average, and the worst "
-              f"10% of seasons cost {mean['shortfall10_cost'] - tail['shortfall10_cost']:,.0f} EUR less each.")
+              f"a season costs {money(tail['mean_cost'] - mean['mean_cost'], 'EUR')} more on average, and the worst "
+              f"10% of seasons cost {money(mean['shortfall10_cost'] - tail['shortfall10_cost'], 'EUR')} less each.")
     assert quoted in README

@@ -200,3 +200,65 @@ def test_read_scenario_keeps_the_file_hash_and_place(write_scenario):
 def test_slug_is_file_safe(make_scenario):
     assert make_scenario(name="Flood pumps at Pellisford!").slug == "flood-pumps-at-pellisford"
     assert make_scenario(name="***").slug == "scenario"
+
+
+# ------------------------------------------------------------------------------------------------
+# ranges and limits (issue 16 items 3 and 5; the limits are the project's own, README key table)
+
+
+@pytest.mark.parametrize("value", [float("nan"), float("inf"), -float("inf"), 1e308])
+def test_a_cost_that_is_not_finite_or_absurd_is_refused_saying_what_is_allowed(value, toml_text):
+    text = toml_text().replace("miss = 2500", f"miss = {value!r}".replace("'", ""))
+    message = _error(text)
+    assert message.startswith("my.toml [costs] miss: must be a number from -1e12 to 1e12 (got ")
+
+
+def test_every_number_key_of_the_schema_has_a_range():
+    # a number key without bounds would let NaN's cousins (1e308) through: walk the whole schema
+    from simulator import scenario as schema
+
+    unbounded = []
+
+    def walk(model, prefix):
+        for key, info in model.model_fields.items():
+            if key in ("source", "sha256"):
+                continue
+            described = schema._allowed(info) or ""
+            sub = schema._submodel(info.annotation)
+            if sub is not None:
+                walk(sub, f"{prefix}{key}.")
+            elif ("number" in described and " to " not in described and "at most" not in described
+                  and "three numbers" not in described):
+                unbounded.append(f"{prefix}{key}: {described}")
+
+    walk(schema.Scenario, "")
+    assert unbounded == []
+
+
+@pytest.mark.parametrize("names, read", [
+    (["Monday", "TUESDAY", "wed"], ("mon", "tue", "wed")),
+    (["tues", "thurs", "sun"], ("tue", "thu", "sun")),
+])
+def test_weekdays_are_read_in_full_or_as_the_start_of_the_name(names, read, make_scenario):
+    assert make_scenario(season={"weekdays": names}).season.weekdays == read
+
+
+@pytest.mark.parametrize("word", ["monkey", "mo", "friends", "satellite"])
+def test_a_word_that_only_starts_like_a_weekday_is_not_one(word, toml_text):
+    # before, names were cut to three letters, so "monkey" was read as Monday
+    assert f'"{word}" is not a weekday' in _error(toml_text(season={"weekdays": [word]}))
+
+
+def test_a_scenario_file_over_the_size_limit_is_refused_before_it_is_read(tmp_path):
+    from simulator.scenario import MAX_SCENARIO_BYTES
+
+    path = tmp_path / "big.toml"
+    path.write_text('name = "x"\n' + "#" * MAX_SCENARIO_BYTES)
+    with pytest.raises(InputError, match="more than the 1,000,000 bytes a scenario file may have"):
+        read_scenario(path)
+
+
+def test_a_long_name_is_refused_naming_the_limit_and_quoting_only_its_start(toml_text):
+    message = _error(toml_text(name="x" * 500_000))
+    assert message.startswith('my.toml "name": must be text of at most 200 characters')
+    assert "(500,000 characters)" in message and len(message) < 200
