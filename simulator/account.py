@@ -347,17 +347,19 @@ def _objective(s: Mapping[str, Any], objective: str, cut) -> Finding:
     chosen, alternative = s["objectives"][objective], s["objectives"][other]
     here, there = cut(chosen["cutoff"]), cut(alternative["cutoff"])
     if here == there:
-        sentence = (f"The lowest expected season cost and the lowest {tail_what} come at the same cutoff, {here}: "
-                    "the average season and the bad season ask for the same choice.")
+        core = (f"the lowest expected season cost and the lowest {tail_what} come at the same cutoff, {here}: "
+                "the average season and the bad season ask for the same choice.")
     else:
         mean_gap = alternative["mean_cost"] - chosen["mean_cost"]
         tail_gap = alternative[column] - chosen[column]
-        sentence = (f"Choosing for the lowest {OBJECTIVE_NAMES[other]} instead would move the cutoff from {here} to "
-                    f"{there}: a season would cost {money(abs(mean_gap), cur)} {'more' if mean_gap > 0 else 'less'} "
-                    f"on average, and the {tail_what} would be {money(abs(tail_gap), cur)} "
-                    f"{'higher' if tail_gap > 0 else 'lower'}.")
+        core = (f"choosing for the lowest {OBJECTIVE_NAMES[other]} instead would move the cutoff from {here} to "
+                f"{there}: a season would cost {money(abs(mean_gap), cur)} {'more' if mean_gap > 0 else 'less'} "
+                f"on average, and the {tail_what} would be {money(abs(tail_gap), cur)} "
+                f"{'higher' if tail_gap > 0 else 'lower'}.")
+    what = OBJECTIVE_NAMES[objective]
+    sentence = _capital(core) if objective == "mean" else f"This cutoff has the lowest {what}; {core}"
     at = f"cutoff {here}" if here == there else f"cutoffs {here} and {there}"
-    return Finding("objective", "Chosen by", f"the lowest {OBJECTIVE_NAMES[objective]}. {sentence}", sentence,
+    return Finding("objective", "Chosen by", f"the lowest {what}. {_capital(core)}", sentence,
                    f"per season, over {s['replicates']:,} simulated seasons, at {at}",
                    first=objective != "mean")
 
