@@ -396,7 +396,7 @@ def risk_chart(cutoffs: np.ndarray, mean_cost: np.ndarray, tail_cost: np.ndarray
         for i in np.flatnonzero(shown):  # label round cutoffs, so the reader can find the way along
             if abs(cutoffs[i] / step - round(cutoffs[i] / step)) < 1e-9:
                 ax.annotate(f"{cutoffs[i]:.{words.decimals}f}", (mean_cost[i], tail_cost[i]), xytext=(5, 5),
-                            textcoords="offset points", fontsize=7, color="#444444", parse_math=False)
+                            textcoords="offset points", fontsize=7, color="#444444")
         for name, index in choices.items():
             style = dict(_OBJECTIVE_STYLE.get(name, {"color": _GREY, "marker": "o", "ms": 8}))
             colour = style.pop("color")
@@ -410,11 +410,10 @@ def risk_chart(cutoffs: np.ndarray, mean_cost: np.ndarray, tail_cost: np.ndarray
             lo, hi = float(values.min()), float(values.max())
             pad = 0.06 * (hi - lo) if hi > lo else max(1.0, 0.01 * abs(hi))
             axis_set(lo - pad, hi + pad)
-        ax.set_xlabel(f"Expected season cost ({words.currency}; lower is better)", parse_math=False)
-        ax.set_ylabel(_wrap(f"{tail_label} ({words.currency})", 40), parse_math=False)
+        ax.set_xlabel(f"Expected season cost ({words.currency}; lower is better)")
+        ax.set_ylabel(_wrap(f"{tail_label} ({words.currency})", 40))
         _money_axis(ax.xaxis)
         _money_axis(ax.yaxis)
-        ax.set_title(f"Average season against bad season, at each cutoff ({words.currency} per season)",
-                     parse_math=False)
+        ax.set_title(f"Average season against bad season, at each cutoff ({words.currency} per season)")
         fig.legend(loc="outside lower center", ncol=2)
         return Chart(_png(fig))
