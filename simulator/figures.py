@@ -118,8 +118,11 @@ def _title(ax, text: str, narrow: bool, **kw) -> None:
         ax.set_title(" ", **kw)  # keeps room above the axes for the labels of the vertical lines
 
 
-def _money_axis(axis) -> None:
+def _money_axis(axis, few: bool = False) -> None:
+    """Money ticks with thousands separators; ``few`` (the narrow layout) keeps about four of them."""
     axis.set_major_formatter(FuncFormatter(lambda v, _: f"{v:,.0f}"))
+    if few:
+        axis.set_major_locator(MaxNLocator(4))
 
 
 def _figure(height: float, narrow: bool, narrow_height: float | None = None,
@@ -276,9 +279,7 @@ def savings_chart(savings: np.ndarray, reference_label: str, words: Words, narro
         ax.set_xlabel(_wrap(f"Saving in a season against the reference rule, {reference_label} "
                             f"({words.currency}; below 0: the forecast costs more)", wrap))
         ax.set_ylabel("Simulated seasons (count)")
-        _money_axis(ax.xaxis)
-        if narrow:
-            ax.xaxis.set_major_locator(MaxNLocator(4))
+        _money_axis(ax.xaxis, few=narrow)
         _title(ax, f"Savings at the recommended cutoff ({words.currency} per season)", narrow)
         fig.legend(loc="outside lower center", ncol=2 if narrow else 4)
         return Chart(_png(fig))
@@ -511,10 +512,8 @@ def risk_chart(cutoffs: np.ndarray, mean_cost: np.ndarray, tail_cost: np.ndarray
             axis_set(lo - pad, hi + pad)
         ax.set_xlabel(_wrap(f"Expected season cost ({words.currency}; lower is better)", wrap))
         ax.set_ylabel(_wrap(f"{tail_label} ({words.currency})", 40))
-        _money_axis(ax.xaxis)
+        _money_axis(ax.xaxis, few=narrow)
         _money_axis(ax.yaxis)
-        if narrow:
-            ax.xaxis.set_major_locator(MaxNLocator(4))
         _title(ax, f"Average season against bad season, at each cutoff ({words.currency} per season)", narrow)
         fig.legend(loc="outside lower center", ncol=1 if narrow else 2)
         return Chart(_png(fig))
