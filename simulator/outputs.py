@@ -77,11 +77,13 @@ def summary(result: RunResult) -> dict[str, Any]:
         "mean_block_days": result.mean_block_days,
         "reference": result.reference,
         "theoretical_cutoff": result.theoretical_cutoff,
+        "objective": decision.objective,
         "recommended_cutoff": decision.recommended_cutoff,
         "recommended_cutoff_interval": decision.recommended_cutoff_interval,
         "near_optimal_band": decision.near_optimal_band,
         "break_even": decision.break_even,
         "confident_break_even": decision.confident_break_even,
+        "objectives": _objectives_entry(result),
         "relative_value": row["relative_value"],
         "strategies": strategies,
         "savings": {"mean": decision.savings.mean, "p05": decision.savings.p05,
@@ -113,6 +115,17 @@ def _file_names_only(text: str, result: RunResult) -> str:
         if path and str(path) != Path(path).name:
             text = text.replace(str(path), Path(path).name)
     return text
+
+
+def _objectives_entry(result: RunResult) -> dict[str, dict[str, float]]:
+    """The cutoff each objective would choose (``decision.choices``), with that cutoff's mean, 95th
+    percentile and expected shortfall over the worst 10% of season costs (``cutoffs.csv`` columns),
+    so the cost of the risk view on average can be read beside the mean's choice."""
+    table = result.table
+    return {name: {"cutoff": float(table["cutoff"].iat[index]),
+                   **{column: float(table[column].iat[index])
+                      for column in ("mean_cost", "p95_cost", "shortfall10_cost")}}
+            for name, index in result.decision.choices.items()}
 
 
 def render_files(result: RunResult) -> dict[str, bytes]:

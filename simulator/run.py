@@ -283,7 +283,7 @@ def run_history(scenario: Scenario, history: History, *, replicates: int | None 
 
     seasons_per_history = max(1, round(history.n_evaluated / calendar.n_occasions))
     decision = decide(model_cost, baseline_cost[sim.reference], cutoffs, seasons_per_history,
-                      block_rng(seed, 0, _INTERVAL_STREAM))
+                      block_rng(seed, 0, _INTERVAL_STREAM), scenario.decision.objective)
     table = cutoff_table([(history, costs)], cutoffs, p_star, model_cost, baseline_cost[sim.reference])
     if operations is not None:
         table = _priced_by_rules(pd.concat([table, pd.DataFrame(operations.per_cutoff())], axis=1), baseline_cost)
@@ -304,7 +304,8 @@ def run_history(scenario: Scenario, history: History, *, replicates: int | None 
                                 sim.window_days, seed, replicates,
                                 sim.walk_forward if walk_forward is None else walk_forward,
                                 label=_label(scenario),
-                                rules=scenario if scenario.operations is not None else None)
+                                rules=scenario if scenario.operations is not None else None,
+                                objective=scenario.decision.objective)
     comparison = None
     if n_forecasts > 1:
         def check(own: History):
@@ -314,14 +315,15 @@ def run_history(scenario: Scenario, history: History, *, replicates: int | None 
                 return None
             return select_honestly(own, calendar, cutoffs, costs, sim.reference, mean_block, sim.window_days,
                                    seed, replicates, False, label=_label(scenario),
-                                   rules=scenario if scenario.operations is not None else None).validation
+                                   rules=scenario if scenario.operations is not None else None,
+                                   objective=scenario.decision.objective).validation
 
         comparison = compare_forecasts(
             history, [model_cost, *forecast_costs], baseline_cost[sim.reference], cutoffs,
             [column for _, column in scenario.forecast_columns],
             lambda cost: (decision if cost is model_cost else
                           decide(cost, baseline_cost[sim.reference], cutoffs, seasons_per_history,
-                                 block_rng(seed, 0, _INTERVAL_STREAM))),
+                                 block_rng(seed, 0, _INTERVAL_STREAM), scenario.decision.objective)),
             check, main_quality=(quality, value_curve))
     return RunResult(scenario=scenario, history=history, calendar=calendar, cutoffs=cutoffs,
                      replicates=replicates, seed=seed, mean_block_days=mean_block * calendar.spacing_days,
@@ -422,7 +424,7 @@ def _run_sites(scenario: Scenario, history: History, *, replicates: int, seed: i
     baseline_cost = {name: baseline_matrix[:, i] for i, name in enumerate(BASELINES)}
     seasons_per_history = max(1, round(joint_dates / calendar.n_occasions))
     decision = decide(model_cost, baseline_cost[reference], cutoffs, seasons_per_history,
-                      block_rng(seed, 0, _INTERVAL_STREAM))
+                      block_rng(seed, 0, _INTERVAL_STREAM), scenario.decision.objective)
     (quality, value_curve, reliability), table = scored()
     table = with_replicates(table, model_cost, baseline_cost[reference])
     own_cost = sites[0].model_cost.copy()
@@ -478,7 +480,8 @@ def _check_task(work: "_Work", k: int, decision: Decision, base_mean_cost: float
         selection = select_honestly(history, calendar, work.cutoffs, scenario.costs, sim.reference,
                                     mean_block, sim.window_days, work.seed, work.replicates, walk_forward,
                                     label=f'{label} site "{history.site_names[0]}"',
-                                    rules=scenario if scenario.operations is not None else None)
+                                    rules=scenario if scenario.operations is not None else None,
+                                    objective=scenario.decision.objective)
     if scenario.stress:
         resampler = Resampler(history, calendar, mean_block, sim.window_days)
         stress = run_stress(scenario, history, calendar=calendar, resampler=resampler, cutoffs=work.cutoffs,
@@ -546,7 +549,7 @@ def _site_result(work: "_Work", k: int, block: PricedBlock) -> SiteResult:
     reference = baseline_cost[sim.reference]
     n_occ = work.resampler.calendar.n_occasions
     decision = decide(block.model, reference, cutoffs, max(1, round(history.n_evaluated / n_occ)),
-                      block_rng(work.seed, 0, _INTERVAL_STREAM))
+                      block_rng(work.seed, 0, _INTERVAL_STREAM), scenario.decision.objective)
     table = cutoff_table([(history, costs)], cutoffs, p_star, block.model, reference)
     operations = None
     if scenario.operations is not None:

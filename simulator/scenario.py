@@ -133,6 +133,9 @@ class DecisionSection(_Section):
     cutoffs: Annotated[tuple[float, float, float], Field(
         description="three numbers [from, to, step]: 0 <= from < to <= 1 and a step that divides the "
                     "range into whole steps, e.g. [0.0, 1.0, 0.01]")] = (0.0, 1.0, 0.01)
+    # what the cutoff is chosen by: the lowest mean season cost, the lowest 95th percentile, or the
+    # lowest mean of the worst 10% of seasons (decision.OBJECTIVES, decision.decide)
+    objective: Literal["mean", "p95", "shortfall10"] = "mean"
 
     @field_validator("cutoffs")
     @classmethod
