@@ -101,6 +101,8 @@ def summary(result: RunResult) -> dict[str, Any]:
         out["selection"] = _selection_entry(result.selection)
     if result.portfolio is not None:  # a site column: the run's numbers above are the portfolio's
         out["portfolio"] = _portfolio_entry(result)
+    if result.comparison is not None:  # two or more [forecasts]: "forecasts" and "forecast_pairs"
+        out.update(result.comparison.summary())
     out = _clean(out)
     out["account"] = [finding.as_dict() for finding in account(out).findings]
     return out
@@ -140,6 +142,7 @@ def render_files(result: RunResult) -> dict[str, bytes]:
         "calibration.csv": lambda: _csv(result.calibration.table),
         "selection.csv": lambda: _csv(_selection_frame(result.selection)),
         "sites.csv": lambda: _csv(result.portfolio.table),
+        "forecasts.csv": lambda: _csv(result.comparison.table()),
     }
     files = {name: render[name]() for name in table_names(result)}  # the report lists the same names
     files.update(render_report(result, contents))
@@ -158,6 +161,8 @@ def table_names(result: RunResult) -> list[str]:
         names.append("selection.csv")
     if result.portfolio is not None:
         names.append("sites.csv")
+    if result.comparison is not None:
+        names.append("forecasts.csv")
     return names
 
 

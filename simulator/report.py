@@ -55,7 +55,8 @@ FILE_NOTES = {"summary.json": " (every headline number, full precision)", "cutof
               "value_curve.csv": " (relative value by cost-loss ratio)", "reliability.csv": " (reliability table)",
               "selection.csv": " (the cutoff chosen on earlier periods, priced on later ones)",
               "stress.csv": " (every stress case)", "sites.csv": " (each site at its own cutoff)",
-              "calibration.csv": " (the recalibration curve)"}
+              "calibration.csv": " (the recalibration curve)",
+              "forecasts.csv": " (each forecast at every cutoff, on the same replicate seasons)"}
 
 _ENV = jinja2.Environment(loader=jinja2.PackageLoader("simulator", "templates"),
                           autoescape=jinja2.select_autoescape(["html", "j2"]),
