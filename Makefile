@@ -29,6 +29,7 @@ browser:
 bench: setup
 	$(BIN)/python benchmarks/bench_core.py
 	$(BIN)/python benchmarks/bench_operations.py
+	$(BIN)/python benchmarks/bench_forecasts.py
 	$(BIN)/python benchmarks/bench_sites.py --sites 50 --rule-sites 10 --replicates 2000
 
 clean:

@@ -34,7 +34,8 @@ from matplotlib.ticker import FuncFormatter, MaxNLocator
 from .errors import printable
 
 __all__ = ["Chart", "Words", "OKABE_ITO", "BASELINE_STYLE", "focus_range", "cost_chart", "savings_chart", "reliability_chart",
-           "roc_chart", "value_chart", "stress_chart", "components_chart", "completion_chart"]
+           "roc_chart", "value_chart", "stress_chart", "components_chart", "completion_chart",
+           "risk_chart"]
 
 OKABE_ITO = {"black": "#000000", "orange": "#E69F00", "sky_blue": "#56B4E9", "green": "#009E73",
              "yellow": "#F0E442", "blue": "#0072B2", "vermillion": "#D55E00", "purple": "#CC79A7"}
@@ -117,8 +118,11 @@ def _title(ax, text: str, narrow: bool, **kw) -> None:
         ax.set_title(" ", **kw)  # keeps room above the axes for the labels of the vertical lines
 
 
-def _money_axis(axis) -> None:
+def _money_axis(axis, few: bool = False) -> None:
+    """Money ticks with thousands separators; ``few`` (the narrow layout) keeps about four of them."""
     axis.set_major_formatter(FuncFormatter(lambda v, _: f"{v:,.0f}"))
+    if few:
+        axis.set_major_locator(MaxNLocator(4))
 
 
 def _figure(height: float, narrow: bool, narrow_height: float | None = None,
@@ -275,9 +279,7 @@ def savings_chart(savings: np.ndarray, reference_label: str, words: Words, narro
         ax.set_xlabel(_wrap(f"Saving in a season against the reference rule, {reference_label} "
                             f"({words.currency}; below 0: the forecast costs more)", wrap))
         ax.set_ylabel("Simulated seasons (count)")
-        _money_axis(ax.xaxis)
-        if narrow:
-            ax.xaxis.set_major_locator(MaxNLocator(4))
+        _money_axis(ax.xaxis, few=narrow)
         _title(ax, f"Savings at the recommended cutoff ({words.currency} per season)", narrow)
         fig.legend(loc="outside lower center", ncol=2 if narrow else 4)
         return Chart(_png(fig))
@@ -453,4 +455,65 @@ def completion_chart(dates: Sequence[str], shares: Sequence[float], reference: S
         fig.legend(loc="outside lower center", ncol=1)
         if not narrow:
             fig.autofmt_xdate()
+        return Chart(_png(fig))
+
+
+# marker of each objective's choice on the risk chart: colour, marker, size (sizes differ so that
+# choices at the same cutoff stay visible one inside the other)
+_OBJECTIVE_STYLE = {
+    "mean": {"color": OKABE_ITO["blue"], "marker": "o", "ms": 13},
+    "p95": {"color": OKABE_ITO["orange"], "marker": "s", "ms": 9.5},
+    "shortfall10": {"color": OKABE_ITO["vermillion"], "marker": "D", "ms": 6.5},
+}
+_RISK_WINDOW = 0.03  # the chart shows cutoffs whose expected cost is within 3% of the lowest
+
+
+def risk_chart(cutoffs: np.ndarray, mean_cost: np.ndarray, tail_cost: np.ndarray, tail_label: str,
+               choices: dict[str, int], labels: dict[str, str], recommended: str, words: Words,
+               narrow: bool = False) -> Chart:
+    """The trade-off between the expected season cost and the cost of a bad season, across cutoffs.
+
+    Each cutoff is a point (x: mean season cost, y: ``tail_cost``, the 95th percentile or the mean
+    of the worst 10% of seasons, named by ``tail_label``), joined in cutoff order; the cutoff each
+    objective chooses (``choices``: objective -> cutoff index, ``labels``: objective -> legend text)
+    is marked, the ``recommended`` objective's in bold. Lower-left is better on both counts. The
+    view is limited to cutoffs within :data:`_RISK_WINDOW` of the lowest expected cost (and every
+    marked choice), where the choice is made; cutoffs.csv holds them all.
+    """
+    mean_cost, tail_cost = np.asarray(mean_cost, dtype=float), np.asarray(tail_cost, dtype=float)
+    lowest = float(mean_cost.min())
+    shown = mean_cost <= lowest + max(_RISK_WINDOW * abs(lowest), 1e-9)
+    shown[list(choices.values())] = True
+    _, _, _, wrap = _layout(narrow)
+    with mpl.rc_context(_STYLE):
+        fig = _figure(4.8, narrow, 6.2)
+        ax = fig.add_subplot()
+        ax.plot(mean_cost, tail_cost, color=_GREY, lw=1.0, zorder=2)
+        ax.plot(mean_cost[shown], tail_cost[shown], "o", color=OKABE_ITO["sky_blue"], ms=3.5, zorder=3,
+                label="A cutoff (joined in order of the cutoff)")
+        span = float(cutoffs[-1] - cutoffs[0])
+        step = 0.05 if span >= 0.3 else span / 6
+        for i in np.flatnonzero(shown):  # label round cutoffs, so the reader can find the way along
+            if abs(cutoffs[i] / step - round(cutoffs[i] / step)) < 1e-9:
+                ax.annotate(f"{cutoffs[i]:.{words.decimals}f}", (mean_cost[i], tail_cost[i]), xytext=(5, 5),
+                            textcoords="offset points", fontsize=7, color="#444444")
+        for name, index in choices.items():
+            style = dict(_OBJECTIVE_STYLE.get(name, {"color": _GREY, "marker": "o", "ms": 8}))
+            colour = style.pop("color")
+            bold = name == recommended
+            ax.plot([mean_cost[index]], [tail_cost[index]], linestyle="none", mfc="none" if name == "mean" else colour,
+                    mec=colour if name == "mean" else "black", mew=2.4 if bold else 1.2, zorder=5,
+                    label=f"{labels.get(name, name)}: {cutoffs[index]:.{words.decimals}f}"
+                          + (" (recommended)" if bold else ""), **style)
+        xs, ys = mean_cost[shown], tail_cost[shown]
+        for axis_set, values in ((ax.set_xlim, xs), (ax.set_ylim, ys)):
+            lo, hi = float(values.min()), float(values.max())
+            pad = 0.06 * (hi - lo) if hi > lo else max(1.0, 0.01 * abs(hi))
+            axis_set(lo - pad, hi + pad)
+        ax.set_xlabel(_wrap(f"Expected season cost ({words.currency}; lower is better)", wrap))
+        ax.set_ylabel(_wrap(f"{tail_label} ({words.currency})", 40))
+        _money_axis(ax.xaxis, few=narrow)
+        _money_axis(ax.yaxis)
+        _title(ax, f"Average season against bad season, at each cutoff ({words.currency} per season)", narrow)
+        fig.legend(loc="outside lower center", ncol=1 if narrow else 2)
         return Chart(_png(fig))

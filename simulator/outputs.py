@@ -87,11 +87,13 @@ def summary(result: RunResult) -> dict[str, Any]:
         "mean_block_days": result.mean_block_days,
         "reference": result.reference,
         "theoretical_cutoff": result.theoretical_cutoff,
+        "objective": decision.objective,
         "recommended_cutoff": decision.recommended_cutoff,
         "recommended_cutoff_interval": decision.recommended_cutoff_interval,
         "near_optimal_band": decision.near_optimal_band,
         "break_even": decision.break_even,
         "confident_break_even": decision.confident_break_even,
+        "objectives": _objectives_entry(result),
         "relative_value": row["relative_value"],
         "strategies": strategies,
         "savings": {"mean": decision.savings.mean, "p05": decision.savings.p05,
@@ -116,6 +118,8 @@ def summary(result: RunResult) -> dict[str, Any]:
         out["portfolio"] = _portfolio_entry(result)
     if result.verdict is not None:  # whether to act on the forecast at all (simulator.verdict)
         out["verdict"] = _verdict_entry(result.verdict, scenario.currency)
+    if result.comparison is not None:  # two or more [forecasts]: "forecasts" and "forecast_pairs"
+        out.update(result.comparison.summary())
     out = _clean(out)
     out["account"] = [finding.as_dict() for finding in account(out).findings]
     return out
@@ -138,6 +142,15 @@ def _verdict_entry(v: Verdict, currency: str) -> dict[str, Any]:
             "saving_against_best_rule": {"mean": v.mean, "p05": v.p05, "p95": v.p95,
                                          "prob_saving": v.prob_saving},
             "reason": v.reason(currency)}
+def _objectives_entry(result: RunResult) -> dict[str, dict[str, float]]:
+    """The cutoff each objective would choose (``decision.choices``), with that cutoff's mean, 95th
+    percentile and expected shortfall over the worst 10% of season costs (``cutoffs.csv`` columns),
+    so the cost of the risk view on average can be read beside the mean's choice."""
+    table = result.table
+    return {name: {"cutoff": float(table["cutoff"].iat[index]),
+                   **{column: float(table[column].iat[index])
+                      for column in ("mean_cost", "p95_cost", "shortfall10_cost")}}
+            for name, index in result.decision.choices.items()}
 
 
 def render_files(result: RunResult) -> dict[str, bytes]:
@@ -154,6 +167,7 @@ def render_files(result: RunResult) -> dict[str, bytes]:
         "calibration.csv": lambda: _csv(result.calibration.table),
         "selection.csv": lambda: _csv(_selection_frame(result.selection)),
         "sites.csv": lambda: _csv(result.portfolio.table),
+        "forecasts.csv": lambda: _csv(result.comparison.table()),
     }
     files = {name: render[name]() for name in table_names(result)}  # the report lists the same names
     files.update(render_report(result, contents))
@@ -172,6 +186,8 @@ def table_names(result: RunResult) -> list[str]:
         names.append("selection.csv")
     if result.portfolio is not None:
         names.append("sites.csv")
+    if result.comparison is not None:
+        names.append("forecasts.csv")
     return names
 
 

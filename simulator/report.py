@@ -28,9 +28,11 @@ import jinja2
 import numpy as np
 
 from . import __version__, figures
-from .account import (cutoff_decimals, account, cutoff_text, format_value, money, money_exact, rate, ranges_text,
-                      season_name, seasons_text, share, short_label, signed_money, strategy_label)
+from .account import (OBJECTIVE_WORDS, account, bad_season, cutoff_decimals, cutoff_text, format_value, money,
+                      money_exact, rate, ranges_text, season_name, seasons_text, share, short_label, signed_money,
+                      strategy_label)
 from .cautions import GENERAL
+from .decision import OBJECTIVE_NAMES
 from .verdict import RULE_WORDS
 from .figures import Words
 from .scenario import BASELINES
@@ -53,7 +55,8 @@ FILE_NOTES = {"summary.json": " (every headline number, full precision)", "cutof
               "value_curve.csv": " (relative value by cost-loss ratio)", "reliability.csv": " (reliability table)",
               "selection.csv": " (the cutoff chosen on earlier periods, priced on later ones)",
               "stress.csv": " (every stress case)", "sites.csv": " (each site at its own cutoff)",
-              "calibration.csv": " (the recalibration curve)"}
+              "calibration.csv": " (the recalibration curve)",
+              "forecasts.csv": " (each forecast at every cutoff, on the same replicate seasons)"}
 
 _ENV = jinja2.Environment(loader=jinja2.PackageLoader("simulator", "templates"),
                           autoescape=jinja2.select_autoescape(["html", "j2"]),
@@ -471,6 +474,15 @@ def render_report(result, summary: Mapping[str, Any]) -> dict[str, bytes]:
             result.value_curve["value_at_cutoff_equal_to_ratio"].to_numpy(), result.theoretical_cutoff,
             float(row["relative_value"]), words),
     }
+    tail, column = bad_season(decision.objective)
+    chosen_by = account(summary).get("objective")
+    risk = {"tail_what": OBJECTIVE_NAMES[tail], "objective_what": OBJECTIVE_NAMES[decision.objective],
+            # said once: in the recommendation when a risk objective chose, else here
+            "paragraph": chosen_by.sentence if chosen_by is not None and not chosen_by.first else ""}
+    draw["risk"] = partial(
+        figures.risk_chart, result.cutoffs, table["mean_cost"].to_numpy(), table[column].to_numpy(),
+        OBJECTIVE_NAMES[tail].capitalize(), decision.choices,
+        {name: w["name"] for name, w in OBJECTIVE_WORDS.items()}, decision.objective, words)
     stress = _stress_cases(summary, currency, decimals)
     if stress:
         draw["stress"] = partial(figures.stress_chart, [c["name"] for c in stress], [c["mean"] for c in stress],
@@ -536,6 +548,7 @@ def render_report(result, summary: Mapping[str, Any]) -> dict[str, bytes]:
         "forward": (summary.get("selection") or {}).get("walk_forward"),
         "calibration": summary.get("calibration"),
         "portfolio": _portfolio(summary, currency, decimals),
+        "risk": risk,
     }
     html = _with_content_policy(_ENV.get_template("report.html.j2").render(context))
     files = {"report.html": html.encode("utf-8")}

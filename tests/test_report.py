@@ -28,7 +28,7 @@ from simulator.report import (CAUTION, FIELD_FORMATS, format_value, headline_num
                               render_report, share)
 
 PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"  # PNG specification (W3C/ISO 15948), section 5.2
-CORE_FIGURES = ("season_cost", "savings", "reliability", "roc", "relative_value")
+CORE_FIGURES = ("season_cost", "savings", "reliability", "roc", "relative_value", "risk")
 
 MINIMAL_TOML = """
 name = "Yard gritting at Tollbury"
