@@ -177,6 +177,7 @@ class Finding:
     """One finding of a run.
 
     ``key`` names it (``verdict``, ``cutoff``, ``season_cost``, ``saving``, ``beats_reference``,
+    ``events_without_action``,
     ``deadline``, ``completion``, ``safety_stop``, ``sites``, ``season``, ``baseline:<name>``,
     ``history``); ``label`` is what it is, ``text`` the finding with its units as a table row
     shows it, ``sentence`` the same in prose, ``basis`` what it is per and at which cutoff.
@@ -238,9 +239,10 @@ def account(summary: Mapping[str, Any]) -> Account:
         advise = bool(verdict.get("use_forecast", True))
         best = strategy_label(verdict.get("best_rule_without_forecast") or ref, action, event, unit)
         text = ("use the forecast" if advise else f"keep to the rule that ignores it: {best}")
-        reason = str(verdict.get("reason") or "").strip()
-        out.append(Finding("verdict", "Verdict", text + (f"; {reason}" if reason else ""),
-                           _capital(reason) if reason else _capital(text) + ".", "over the simulated seasons"))
+        reason = str(verdict.get("reason") or "").strip()  # why (simulator.verdict)
+        said = f"{text}, because {reason[:1].lower()}{reason[1:]}" if reason else text + "."
+        out.append(Finding("verdict", "Verdict", said, _capital(said),
+                           "per season, each past season priced at the cutoff and rule chosen on the others"))
 
     lo, hi = s["recommended_cutoff_interval"]
     p_star = s.get("theoretical_cutoff")
@@ -280,6 +282,17 @@ def account(summary: Mapping[str, Any]) -> Account:
     beats = _beats(s, grid, decimals)
     if beats is not None:
         out.append(beats)
+
+    missed = s.get("events_without_action")
+    if missed:  # a hazard: the event occasions the cutoff leaves without action
+        where = f", all {s['portfolio']['sites']} sites together" if s.get("portfolio") else ""
+        mean = format_value("days", missed["mean"], "")
+        p05, p95 = (format_value("count", missed[k], "") for k in ("p05", "p95"))  # observed counts
+        out.append(Finding(
+            "events_without_action", f"\u201c{event}\u201d without action",
+            f"{mean} {unit}s a season at {cut(missed['cutoff'])}{where}  (90% of seasons {p05} to {p95})",
+            "",  # a tile of the report's first screen says it; the prose stays short
+            f"per season, at cutoff {cut(missed['cutoff'])}, over the simulated seasons"))
 
     if ops:
         out += _operations(ops, at, ref)

@@ -31,7 +31,9 @@ from . import __version__, figures
 from .account import (OBJECTIVE_WORDS, account, bad_season, cutoff_decimals, cutoff_text, format_value, money,
                       money_exact, rate, ranges_text, season_name, seasons_text, share, short_label, signed_money,
                       strategy_label)
+from .cautions import GENERAL
 from .decision import OBJECTIVE_NAMES
+from .verdict import RULE_WORDS
 from .figures import Words
 from .scenario import BASELINES
 from .scenario import WEEKDAYS
@@ -39,9 +41,7 @@ from .scenario import WEEKDAYS
 __all__ = ["render_report", "headline_numbers", "recommendation", "format_value", "money", "share",
            "cutoff_text", "strategy_label", "FIELD_FORMATS", "CAUTION"]
 
-CAUTION = ("A cost-optimal cutoff does not replace safety rules, site risk assessments, local regulations "
-           "or licensed professional judgement. The numbers price money only; they do not weigh harm "
-           "to people.")
+CAUTION = GENERAL  # the general caution (simulator.cautions); summary["cautions"] lists every one of a run
 
 # how each cutoffs.csv column the explorer shows is written on the page
 FIELD_FORMATS = {"cutoff": "cutoff", "hits": "count", "false_alarms": "count", "misses": "count",
@@ -293,7 +293,7 @@ def _operations(summary: Mapping[str, Any], currency: str, rules=None) -> dict[s
         "late_mean": f"{late.get('mean', float('nan')):.1f}", "late_p95": f"{late.get('p95', float('nan')):.0f}",
         "deadline": ops.get("deadline"), "crews": ops.get("crews"), "work": ops.get("work_crew_days"),
         "working_days": ops.get("working_days"), "overtime_days": ops.get("overtime_days_available"),
-        "days": days, "caution": ops.get("caution", ""),
+        "days": days,
     }
 
 
@@ -521,7 +521,9 @@ def render_report(result, summary: Mapping[str, Any]) -> dict[str, bytes]:
     context = {
         "s": summary, "scenario": scenario, "history": history, "words": words, "version": __version__,
         "recommendation": recommendation(summary, occasion, decimals), "numbers": headline_numbers(summary, decimals),
-        "caution": CAUTION, "hazard": scenario.event.hazard, "occasion": occasion,
+        "caution": CAUTION, "cautions": summary["cautions"], "hazard": scenario.event.hazard, "occasion": occasion,
+        "verdict": summary.get("verdict"), "missed": summary.get("events_without_action"),
+        "rule_label": lambda name: _sentence_case(RULE_WORDS[name]),
         "ref_label": ref_label, "Action": _sentence_case(action), "decimals": decimals,
         "cut": lambda v: cutoff_text(v, decimals), "money": lambda v: money(v, currency), "share": share,
         "rate": rate, "ranges": lambda r: ranges_text(r, decimals) or "none",

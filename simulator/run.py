@@ -43,10 +43,11 @@ from .parallel import Executor, InlineExecutor, open_executor, prepare
 from .resample import BLOCK, Calendar, Resampler, block_rng, calendar_warnings, n_blocks, season_calendar
 from .scenario import (BASELINES, Scenario, break_even_probability, check_workload, cost_warnings,
                        read_scenario)
-from .scoring import relative_value_from_costs
+from .scoring import cutoff_slots, relative_value_from_costs
 from .selection import Calibration, Selection, calibrate, select_honestly
 from .stress import ReplicatePricer, StressResult, run_stress
 from .tables import cutoff_table, forecast_quality, forecast_scores, history_table, with_replicates
+from .verdict import RULES, SeasonCosts, Verdict, best_rule, judge, season_costs, together
 
 __all__ = ["run", "run_history", "RunResult", "SiteResult", "Portfolio", "Progress", "CHUNK_BLOCKS"]
 
@@ -88,6 +89,10 @@ class SiteResult:
     # single-site run of its rows makes them)
     selection: Selection | None = None
     stress: tuple[StressResult, ...] | None = None
+    # whether this site's forecast is worth using at all (simulator.verdict), on its own seasons,
+    # and those seasons' costs (for the portfolio's verdict)
+    verdict: Verdict | None = None
+    season_costs: SeasonCosts | None = None
 
     @property
     def reference(self) -> str:
@@ -173,6 +178,11 @@ class RunResult:
     selection: Selection | None = None
     # with a site column: every site's own results and the portfolio's
     portfolio: Portfolio | None = None
+    # whether the forecast is worth using at all, judged on seasons it was not chosen on
+    verdict: Verdict | None = None
+    # [event] hazard = true: event occasions of each replicate season (all sites) on which the
+    # forecast does not reach the recommended cutoff, (n_replicates,); None in the calibrated mode
+    events_without_action: np.ndarray | None = None
     # with two or more [forecasts]: each priced on the same replicates, and every pair compared
     comparison: Comparison | None = None
 
@@ -325,13 +335,18 @@ def run_history(scenario: Scenario, history: History, *, replicates: int | None 
                           decide(cost, baseline_cost[sim.reference], cutoffs, seasons_per_history,
                                  block_rng(seed, 0, _INTERVAL_STREAM), scenario.decision.objective)),
             check, main_quality=(quality, value_curve))
+    verdict = judge(season_costs(history, calendar, cutoffs, scenario), calendar.n_occasions,
+                    best_rule({name: float(baseline_cost[name].mean()) for name in RULES}))
+    unprotected = (_events_without_action(work, decision.recommended_index)
+                   if scenario.event.hazard and calibration is None else None)
     return RunResult(scenario=scenario, history=history, calendar=calendar, cutoffs=cutoffs,
                      replicates=replicates, seed=seed, mean_block_days=mean_block * calendar.spacing_days,
                      theoretical_cutoff=p_star, decision=decision, model_cost=model_cost,
                      baseline_cost=baseline_cost, table=table, quality=quality,
                      value_curve=value_curve, reliability=reliability, warnings=warnings,
                      operations=operations, stress=stress, calibration=calibration,
-                     selection=selection, comparison=comparison)
+                     selection=selection, comparison=comparison, verdict=verdict,
+                     events_without_action=unprotected)
 
 
 _FORECAST_KEY = "forecast_model_cost_"  # extras of a priced block: a later forecast's model costs
@@ -444,12 +459,36 @@ def _run_sites(scenario: Scenario, history: History, *, replicates: int, seed: i
             warnings += site.warnings
     for site in sites:
         warnings += tuple(f'site "{site.name}": {w}' for case in site.stress or () for w in case.warnings)
+    unprotected = _events_without_action(work, common) if scenario.event.hazard else None
+    joint = together([site.season_costs for site in sites])  # one cutoff and one rule for every site
+    verdict = None if joint is None else judge(joint, calendar.n_occasions * len(sites),
+                                               best_rule({name: float(baseline_cost[name].mean()) for name in RULES}))
     return RunResult(scenario=scenario, history=history, calendar=calendar, cutoffs=cutoffs,
                      replicates=replicates, seed=seed, mean_block_days=mean_block * calendar.spacing_days,
                      theoretical_cutoff=p_star, decision=decision, model_cost=model_cost,
                      baseline_cost=baseline_cost, table=table, quality=quality,
                      value_curve=value_curve, reliability=reliability,
-                     warnings=tuple(warnings), portfolio=portfolio)
+                     warnings=tuple(warnings), portfolio=portfolio, events_without_action=unprotected,
+                     verdict=verdict)
+
+
+def _events_without_action(work: "_Work", index: int) -> np.ndarray:
+    """Event occasions of each replicate season on which the probability does not reach cutoff
+    ``index`` (so no action is taken), summed over the sites, (n_replicates,) int64.
+
+    The replicates are drawn again from their seeds (a replicate depends only on the seed and its
+    number), so they are those the run priced.
+    """
+    resampler = work.resampler
+    history = resampler.history
+    missed = []
+    for k in range(resampler.n_sites):
+        own = history.for_site(k)
+        missed.append(own.event & (cutoff_slots(own.p, work.cutoffs) <= index))  # act when slot > index
+    out = []
+    for rows in resampler.blocks(work.seed, work.replicates):
+        out.append(sum(m[resampler.site_rows(rows, k)].sum(axis=1) for k, m in enumerate(missed)))
+    return np.concatenate(out).astype(np.int64)
 
 
 def _checked_sites(work: "_Work", executor: Executor, sites: tuple[SiteResult, ...], check: bool,
@@ -559,12 +598,14 @@ def _site_result(work: "_Work", k: int, block: PricedBlock) -> SiteResult:
         operations = result.summary(decision.recommended_index)
     name = history.site_names[0]
     warnings = tuple(f'site "{name}" {w}' for w in cost_warnings(costs, scenario.decision.action))
+    seasons = season_costs(history, work.resampler.calendar, cutoffs, scenario)
+    verdict = judge(seasons, n_occ, best_rule({name: float(cost.mean()) for name, cost in baseline_cost.items()}))
     own_dates = np.unique(history.dates[history.evaluated]).size
     return SiteResult(name=name, scenario=scenario, history=history, theoretical_cutoff=p_star,
                       decision=decision, table=table, quality=forecast_scores(history),
                       model_cost=block.model[:, decision.recommended_index].copy(),
                       baseline_cost=baseline_cost, missing_dates=work.resampler.n_dates - own_dates,
-                      operations=operations, warnings=warnings)
+                      operations=operations, warnings=warnings, verdict=verdict, season_costs=seasons)
 
 
 def _sites_table(sites: Sequence[SiteResult], common: int) -> pd.DataFrame:
@@ -593,6 +634,11 @@ def _sites_table(sites: Sequence[SiteResult], common: int) -> pd.DataFrame:
                "mean_savings": d.savings.mean, "p05_savings": d.savings.p05, "p95_savings": d.savings.p95,
                "prob_saving": d.prob_saving, "forecast_value": value, "value_rank": int(r),
                "mean_cost_at_common_cutoff": _cell(site.table, common, "mean_cost")}
+        if site.verdict is not None:  # simulator.verdict, on the site's own seasons
+            v = site.verdict
+            row.update({"use_forecast": v.use_forecast, "best_rule_without_forecast": v.best_rule,
+                        "saving_against_best_rule_mean": v.mean, "saving_against_best_rule_p05": v.p05,
+                        "saving_against_best_rule_p95": v.p95, "saving_against_best_rule_prob": v.prob_saving})
         check = site.selection.validation if site.selection is not None else None
         if check is not None:
             row.update({"validation_chosen_cutoff": check.chosen_cutoff,
