@@ -39,6 +39,7 @@ bench: setup
 	$(BIN)/python benchmarks/bench_core.py
 	$(BIN)/python benchmarks/bench_operations.py
 	$(BIN)/python benchmarks/bench_reading.py
+	$(BIN)/python benchmarks/bench_forecasts.py
 	$(BIN)/python benchmarks/bench_sites.py --sites 50 --rule-sites 10 --replicates 2000
 
 clean:

@@ -22,13 +22,22 @@ from collections.abc import Mapping, Sequence
 from dataclasses import asdict, dataclass
 from typing import Any
 
+from .decision import OBJECTIVE_NAMES
 from .history import season_start_month
 
 __all__ = ["Finding", "Account", "account", "money", "money_exact", "signed_money", "share", "rate",
            "cutoff_text", "format_value", "ranges_text", "season_name", "seasons_text", "strategy_label",
-           "cutoff_decimals", "short_label", "money_range", "SIGNIFICANT"]
+           "cutoff_decimals", "short_label", "money_range", "bad_season", "SIGNIFICANT", "OBJECTIVE_WORDS"]
 
 SIGNIFICANT = 3  # significant figures of money written for a reader
+
+# each [decision] objective in words (what it minimises is decision.OBJECTIVE_NAMES): the basis of
+# "costs less than the reference rule", and its name on the report's risk chart
+OBJECTIVE_WORDS = {
+    "mean": {"basis": "on average", "name": "Lowest expected cost"},
+    "p95": {"basis": "in its 95th-percentile season", "name": "Lowest 95th percentile"},
+    "shortfall10": {"basis": "over the worst 10% of seasons", "name": "Lowest mean of the worst 10%"},
+}
 
 
 # ------------------------------------------------------------------------------------------------
@@ -168,6 +177,7 @@ class Finding:
     """One finding of a run.
 
     ``key`` names it (``verdict``, ``cutoff``, ``season_cost``, ``saving``, ``beats_reference``,
+    ``events_without_action``,
     ``deadline``, ``completion``, ``safety_stop``, ``sites``, ``season``, ``baseline:<name>``,
     ``history``); ``label`` is what it is, ``text`` the finding with its units as a table row
     shows it, ``sentence`` the same in prose, ``basis`` what it is per and at which cutoff.
@@ -220,6 +230,7 @@ def account(summary: Mapping[str, Any]) -> Account:
     at = cut(s["recommended_cutoff"])
     n_rep = f"{s['replicates']:,}"
     season = season_name(s["season_year"], months)
+    objective = s.get("objective", "mean")
     out: list[Finding] = []
 
     verdict = s.get("verdict")
@@ -228,9 +239,10 @@ def account(summary: Mapping[str, Any]) -> Account:
         advise = bool(verdict.get("use_forecast", True))
         best = strategy_label(verdict.get("best_rule_without_forecast") or ref, action, event, unit)
         text = ("use the forecast" if advise else f"keep to the rule that ignores it: {best}")
-        reason = str(verdict.get("reason") or "").strip()
-        out.append(Finding("verdict", "Verdict", text + (f"; {reason}" if reason else ""),
-                           _capital(reason) if reason else _capital(text) + ".", "over the simulated seasons"))
+        reason = str(verdict.get("reason") or "").strip()  # why (simulator.verdict)
+        said = f"{text}, because {reason[:1].lower()}{reason[1:]}" if reason else text + "."
+        out.append(Finding("verdict", "Verdict", said, _capital(said),
+                           "per season, each past season priced at the cutoff and rule chosen on the others"))
 
     lo, hi = s["recommended_cutoff_interval"]
     p_star = s.get("theoretical_cutoff")
@@ -244,7 +256,9 @@ def account(summary: Mapping[str, Any]) -> Account:
         (f"{_capital(action)} when the forecast probability of \u201c{event}\u201d is {at} or more"
          if advise else f"The cheapest cutoff on this history is {at}, but it is not advised")
         + f" (90% interval of the best cutoff over histories as long as ours: {cut(lo)} to {cut(hi)}).",
-        "the lowest expected season cost over the simulated seasons"))
+        f"the lowest {OBJECTIVE_NAMES[objective]} over the simulated seasons"))
+    if s.get("objectives"):
+        out.append(_objective(s, objective, cut))
 
     m = s["strategies"]["model"]
     rules = " under the operating rules" if ops else ""
@@ -268,6 +282,17 @@ def account(summary: Mapping[str, Any]) -> Account:
     beats = _beats(s, grid, decimals)
     if beats is not None:
         out.append(beats)
+
+    missed = s.get("events_without_action")
+    if missed:  # a hazard: the event occasions the cutoff leaves without action
+        where = f", all {s['portfolio']['sites']} sites together" if s.get("portfolio") else ""
+        mean = format_value("days", missed["mean"], "")
+        p05, p95 = (format_value("count", missed[k], "") for k in ("p05", "p95"))  # observed counts
+        out.append(Finding(
+            "events_without_action", f"\u201c{event}\u201d without action",
+            f"{mean} {unit}s a season at {cut(missed['cutoff'])}{where}  (90% of seasons {p05} to {p95})",
+            "",  # a tile of the report's first screen says it; the prose stays short
+            f"per season, at cutoff {cut(missed['cutoff'])}, over the simulated seasons"))
 
     if ops:
         out += _operations(ops, at, ref)
@@ -318,19 +343,56 @@ def account(summary: Mapping[str, Any]) -> Account:
     return Account(title=title, findings=tuple(out))
 
 
+def bad_season(objective: str) -> tuple[str, str]:
+    """The bad-season measure shown beside the mean for ``objective``, and its cutoffs.csv column:
+    the 95th percentile under ``"p95"``, else the mean of the worst 10% of seasons."""
+    return ("p95", "p95_cost") if objective == "p95" else ("shortfall10", "shortfall10_cost")
+
+
+def _objective(s: Mapping[str, Any], objective: str, cut) -> Finding:
+    """What the objective chose against the other view: the mean's choice under a risk objective,
+    the bad-season measure's under the mean (``summary["objectives"]``). A finding of the
+    recommendation only when the objective is not the mean."""
+    cur = s["currency"]
+    tail, column = bad_season(objective)
+    tail_what = OBJECTIVE_NAMES[tail]
+    other = tail if objective == "mean" else "mean"
+    chosen, alternative = s["objectives"][objective], s["objectives"][other]
+    here, there = cut(chosen["cutoff"]), cut(alternative["cutoff"])
+    if here == there:
+        core = (f"the lowest expected season cost and the lowest {tail_what} come at the same cutoff, {here}: "
+                "the average season and the bad season ask for the same choice.")
+    else:
+        mean_gap = alternative["mean_cost"] - chosen["mean_cost"]
+        tail_gap = alternative[column] - chosen[column]
+        core = (f"choosing for the lowest {OBJECTIVE_NAMES[other]} instead would move the cutoff from {here} to "
+                f"{there}: a season would cost {money(abs(mean_gap), cur)} {'more' if mean_gap > 0 else 'less'} "
+                f"on average, and the {tail_what} would be {money(abs(tail_gap), cur)} "
+                f"{'higher' if tail_gap > 0 else 'lower'}.")
+    what = OBJECTIVE_NAMES[objective]
+    sentence = _capital(core) if objective == "mean" else f"This cutoff has the lowest {what}; {core}"
+    at = f"cutoff {here}" if here == there else f"cutoffs {here} and {there}"
+    return Finding("objective", "Chosen by", f"the lowest {what}. {_capital(core)}", sentence,
+                   f"per season, over {s['replicates']:,} simulated seasons, at {at}",
+                   first=objective != "mean")
+
+
 def _beats(s: Mapping[str, Any], grid: Sequence[float], decimals: int) -> Finding | None:
-    """One range of cutoffs cheaper than the reference: in 95% of seasons when there is one, else on
-    average; none when the range is every cutoff tried (it would say nothing)."""
+    """One range of cutoffs cheaper than the reference: in 95% of seasons when there is one, else by
+    the run's objective (on average, for the mean); none when the range is every cutoff tried (it
+    would say nothing)."""
     confident, average = s.get("confident_break_even") or [], s.get("break_even") or []
     everything = [[float(grid[0]), float(grid[1])]]
+    by = OBJECTIVE_WORDS[s.get("objective", "mean")]["basis"]
     if confident:
         ranges, basis = confident, "in at least 95% of simulated seasons"
     elif average:
-        ranges, basis = average, "on average; none in 95% of simulated seasons"
+        ranges, basis = average, f"{by}; none in 95% of simulated seasons"
     else:
-        return Finding("beats_reference", "Cutoffs that beat the reference", "none, on average",
-                       "No cutoff costs less than the reference rule on average: keep to the reference rule.",
-                       "per season, mean over the simulated seasons")
+        return Finding("beats_reference", "Cutoffs that beat the reference", f"none, {by}",
+                       f"No cutoff costs less than the reference rule {by}: keep to the reference rule.",
+                       "per season, mean over the simulated seasons" if by == "on average"
+                       else f"per season, {by}, over the simulated seasons")
     if [[round(lo, 9), round(hi, 9)] for lo, hi in ranges] == [[round(x, 9) for x in r] for r in everything]:
         return None
     text = ranges_text(ranges, decimals)

@@ -48,10 +48,6 @@ app = typer.Typer(add_completion=False, no_args_is_help=True, pretty_exceptions_
 out_console = Console(markup=False, highlight=False, emoji=False)
 err_console = Console(stderr=True, markup=False, highlight=False, emoji=False)
 
-CAUTION = ("A cost-optimal cutoff never overrides safety rules, site risk assessments, local "
-           "regulations or licensed professional judgement.")
-
-
 def _plain(value):
     """A user's string (or every string in a dict or list of them, such as the summary) with its
     control characters written as escapes, so that it cannot move the cursor, clear the screen or
@@ -271,12 +267,15 @@ def _sites_tables(result: RunResult) -> list:
     more = (f"... and {len(frame) - len(shown)} more sites: sites.csv" if len(frame) > len(shown)
             else "Per site, with every figure: sites.csv")
     rows = [[r.site, f"{r.recommended_cutoff:.2f}", f"{r.recommended_cutoff_low:.2f}-{r.recommended_cutoff_high:.2f}",
-             money(r.mean_cost, ""), f"{money(r.mean_savings, '')} ({share(r.prob_saving)})", money(r.forecast_value, "")]
+             money(r.mean_cost, ""), f"{money(r.mean_savings, '')} ({share(r.prob_saving)})", money(r.forecast_value, ""),
+             "yes" if r.use_forecast else f"no: {r.best_rule_without_forecast}"]
             for r in shown.itertuples()]
     out: list = [_fitted_table(f"Each site at its own cutoff ({cur} a season; by the value of the forecast)",
                                [("", "Site"), ("Own", "cutoff"), ("90%", "interval"), ("Mean", "cost"),
-                                ("Saving against", "reference (share)"), ("Value of", "forecast")],
-                               rows), f"Reference rule: {_labels(result)[0]}. {more}"]
+                                ("Saving against", "reference (share)"), ("Value of", "forecast"),
+                                ("Worth", "using")], rows),
+                 f"Reference rule: {_labels(result)[0]}. {more}; worth using: whether the forecast beats the best "
+                 "rule without it on seasons its cutoff was not chosen on (else the rule to keep to)"]
     validation, forward = "validation_chosen_cutoff" in frame.columns, "walk_forward_cost" in frame.columns
     if validation or forward:
         headers = [("", "Site")]
@@ -324,26 +323,30 @@ def _calibration_lines(result: RunResult) -> list:
 def _report_run(result: RunResult, out: Path, written: list[Path], quiet: bool, as_json: bool) -> None:
     for warning in result.warnings:
         _warn(warning)
+    contents = summary(result)
+    hazard = result.scenario.event.hazard
+    cautions = [Text.assemble(("Caution: ", "bold"), (_plain(text), "bold" if i == 0 and hazard else ""))
+                for i, text in enumerate(contents["cautions"])]
+    if hazard and (quiet or as_json):  # a hazard's cautions are never silenced: standard error
+        for caution in cautions:
+            err_console.print(caution, soft_wrap=True)
     if as_json:
-        sys.stdout.write(json.dumps(summary(result), indent=2) + "\n")
+        sys.stdout.write(json.dumps(contents, indent=2) + "\n")
         return
     if quiet:
         return
-    hazard = result.scenario.event.hazard
-    caution = Text.assemble(("Caution: ", "bold"), (f'"{_plain(result.scenario.event.name)}" is a hazard to people. '
-                                                    if hazard else "", "bold"), CAUTION)
     if hazard:  # said first, and again at the end
-        out_console.print(caution)
+        out_console.print(cautions[0], soft_wrap=True)
     out_console.print(_headline(result))
     for part in (_sites_tables(result) + _stress_tables(result) + _selection_tables(result)
                  + _calibration_lines(result)):
         if isinstance(part, str):
             part = _plain(part)
         out_console.print(part, soft_wrap=isinstance(part, Text) and bool(part.no_wrap))  # tables keep their lines
-    out_console.print(caution)
-    # the last line says where the results are, whole on one line
+    for caution in cautions:
+        out_console.print(caution, soft_wrap=True)
     out_console.print(_plain(f"Wrote {len(written)} files to {out}/; open {out / 'report.html'} to read the report"),
-                      soft_wrap=True)
+                      soft_wrap=True)  # the last line says where, whole
 
 
 def _execute(scenario: Scenario, history: Path | None, out: Path | None, replicates: int | None,

@@ -118,13 +118,20 @@ class SeasonPricer:
                                (~acts & event).astype(np.int64), (~acts & ~event).astype(np.int64)]
 
     def __call__(self, rows: np.ndarray) -> PricedBlock:
+        n_rep = rows.shape[0]
+        code = self._pattern[rows] + (np.arange(n_rep, dtype=np.int64) * self._n_patterns)[:, None]
+        held = np.bincount(code.ravel(), minlength=n_rep * self._n_patterns).reshape(n_rep, -1)
+        baselines = price(Contingency(*(held @ cells for cells in self._pattern_cells)), self.costs)
+        return PricedBlock(model=self.model_cost(rows, baselines), baselines=baselines,
+                           n_events=held @ self._pattern_event)
+
+    def model_cost(self, rows: np.ndarray, baselines: np.ndarray) -> np.ndarray:
+        """Season costs (n_rep, n_cutoffs) of acting on this pricer's probabilities at every
+        cutoff, given the baselines' costs on the same rows (n_rep, n_baselines), which depend on
+        the outcomes and costs only: so another forecast of the same history reuses them."""
         n_rep, width = rows.shape[0], self.n_cutoffs + 1
         code = self._slots[rows] + (np.arange(n_rep, dtype=np.int64) * width)[:, None]
         tally = np.bincount(code.ravel(), weights=self._acting_difference[rows].ravel(),
                             minlength=n_rep * width).reshape(n_rep, width)
         acting = np.cumsum(tally[:, ::-1], axis=1)[:, -2::-1]  # [r, k]: occasions with slot > k
-        code = self._pattern[rows] + (np.arange(n_rep, dtype=np.int64) * self._n_patterns)[:, None]
-        held = np.bincount(code.ravel(), minlength=n_rep * self._n_patterns).reshape(n_rep, -1)
-        baselines = price(Contingency(*(held @ cells for cells in self._pattern_cells)), self.costs)
-        model = baselines[:, _NEVER, None] + acting
-        return PricedBlock(model=model, baselines=baselines, n_events=held @ self._pattern_event)
+        return baselines[:, _NEVER, None] + acting

@@ -6,19 +6,28 @@ Pure functions of arrays; costs are per replicate season (rows) and cutoff (colu
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+import math
+from dataclasses import dataclass, field
 
 import numpy as np
 
 __all__ = ["Distribution", "Decision", "distribution", "cutoff_ranges", "decide", "per_cutoff",
-           "money_tolerance", "cheaper", "lowest", "NEAR_OPTIMAL", "CONFIDENT", "N_HISTORIES",
-           "SAME_MONEY"]
+           "season_cost_columns", "shortfall", "objective_cost", "money_tolerance", "cheaper", "lowest",
+           "NEAR_OPTIMAL", "CONFIDENT", "N_HISTORIES", "SAME_MONEY", "OBJECTIVES", "OBJECTIVE_COLUMN",
+           "OBJECTIVE_NAMES", "SHORTFALL_SHARE"]
 
 NEAR_OPTIMAL = 0.01  # a cutoff within 1% of the lowest mean season cost is near-optimal
 CONFIDENT = 0.95  # "confident" break-even: the model is cheaper in at least this share of seasons
 N_HISTORIES = 1000  # bootstrap histories for the interval of the recommended cutoff
 QUANTILES = (0.05, 0.50, 0.95)
 SAME_MONEY = 1e-9  # sums of money closer than this share of the largest figure compared are equal
+SHORTFALL_SHARE = 0.10  # expected shortfall over the worst 10% of seasons
+# what a cutoff is chosen by ([decision] objective), and the cutoffs.csv column that holds it
+OBJECTIVES = ("mean", "p95", "shortfall10")
+OBJECTIVE_COLUMN = {"mean": "mean_cost", "p95": "p95_cost", "shortfall10": "shortfall10_cost"}
+OBJECTIVE_NAMES = {"mean": "expected season cost", "p95": "95th percentile of season cost",
+                   "shortfall10": "mean cost of the worst 10% of seasons"}  # what each one minimises
+_HISTORY_CHUNK = 100  # bootstrap histories judged at once by a risk objective (bounds memory)
 
 
 def money_tolerance(*costs) -> float:
@@ -83,6 +92,9 @@ class Decision:
     confident_break_even: list[tuple[float, float]]
     savings: Distribution
     prob_saving: float
+    # what chose the recommended cutoff (one of OBJECTIVES), and the index each objective would choose
+    objective: str = "mean"
+    choices: dict[str, int] = field(default_factory=dict)
 
 
 def cutoff_ranges(mask: np.ndarray, cutoffs: np.ndarray) -> list[tuple[float, float]]:
@@ -93,19 +105,62 @@ def cutoff_ranges(mask: np.ndarray, cutoffs: np.ndarray) -> list[tuple[float, fl
     return [(float(cutoffs[a]), float(cutoffs[b])) for a, b in zip(starts, stops)]
 
 
+def shortfall(values: np.ndarray, share: float = SHORTFALL_SHARE, axis: int = 0) -> np.ndarray:
+    """Expected shortfall of costs: the mean of the worst (highest) ``ceil(share * n)`` of the ``n``
+    values along ``axis``.
+
+    Expected shortfall, also called conditional value at risk, is the mean of the worst ``share`` of
+    outcomes (Rockafellar, R. T. and Uryasev, S. (2000). Optimization of conditional value-at-risk.
+    J. Risk 2, 21-41). This is its empirical estimator, the average of the ``ceil(share * n)`` worst
+    of ``n`` draws (Acerbi, C. and Tasche, D. (2002). On the coherence of expected shortfall.
+    J. Banking & Finance 26, 1487-1503; the ceiling as given in METHODS.md section 6.2). Unlike a
+    quantile it is coherent: it sees how bad the bad seasons are, not only where they begin.
+    """
+    values = np.asarray(values, dtype=np.float64)
+    n = values.shape[axis]
+    k = max(1, math.ceil(round(share * n, 9)))  # round: 0.1 * 30 is 3.0000000000000004
+    worst = np.partition(values, n - k, axis=axis)
+    return np.take(worst, np.arange(n - k, n), axis=axis).mean(axis=axis)
+
+
+def objective_cost(values: np.ndarray, objective: str, axis: int = 0) -> np.ndarray:
+    """What ``objective`` makes of season costs along ``axis``: their mean (``"mean"``), 95th
+    percentile (``"p95"``, numpy's default linear interpolation, as :func:`distribution`) or
+    expected shortfall over the worst 10% (``"shortfall10"``, :func:`shortfall`)."""
+    values = np.asarray(values, dtype=np.float64)
+    if objective == "mean":
+        return values.mean(axis=axis)
+    if objective == "p95":
+        return np.quantile(values, QUANTILES[2], axis=axis)
+    if objective == "shortfall10":
+        return shortfall(values, axis=axis)
+    raise ValueError(f"unknown objective {objective!r}; expected one of {OBJECTIVES}")
+
+
+def season_cost_columns(model_cost: np.ndarray) -> dict[str, np.ndarray]:
+    """Per-cutoff season cost over the replicates, each (n_cutoffs,): ``mean_cost``, ``p05_cost``,
+    ``p50_cost``, ``p95_cost`` and ``shortfall10_cost`` (:func:`shortfall`). These are the columns
+    of ``cutoffs.csv`` and the numbers every objective chooses by (:data:`OBJECTIVE_COLUMN`)."""
+    # along contiguous rows: the same values, faster than down the columns
+    by_cutoff = np.ascontiguousarray(model_cost.T)
+    p05, p50, p95 = np.quantile(by_cutoff, QUANTILES, axis=1)
+    return {"mean_cost": model_cost.mean(axis=0), "p05_cost": p05, "p50_cost": p50, "p95_cost": p95,
+            "shortfall10_cost": shortfall(by_cutoff, axis=1)}
+
+
 def per_cutoff(model_cost: np.ndarray, reference_cost: np.ndarray) -> dict[str, np.ndarray]:
-    """Per-cutoff season cost distribution and savings against the reference, each (n_cutoffs,)."""
-    # quantiles along contiguous rows: the same values, faster than down the columns
-    p05, p50, p95 = np.quantile(np.ascontiguousarray(model_cost.T), QUANTILES, axis=1)
+    """Per-cutoff season cost distribution (:func:`season_cost_columns`) and savings against the
+    reference, each (n_cutoffs,)."""
     savings = reference_cost[:, None] - model_cost
     saves = cheaper(model_cost, reference_cost[:, None])
-    return {"mean_cost": model_cost.mean(axis=0), "p05_cost": p05, "p50_cost": p50, "p95_cost": p95,
-            "mean_savings": savings.mean(axis=0), "prob_saving": saves.mean(axis=0)}
+    return {**season_cost_columns(model_cost), "mean_savings": savings.mean(axis=0),
+            "prob_saving": saves.mean(axis=0)}
 
 
 def decide(model_cost: np.ndarray, reference_cost: np.ndarray, cutoffs: np.ndarray,
-           seasons_per_history: int, rng: np.random.Generator) -> Decision:
-    """Choose the cutoff with the lowest mean season cost and describe how sure that choice is.
+           seasons_per_history: int, rng: np.random.Generator, objective: str = "mean") -> Decision:
+    """Choose the cutoff by ``objective`` (the lowest mean season cost by default) and describe how
+    sure that choice is.
 
     Parameters
     ----------
@@ -113,33 +168,49 @@ def decide(model_cost: np.ndarray, reference_cost: np.ndarray, cutoffs: np.ndarr
     reference_cost : (n_replicates,) season costs of the reference strategy on the same replicates.
     cutoffs : (n_cutoffs,) ascending.
     seasons_per_history : how many seasons the evaluated history holds; the interval of the
-        recommended cutoff is the 5th to 95th percentile of the cost-minimising cutoff over
+        recommended cutoff is the 5th to 95th percentile of the cutoff the objective chooses over
         :data:`N_HISTORIES` bootstrap histories of that many replicate seasons (drawn with
         replacement from the replicates).
     rng : generator for the bootstrap histories.
+    objective : one of :data:`OBJECTIVES`: the lowest ``"mean"`` season cost, the lowest 95th
+        percentile (``"p95"``: a budget that holds in 19 seasons of 20), or the lowest expected
+        shortfall over the worst 10% of seasons (``"shortfall10"``, :func:`shortfall`).
 
     Money is compared with :func:`cheaper` and :func:`lowest`: sums closer than
     :func:`money_tolerance` are equal. So ties go to the lowest cutoff, and a cutoff that acts as
     the reference rule does (0.00 under ``always_act``, cutoffs above every probability under
-    ``never_act``) is no saving. ``break_even`` holds the cutoffs strictly cheaper than the reference
-    on average, ``confident_break_even`` those strictly cheaper in at least :data:`CONFIDENT` of the
-    seasons. The near-optimal band is the run of cutoffs around the recommended one whose mean cost
-    is within :data:`NEAR_OPTIMAL` of the lowest (relative to its magnitude).
+    ``never_act``) is no saving. Everything below follows the objective, with its value in place of
+    the mean: ``break_even`` holds the cutoffs strictly cheaper than the reference by it (on
+    average, for the mean), the near-optimal band is the run of cutoffs around the recommended one
+    whose value is within :data:`NEAR_OPTIMAL` of the lowest (relative to its magnitude), and a
+    bootstrap history chooses by the objective over its own seasons. ``confident_break_even``
+    holds the cutoffs strictly cheaper than the reference in at least :data:`CONFIDENT` of the
+    seasons, whatever the objective. ``choices`` gives the cutoff index every objective would choose.
     """
+    if objective not in OBJECTIVES:
+        raise ValueError(f"unknown objective {objective!r}; expected one of {OBJECTIVES}")
     tolerance = money_tolerance(model_cost, reference_cost)
-    mean = model_cost.mean(axis=0)
-    best = int(lowest(mean, tolerance))
+    columns = season_cost_columns(model_cost)
+    choices = {name: int(lowest(columns[OBJECTIVE_COLUMN[name]], tolerance)) for name in OBJECTIVES}
+    score = columns[OBJECTIVE_COLUMN[objective]]
+    best = choices[objective]
     n_rep = model_cost.shape[0]
     n_seasons = max(1, seasons_per_history)
     picks = rng.integers(0, n_rep, size=(N_HISTORIES, n_seasons))
-    history_cost = model_cost[picks].sum(axis=1)  # (N_HISTORIES, n_cutoffs)
-    chosen = cutoffs[lowest(history_cost, tolerance * n_seasons)]
+    if objective == "mean":
+        history_cost = model_cost[picks].sum(axis=1)  # (N_HISTORIES, n_cutoffs)
+        chosen = cutoffs[lowest(history_cost, tolerance * n_seasons)]
+    else:  # the objective over each history's own seasons, a chunk of histories at a time
+        chosen = np.concatenate([
+            cutoffs[lowest(objective_cost(model_cost[picks[i:i + _HISTORY_CHUNK]], objective, axis=1),
+                           tolerance)]
+            for i in range(0, N_HISTORIES, _HISTORY_CHUNK)])
     lo, hi = np.quantile(chosen, [0.05, 0.95], method="inverted_cdf")
 
-    near = mean <= mean[best] + NEAR_OPTIMAL * abs(mean[best])
+    near = score <= score[best] + NEAR_OPTIMAL * abs(score[best])
     band = next(r for r in cutoff_ranges(near, cutoffs) if r[0] <= cutoffs[best] <= r[1])
 
-    break_even = cutoff_ranges(cheaper(mean, reference_cost.mean(), tolerance), cutoffs)
+    break_even = cutoff_ranges(cheaper(score, objective_cost(reference_cost, objective), tolerance), cutoffs)
     cheaper_share = cheaper(model_cost, reference_cost[:, None], tolerance).mean(axis=0)
     confident = cutoff_ranges(cheaper_share >= CONFIDENT, cutoffs)
 
@@ -148,4 +219,5 @@ def decide(model_cost: np.ndarray, reference_cost: np.ndarray, cutoffs: np.ndarr
     return Decision(recommended_index=best, recommended_cutoff=float(cutoffs[best]),
                     recommended_cutoff_interval=(float(lo), float(hi)), near_optimal_band=band,
                     break_even=break_even, confident_break_even=confident,
-                    savings=distribution(savings), prob_saving=float(saves.mean()))
+                    savings=distribution(savings), prob_saving=float(saves.mean()),
+                    objective=objective, choices=choices)

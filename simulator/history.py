@@ -20,7 +20,7 @@ import pandas as pd
 
 from . import decimals
 from .dates import parse_dates
-from .errors import InputError, closest, did_you_mean, excerpt
+from .errors import InputError, closest, did_you_mean, excerpt, quoted
 from .scenario import WEEKDAYS, HistorySection, Scenario, SeasonSection
 from .sheets import read_table
 
@@ -67,6 +67,17 @@ class History:
     site: np.ndarray | None = None  # int64 (n_rows,), an index into site_names; None: one site
     site_names: tuple[str, ...] = ()
     read_as: str = ""  # how the file was read ("CSV, semicolon-separated, ..."); empty for a frame
+    # with [forecasts] of two or more: every forecast's probabilities (after flip), the main one
+    # (``p``) first, each (n_rows,); rows where one is missing hold 0 and are not evaluated
+    forecast_p: tuple[np.ndarray, ...] = ()
+    forecast_names: tuple[str, ...] = ()
+
+    def with_forecast(self, index: int) -> "History":
+        """This history with forecast ``index`` (its position in ``forecast_names``) as ``p``: the
+        same rows, outcomes and periods, so every forecast is priced on the same occasions."""
+        if index == 0:
+            return self
+        return dataclasses.replace(self, p=self.forecast_p[index])
 
     @property
     def n_rows(self) -> int:
@@ -306,9 +317,15 @@ def history_from_frame(frame: pd.DataFrame, scenario: Scenario, *, label: str = 
                          "names separated by commas)")
     for role, name in required:
         if name not in columns:
+            if scenario.forecasts and role == "probability":
+                continue  # named under [forecasts]: checked below
             raise InputError(f'{label}: no column "{name}" (the {role}){did_you_mean(name, columns)}; '
                              f"name it in the scenario's [history] {role}_column (gonogo init writes a scenario that "
                              "names the columns it finds)")
+    for forecast, name in scenario.forecast_columns if scenario.forecasts else ():
+        if name not in columns:
+            raise InputError(f"{label}: no column {quoted(name)} (the forecast {quoted(forecast)})"
+                             f"{did_you_mean(name, columns)}; name it in the scenario's [forecasts]")
 
     codes, site_names = None, ()
     if spec.site_column is not None:
@@ -316,17 +333,20 @@ def history_from_frame(frame: pd.DataFrame, scenario: Scenario, *, label: str = 
         _check_site_tables(scenario, site_names, label, spec.site_column)
     dates = parse_dates(frame[spec.date_column], spec.date_format, where, spec.date_column)
     _check_order(dates, where, spec.date_column, codes, site_names)
-    p = _parse_probability(frame[spec.probability_column], where, spec.probability_column)
+    forecasts, present, dropped = _parse_forecasts(frame, scenario, where)
+    p = forecasts[0]
     event, defined = _parse_outcome(frame, spec, where, codes)
     first_of_site = np.zeros(len(frame), dtype=bool)
     first_of_site[0] = True
     if codes is not None:  # group the rows by site, keeping each site's rows in file (= date) order
         order = np.argsort(codes, kind="stable")
         codes, dates, p, event, defined = codes[order], dates[order], p[order], event[order], defined[order]
+        forecasts, present = [f[order] for f in forecasts], present[order]
         first_of_site[1:] = codes[1:] != codes[:-1]
 
     if scenario.event.flip:
         p = decimals.complement(p)  # exact: the complement of 0.56 is 0.44 (see decimals.py)
+        forecasts = [decimals.complement(f) for f in forecasts]
         event = ~event
 
     site_rows = ([np.ones(len(dates), dtype=bool)] if codes is None
@@ -342,7 +362,7 @@ def history_from_frame(frame: pd.DataFrame, scenario: Scenario, *, label: str = 
                          f"{frequency.describe()} only, none on {', '.join(season_rule.weekdays)}; "
                          "choose weekdays it has rows on")
     season, day_of_season, in_season = _season_labels(dates, season_rule)
-    evaluated = in_season & defined
+    evaluated = in_season & defined & present
     if not evaluated.any():
         raise InputError(f"{label}: no occasion falls in the season (months {list(season_rule.months)}, "
                          f"weekdays {list(season_rule.weekdays)}); check [season]")
@@ -375,14 +395,42 @@ def history_from_frame(frame: pd.DataFrame, scenario: Scenario, *, label: str = 
 
     prev_event = np.concatenate([[False], event[:-1]]) & ~first_of_site
     union = np.unique(dates[evaluated])  # the dates of the season that any site has
-    warnings = _gap_warnings(union, season_rule, frequency, label)
+    warnings = _gap_warnings(np.unique(dates[in_season & defined]), season_rule, frequency, label)
+    if dropped:
+        warnings.insert(0, f'{label}: {dropped} row{"s" if dropped > 1 else ""} left out because a forecast '
+                        f'has no probability there ([history] missing_forecast = "drop_row"); every '
+                        f"forecast is evaluated on the {int(evaluated.sum())} occasions where all have one")
     if codes is not None:
         warnings += _missing_site_dates(union, [dates[evaluated & rows] for rows in site_rows],
                                         site_names, label)
+    several = len(scenario.forecasts) > 1
     return History(label=label, sha256=sha256, dates=dates, p=p, event=event, evaluated=evaluated,
                    validation=validation, season=season, day_of_season=day_of_season,
                    prev_event=prev_event, frequency=frequency, warnings=tuple(warnings),
-                   site=codes, site_names=tuple(site_names))
+                   site=codes, site_names=tuple(site_names),
+                   forecast_p=tuple(forecasts) if several else (),
+                   forecast_names=tuple(scenario.forecasts) if several else ())
+
+
+def _parse_forecasts(frame: pd.DataFrame, scenario: Scenario,
+                     where: "_Where") -> tuple[list[np.ndarray], np.ndarray, int]:
+    """Every forecast's probabilities (before flip), the main one first; whether all are present on
+    each row; and how many rows ``missing_forecast = "drop_row"`` leaves out (they hold 0)."""
+    columns = [column for _, column in scenario.forecast_columns]
+    present = np.ones(len(frame), dtype=bool)
+    if scenario.history.missing_forecast == "drop_row":
+        for column in dict.fromkeys(columns):
+            present &= ~_blank(frame[column])
+    keep = frame if present.all() else frame[present]
+    forecasts = []
+    for column in columns:
+        values = np.zeros(len(frame))
+        # rows are named by their place in the file whichever rows are left out
+        values[present] = _parse_probability(
+            keep[column], dataclasses.replace(where, kept=np.flatnonzero(present)), column,
+            ' or set [history] missing_forecast = "drop_row"' if len(columns) > 1 else "")
+        forecasts.append(values)
+    return forecasts, present, int((~present).sum())
 
 
 def _frequency_of_sites(dates: np.ndarray, site_rows: list[np.ndarray], names: tuple[str, ...],
@@ -451,9 +499,10 @@ def _check_site_tables(scenario: Scenario, names: tuple[str, ...], label: str, c
 class _Where:
     label: str
     first_row: int
+    kept: np.ndarray | None = None  # positions in the frame of the rows being read, when not all
 
     def row(self, index: int) -> int:
-        return int(index) + self.first_row
+        return int(index if self.kept is None else self.kept[index]) + self.first_row
 
     def error(self, index: int, column: str, message: str) -> InputError:
         return InputError(f'{self.label} row {self.row(index)}, column "{column}": {message}')
@@ -517,8 +566,8 @@ def _parse_numbers(values: pd.Series, where: _Where, column: str, missing: str, 
     return numbers
 
 
-def _parse_probability(values: pd.Series, where: _Where, column: str) -> np.ndarray:
-    numbers = _parse_numbers(values, where, column, "the probability is missing; fill it in (0 to 1)",
+def _parse_probability(values: pd.Series, where: _Where, column: str, or_else: str = "") -> np.ndarray:
+    numbers = _parse_numbers(values, where, column, f"the probability is missing; fill it in (0 to 1){or_else}",
                              "; write a probability from 0 to 1")
     numbers = decimals.snap(numbers)  # kept as 12-decimal values, the grid every comparison uses
     outside = (numbers < 0) | (numbers > 1)

@@ -22,10 +22,13 @@ import pandas as pd
 from . import __version__
 from .account import account
 from .datapackage import datapackage
+from .cautions import cautions
+from .decision import distribution
 from .result_set import check_out_folder, write_files
 from .run import RunResult
 from .selection import Calibration, Selection
 from .stress import StressResult
+from .verdict import Verdict
 
 __all__ = ["summary", "render_files", "write_files", "check_out_folder", "SCHEMA"]
 
@@ -49,7 +52,14 @@ def _clean(value: Any) -> Any:
 
 
 def summary(result: RunResult) -> dict[str, Any]:
-    """The contents of ``summary.json`` (schema 1)."""
+    """The contents of ``summary.json`` (schema 1).
+
+    Among its keys: ``cautions``, every caution of the run as a list of strings (the hazard's
+    first, the general one, the operating rules'); ``verdict`` (:func:`_verdict_entry`); with
+    ``[event] hazard = true``, ``events_without_action``: event occasions a season leaves without
+    action at the recommended ``cutoff`` (all sites together), mean, p05, p50, p95 over the
+    replicate seasons.
+    """
     scenario, history, decision = result.scenario, result.history, result.decision
     row = result.recommended_counts
     strategies = {name: d.as_dict() for name, d in result.strategies.items()}
@@ -78,18 +88,25 @@ def summary(result: RunResult) -> dict[str, Any]:
         "mean_block_days": result.mean_block_days,
         "reference": result.reference,
         "theoretical_cutoff": result.theoretical_cutoff,
+        "objective": decision.objective,
         "recommended_cutoff": decision.recommended_cutoff,
         "recommended_cutoff_interval": decision.recommended_cutoff_interval,
         "near_optimal_band": decision.near_optimal_band,
         "break_even": decision.break_even,
         "confident_break_even": decision.confident_break_even,
+        "objectives": _objectives_entry(result),
         "relative_value": row["relative_value"],
         "strategies": strategies,
         "savings": {"mean": decision.savings.mean, "p05": decision.savings.p05,
                     "p95": decision.savings.p95, "prob_saving": decision.prob_saving},
         "recommended": recommended,
         "warnings": [_file_names_only(w, result) for w in result.warnings],
+        "cautions": list(cautions(scenario, rules=any(s.scenario.operations is not None for s in result.sites)
+                                  or scenario.operations is not None)),
     }
+    if result.events_without_action is not None:  # [event] hazard = true
+        out["events_without_action"] = {"cutoff": decision.recommended_cutoff,
+                                        **distribution(result.events_without_action).as_dict()}
     if result.operations is not None:  # only with [operations]: components, completion, safety stop
         out["operations"] = result.operations.summary(decision.recommended_index)
     if result.stress is not None:  # [[stress]] cases, in scenario order
@@ -100,6 +117,10 @@ def summary(result: RunResult) -> dict[str, Any]:
         out["selection"] = _selection_entry(result.selection)
     if result.portfolio is not None:  # a site column: the run's numbers above are the portfolio's
         out["portfolio"] = _portfolio_entry(result)
+    if result.verdict is not None:  # whether to act on the forecast at all (simulator.verdict)
+        out["verdict"] = _verdict_entry(result.verdict, scenario.currency)
+    if result.comparison is not None:  # two or more [forecasts]: "forecasts" and "forecast_pairs"
+        out.update(result.comparison.summary())
     out = _clean(out)
     out["account"] = [finding.as_dict() for finding in account(out).findings]
     return out
@@ -112,6 +133,25 @@ def _file_names_only(text: str, result: RunResult) -> str:
         if path and str(path) != Path(path).name:
             text = text.replace(str(path), Path(path).name)
     return text
+
+
+def _verdict_entry(v: Verdict, currency: str) -> dict[str, Any]:
+    """The ``verdict`` block: ``use_forecast``, ``best_rule_without_forecast``,
+    ``saving_against_best_rule`` (per season, out of sample: mean, p05 and p95 of its 90% interval,
+    prob_saving the confidence that it is above zero) and ``reason``, one plain sentence."""
+    return {"use_forecast": v.use_forecast, "best_rule_without_forecast": v.best_rule,
+            "saving_against_best_rule": {"mean": v.mean, "p05": v.p05, "p95": v.p95,
+                                         "prob_saving": v.prob_saving},
+            "reason": v.reason(currency)}
+def _objectives_entry(result: RunResult) -> dict[str, dict[str, float]]:
+    """The cutoff each objective would choose (``decision.choices``), with that cutoff's mean, 95th
+    percentile and expected shortfall over the worst 10% of season costs (``cutoffs.csv`` columns),
+    so the cost of the risk view on average can be read beside the mean's choice."""
+    table = result.table
+    return {name: {"cutoff": float(table["cutoff"].iat[index]),
+                   **{column: float(table[column].iat[index])
+                      for column in ("mean_cost", "p95_cost", "shortfall10_cost")}}
+            for name, index in result.decision.choices.items()}
 
 
 def render_files(result: RunResult) -> dict[str, bytes]:
@@ -128,6 +168,7 @@ def render_files(result: RunResult) -> dict[str, bytes]:
         "calibration.csv": lambda: _csv(result.calibration.table),
         "selection.csv": lambda: _csv(_selection_frame(result.selection)),
         "sites.csv": lambda: _csv(result.portfolio.table),
+        "forecasts.csv": lambda: _csv(result.comparison.table()),
     }
     scenario = result.scenario
     render["datapackage.json"] = lambda: datapackage(files, scenario.slug, scenario.name, scenario.currency)
@@ -150,6 +191,8 @@ def table_names(result: RunResult) -> list[str]:
         names.append("selection.csv")
     if result.portfolio is not None:
         names.append("sites.csv")
+    if result.comparison is not None:
+        names.append("forecasts.csv")
     names.append("datapackage.json")  # describes the CSV files above, so it comes after them
     return names
 

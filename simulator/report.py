@@ -20,6 +20,7 @@ import json
 import math
 import re
 from collections.abc import Mapping
+from functools import partial
 from pathlib import Path
 from typing import Any
 
@@ -27,8 +28,12 @@ import jinja2
 import numpy as np
 
 from . import __version__, figures
-from .account import (cutoff_decimals, account, cutoff_text, format_value, money, money_exact, rate, ranges_text,
-                      season_name, seasons_text, share, short_label, signed_money, strategy_label)
+from .account import (OBJECTIVE_WORDS, account, bad_season, cutoff_decimals, cutoff_text, format_value, money,
+                      money_exact, rate, ranges_text, season_name, seasons_text, share, short_label, signed_money,
+                      strategy_label)
+from .cautions import GENERAL
+from .decision import OBJECTIVE_NAMES
+from .verdict import RULE_WORDS
 from .figures import Words
 from .scenario import BASELINES
 from .scenario import WEEKDAYS
@@ -36,9 +41,7 @@ from .scenario import WEEKDAYS
 __all__ = ["render_report", "headline_numbers", "recommendation", "format_value", "money", "share",
            "cutoff_text", "strategy_label", "FIELD_FORMATS", "CAUTION"]
 
-CAUTION = ("A cost-optimal cutoff does not replace safety rules, site risk assessments, local regulations "
-           "or licensed professional judgement. The numbers price money only; they do not weigh harm "
-           "to people.")
+CAUTION = GENERAL  # the general caution (simulator.cautions); summary["cautions"] lists every one of a run
 
 # how each cutoffs.csv column the explorer shows is written on the page
 FIELD_FORMATS = {"cutoff": "cutoff", "hits": "count", "false_alarms": "count", "misses": "count",
@@ -53,6 +56,7 @@ FILE_NOTES = {"summary.json": " (every headline number, full precision)", "cutof
               "selection.csv": " (the cutoff chosen on earlier periods, priced on later ones)",
               "stress.csv": " (every stress case)", "sites.csv": " (each site at its own cutoff)",
               "calibration.csv": " (the recalibration curve)",
+              "forecasts.csv": " (each forecast at every cutoff, on the same replicate seasons)",
               "datapackage.json": " (what every column of the CSV files means, with its unit)"}
 
 _ENV = jinja2.Environment(loader=jinja2.PackageLoader("simulator", "templates"),
@@ -129,6 +133,11 @@ def _plain(value: Any) -> Any:
     if isinstance(value, float) and not math.isfinite(value):
         return None
     return value
+
+
+def _png_size(png: bytes) -> tuple[int, int]:
+    """Width and height in pixels, from the IHDR chunk (PNG specification, W3C/ISO 15948, 11.2.2)."""
+    return int.from_bytes(png[16:20], "big"), int.from_bytes(png[20:24], "big")
 
 
 def _data_uri(png: bytes) -> str:
@@ -211,6 +220,7 @@ def _stress_cases(summary: Mapping[str, Any], currency: str, decimals: int) -> l
     rows = [{"name": "As in the history (base case)", "mean": model["mean"], "p05": model["p05"],
              "p95": model["p95"], "best_mean": model["mean"], "extra": "\u2013",
              "reference": money(summary["strategies"][ref]["mean"], currency),
+             "reference_mean": summary["strategies"][ref]["mean"],
              "saving": money(summary["savings"]["mean"], currency), "prob_saving": share(summary["savings"]["prob_saving"]),
              "best": cutoff_text(summary["recommended_cutoff"], decimals), "moving": "\u2013", "headline": ""}]
     for case in summary["stress"]:
@@ -224,6 +234,7 @@ def _stress_cases(summary: Mapping[str, Any], currency: str, decimals: int) -> l
             rows.append({"name": name, "mean": m["mean"], "p05": m["p05"], "p95": m["p95"],
                          "best_mean": v["best_cost"]["mean"], "extra": signed_money(v["extra_cost"], currency),
                          "reference": money(v["strategies"][ref]["mean"], currency),
+                         "reference_mean": v["strategies"][ref]["mean"],
                          "saving": money(v["savings"]["mean"], currency),
                          "prob_saving": share(v["savings"]["prob_saving"]),
                          "best": cutoff_text(v["best_cutoff"], decimals),
@@ -238,8 +249,26 @@ def _component_name(key: str) -> str:
     return key.removesuffix("_cost").replace("_", " ").capitalize()
 
 
-def _operations(summary: Mapping[str, Any], currency: str) -> dict[str, Any] | None:
-    """The operating rules' results at the recommended cutoff (``summary["operations"]``) for display."""
+def _day_meanings(rules) -> dict[str, str]:
+    """What each day count of the operating rules (``operations.COUNTS``) counts, in plain words."""
+    standby = getattr(rules, "max_standby_days", None)
+    return {
+        "days_out": "Regular working days the crews went out.",
+        "spoiled_days": "Of those, the days spoiled: the day's work lost (wholly or in part) and spoilage paid.",
+        "standby_days": "Regular working days the crews were stood down while work was left.",
+        "overtime_days": "Overtime days worked to catch up with the work left.",
+        "spoiled_overtime_days": "Of those, the overtime days spoiled.",
+        "retention_days": ("Days the crews went out whatever the forecast, only because they had been stood down "
+                           + (f"{standby} days in a row" if standby else "too many days in a row")
+                           + " (the retention rule, max standby days in the assumptions)."),
+        "safety_stop_days": ("Working days the safety stop kept the crews in when the forecast or the retention "
+                             "rule would have sent them out."),
+    }
+
+
+def _operations(summary: Mapping[str, Any], currency: str, rules=None) -> dict[str, Any] | None:
+    """The operating rules' results at the recommended cutoff (``summary["operations"]``) for display;
+    ``rules`` (the scenario's ``[operations]``) words the explanation of each day count."""
     ops = summary.get("operations")
     if not ops:
         return None
@@ -249,7 +278,9 @@ def _operations(summary: Mapping[str, Any], currency: str) -> dict[str, Any] | N
     parts = [(key, value) for key, value in at["mean_components"].items() if key != "total_cost"]
     dates = at.get("completion_date") or {}
     late = at.get("days_late") or {}
-    days = [(k.replace("_", " ").capitalize(), f"{v:,.1f}") for k, v in (at.get("mean_days") or {}).items()]
+    meanings = _day_meanings(rules)
+    days = [(k.replace("_", " ").capitalize(), f"{v:,.1f}", meanings.get(k, ""))
+            for k, v in (at.get("mean_days") or {}).items()]
     return {
         "components": [(_component_name(k), money(v, currency), money(ref_parts.get(k), currency))
                        for k, v in parts],
@@ -263,7 +294,7 @@ def _operations(summary: Mapping[str, Any], currency: str) -> dict[str, Any] | N
         "late_mean": f"{late.get('mean', float('nan')):.1f}", "late_p95": f"{late.get('p95', float('nan')):.0f}",
         "deadline": ops.get("deadline"), "crews": ops.get("crews"), "work": ops.get("work_crew_days"),
         "working_days": ops.get("working_days"), "overtime_days": ops.get("overtime_days_available"),
-        "days": days, "caution": ops.get("caution", ""),
+        "days": days,
     }
 
 
@@ -335,6 +366,18 @@ def _rules_read_back(scenario) -> list[tuple[str, list[tuple[str, str]]]]:
         rows.append((f"Stress case \u201c{case.name}\u201d",
                      [(k, v) for k, v in _read_back(case, *words) if k != "name"]))
     return rows
+
+
+PHONE_MEDIA = "screen and (max-width: 600px)"  # where the page shows the figures' narrow layout
+
+
+def _zoomed(chart: figures.Chart, cutoffs: np.ndarray, decimals: int) -> dict[str, str] | None:
+    """The cutoffs the cost chart shows, when that is not the whole grid, for its caption."""
+    g = chart.geometry
+    if math.isclose(g["xmin"], float(cutoffs[0])) and math.isclose(g["xmax"], float(cutoffs[-1])):
+        return None
+    return {"lo": cutoff_text(g["xmin"], decimals), "hi": cutoff_text(g["xmax"], decimals),
+            "first": cutoff_text(float(cutoffs[0]), decimals), "last": cutoff_text(float(cutoffs[-1]), decimals)}
 
 
 PORTFOLIO_ROWS = 25  # sites the report's ranking shows; sites.csv has them all
@@ -411,37 +454,51 @@ def render_report(result, summary: Mapping[str, Any]) -> dict[str, bytes]:
 
     crossings = sorted({x for lo, hi in decision.break_even for x in (lo, hi)
                         if x not in (float(result.cutoffs[0]), float(result.cutoffs[-1]))})
-    charts = {
-        "season_cost": figures.cost_chart(
-            result.cutoffs, table["mean_cost"].to_numpy(), table["p05_cost"].to_numpy(),
+    draw = {
+        "season_cost": partial(
+            figures.cost_chart, result.cutoffs, table["mean_cost"].to_numpy(), table["p05_cost"].to_numpy(),
             table["p95_cost"].to_numpy(), {k: float(v.mean()) for k, v in result.baseline_cost.items()},
-            decision.recommended_cutoff, result.theoretical_cutoff, crossings, words),
-        "savings": figures.savings_chart(savings, ref_label, words),
-        "reliability": figures.reliability_chart(
+            decision.recommended_cutoff, result.theoretical_cutoff, crossings, words,
+            focus=(*decision.recommended_cutoff_interval, *decision.near_optimal_band)),
+        "savings": partial(figures.savings_chart, savings, ref_label, words),
+        "reliability": partial(
+            figures.reliability_chart,
             *(result.reliability[c].to_numpy() for c in ("forecast_mean", "observed_frequency", "n",
                                                          "bin_lower", "bin_upper")),
             result.quality["event_rate"], words),
-        "roc": figures.roc_chart(table["false_alarm_rate"].to_numpy(), table["hit_rate"].to_numpy(),
-                                 (row["false_alarm_rate"], row["hit_rate"]), decision.recommended_cutoff,
-                                 result.quality["roc_auc"], words),
-        "relative_value": figures.value_chart(
-            result.value_curve["cost_loss_ratio"].to_numpy(), result.value_curve["potential_value"].to_numpy(),
+        "roc": partial(figures.roc_chart, table["false_alarm_rate"].to_numpy(), table["hit_rate"].to_numpy(),
+                       (row["false_alarm_rate"], row["hit_rate"]), decision.recommended_cutoff,
+                       result.quality["roc_auc"], words),
+        "relative_value": partial(
+            figures.value_chart, result.value_curve["cost_loss_ratio"].to_numpy(),
+            result.value_curve["potential_value"].to_numpy(),
             result.value_curve["value_at_cutoff_equal_to_ratio"].to_numpy(), result.theoretical_cutoff,
             float(row["relative_value"]), words),
     }
+    tail, column = bad_season(decision.objective)
+    chosen_by = account(summary).get("objective")
+    risk = {"tail_what": OBJECTIVE_NAMES[tail], "objective_what": OBJECTIVE_NAMES[decision.objective],
+            # said once: in the recommendation when a risk objective chose, else here
+            "paragraph": chosen_by.sentence if chosen_by is not None and not chosen_by.first else ""}
+    draw["risk"] = partial(
+        figures.risk_chart, result.cutoffs, table["mean_cost"].to_numpy(), table[column].to_numpy(),
+        OBJECTIVE_NAMES[tail].capitalize(), decision.choices,
+        {name: w["name"] for name, w in OBJECTIVE_WORDS.items()}, decision.objective, words)
     stress = _stress_cases(summary, currency, decimals)
     if stress:
-        charts["stress"] = figures.stress_chart([c["name"] for c in stress], [c["mean"] for c in stress],
-                                                [c["p05"] for c in stress], [c["p95"] for c in stress],
-                                                [c["best_mean"] for c in stress], words)
-    operations = _operations(summary, currency)
+        draw["stress"] = partial(figures.stress_chart, [c["name"] for c in stress], [c["mean"] for c in stress],
+                                 [c["p05"] for c in stress], [c["p95"] for c in stress],
+                                 [c["best_mean"] for c in stress], [c["reference_mean"] for c in stress], words)
+    operations = _operations(summary, currency, getattr(scenario, "operations", None))
     if operations and operations["values"]:
-        charts["operations_costs"] = figures.components_chart(
-            operations["names"], operations["values"], operations["reference_values"], words)
+        draw["operations_costs"] = partial(figures.components_chart, operations["names"], operations["values"],
+                                           operations["reference_values"], words)
     by_day = _completion_by_day(result) if operations else None
     if by_day is not None:
-        charts["completion"] = figures.completion_chart(*by_day, operations["deadline"], words,
-                                                        reference_label=short_label(result.reference, action, occasion))
+        draw["completion"] = partial(figures.completion_chart, *by_day, operations["deadline"], words,
+                                     reference_label=short_label(result.reference, action, occasion))
+    charts = {name: chart() for name, chart in draw.items()}
+    phone = {name: chart(narrow=True) for name, chart in draw.items()}
 
     months = list(scenario.season.months)
     honest = (summary.get("selection") or {}).get("validation")
@@ -451,19 +508,23 @@ def render_report(result, summary: Mapping[str, Any]) -> dict[str, bytes]:
                    for label, r in (("Training", honest["training"]), ("Validation", honest["validation"]))]
     short = dict(words.labels, model=f"Follow the forecast at {cutoff_text(decision.recommended_cutoff, decimals)}")
     strategies = [{"label": short.get(name, name),
-                   "what": "" if name in ("never_act", "always_act") else strategy_label(name, action, event, occasion),
+                   "what": "" if name in ("never_act", "always_act")
+                   else _sentence_case(strategy_label(name, action, event, occasion)) + ".",
                    "reference": name == result.reference, "model": name == "model",
                    **{k: money(v, currency) for k, v in d.items()},
                    "versus": money(summary["strategies"][result.reference]["mean"] - d["mean"], currency)}
                   for name, d in summary["strategies"].items()]
     explorer = {"recommended": best, "cutoff": [float(c) for c in result.cutoffs],
                 "mean_cost": [float(c) for c in table["mean_cost"]],
-                "geometry": charts["season_cost"].geometry,
+                "geometry": {"wide": charts["season_cost"].geometry, "narrow": phone["season_cost"].geometry},
+                "phone": PHONE_MEDIA,
                 "rows": _explorer_rows(table, currency, decimals)}
     context = {
         "s": summary, "scenario": scenario, "history": history, "words": words, "version": __version__,
         "recommendation": recommendation(summary, occasion, decimals), "numbers": headline_numbers(summary, decimals),
-        "caution": CAUTION, "hazard": scenario.event.hazard, "occasion": occasion,
+        "caution": CAUTION, "cautions": summary["cautions"], "hazard": scenario.event.hazard, "occasion": occasion,
+        "verdict": summary.get("verdict"), "missed": summary.get("events_without_action"),
+        "rule_label": lambda name: _sentence_case(RULE_WORDS[name]),
         "ref_label": ref_label, "Action": _sentence_case(action), "decimals": decimals,
         "cut": lambda v: cutoff_text(v, decimals), "money": lambda v: money(v, currency), "share": share,
         "rate": rate, "ranges": lambda r: ranges_text(r, decimals) or "none",
@@ -471,8 +532,11 @@ def render_report(result, summary: Mapping[str, Any]) -> dict[str, bytes]:
         "money_exact": lambda v: money_exact(v, currency), "file_notes": FILE_NOTES,
         "history_occasion": f"site-{occasion}" if summary.get("portfolio") else occasion,
         "beside": table_names(result),
-        "images": {name: _data_uri(chart.png) for name, chart in charts.items()},
-        "now": explorer["rows"][best], "everything": _matrix(row, "", currency), "periods": periods,
+        "images": {name: {"wide": _data_uri(chart.png), "narrow": _data_uri(phone[name].png),
+                          "wide_size": _png_size(chart.png), "narrow_size": _png_size(phone[name].png)}
+                   for name, chart in charts.items()},
+        "phone": PHONE_MEDIA, "zoomed": _zoomed(charts["season_cost"], result.cutoffs, decimals),
+        "now": explorer["rows"][best], "periods": periods,
         "explorer_json": script_json(explorer), "script_hashes": _CSP_PLACEHOLDER,
         "strategies": strategies, "losing": share(float((savings < 0).mean())),
         "stress": stress, "operations": operations,
@@ -485,6 +549,7 @@ def render_report(result, summary: Mapping[str, Any]) -> dict[str, bytes]:
         "forward": (summary.get("selection") or {}).get("walk_forward"),
         "calibration": summary.get("calibration"),
         "portfolio": _portfolio(summary, currency, decimals),
+        "risk": risk,
     }
     html = _with_content_policy(_ENV.get_template("report.html.j2").render(context))
     files = {"report.html": html.encode("utf-8")}

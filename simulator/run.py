@@ -35,6 +35,7 @@ from .blocklength import optimal_block_length
 from .costs import PricedBlock, SeasonPricer, occasion_costs
 from .decision import Decision, Distribution, decide, distribution
 from .errors import InputError
+from .forecasts import Comparison, compare_forecasts
 from .history import History, read_history
 from .operations import OperationsResult, UserProcess, make_rules
 from .operations_fast import OperationsPricer
@@ -42,10 +43,11 @@ from .parallel import Executor, InlineExecutor, open_executor, prepare
 from .resample import BLOCK, Calendar, Resampler, block_rng, calendar_warnings, n_blocks, season_calendar
 from .scenario import (BASELINES, Scenario, break_even_probability, check_workload, cost_warnings,
                        read_scenario)
-from .scoring import relative_value_from_costs
+from .scoring import cutoff_slots, relative_value_from_costs
 from .selection import Calibration, Selection, calibrate, select_honestly
 from .stress import ReplicatePricer, StressResult, run_stress
 from .tables import cutoff_table, forecast_quality, forecast_scores, history_table, with_replicates
+from .verdict import RULES, SeasonCosts, Verdict, best_rule, judge, season_costs, together
 
 __all__ = ["run", "run_history", "RunResult", "SiteResult", "Portfolio", "Progress", "CHUNK_BLOCKS"]
 
@@ -87,6 +89,10 @@ class SiteResult:
     # single-site run of its rows makes them)
     selection: Selection | None = None
     stress: tuple[StressResult, ...] | None = None
+    # whether this site's forecast is worth using at all (simulator.verdict), on its own seasons,
+    # and those seasons' costs (for the portfolio's verdict)
+    verdict: Verdict | None = None
+    season_costs: SeasonCosts | None = None
 
     @property
     def reference(self) -> str:
@@ -172,6 +178,13 @@ class RunResult:
     selection: Selection | None = None
     # with a site column: every site's own results and the portfolio's
     portfolio: Portfolio | None = None
+    # whether the forecast is worth using at all, judged on seasons it was not chosen on
+    verdict: Verdict | None = None
+    # [event] hazard = true: event occasions of each replicate season (all sites) on which the
+    # forecast does not reach the recommended cutoff, (n_replicates,); None in the calibrated mode
+    events_without_action: np.ndarray | None = None
+    # with two or more [forecasts]: each priced on the same replicates, and every pair compared
+    comparison: Comparison | None = None
 
     @property
     def reference(self) -> str:
@@ -225,7 +238,7 @@ def run(scenario: Scenario | str | Path, history_path: str | Path | None = None,
     if not isinstance(scenario, Scenario):
         scenario = read_scenario(scenario)
     if replicates is not None:
-        check_workload(int(replicates), len(scenario.cutoffs), "--replicates")
+        check_workload(int(replicates), len(scenario.cutoffs), "--replicates", len(scenario.forecasts))
     prepare(workers, cluster)  # worker processes get ready while the history is read
     history = read_history(scenario, history_path)
     return run_history(scenario, history, replicates=replicates, seed=seed, progress=progress,
@@ -248,6 +261,10 @@ def run_history(scenario: Scenario, history: History, *, replicates: int | None 
     cutoffs = scenario.cutoffs
     p_star = break_even_probability(costs)
     calendar = season_calendar(history, scenario.season)
+    n_forecasts = max(1, len(history.forecast_names))
+    if n_forecasts > 1 and sim.mode == "calibrated":
+        raise InputError(f'{_label(scenario)} [simulation] mode: "calibrated" draws the outcomes from one '
+                         'forecast and cannot compare several; use mode = "replay" with [forecasts]')
 
     mean_block = choose_mean_block(history, [scenario], calendar)
     resampler = Resampler(history, calendar, mean_block, sim.window_days)
@@ -257,7 +274,8 @@ def run_history(scenario: Scenario, history: History, *, replicates: int | None 
                          '[operations] yet; use mode = "replay"')
     work = _Work(resampler=resampler, scenarios=(scenario,), cutoffs=cutoffs, seed=seed,
                  replicates=replicates, processes=tuple(processes),
-                 outcome_probability=None if calibration is None else calibration.probability)
+                 outcome_probability=None if calibration is None else calibration.probability,
+                 n_forecasts=n_forecasts)
     try:
         rules = _pricer(work, 0).rules if scenario.operations is not None else None  # checks them
         priced: dict[int, PricedBlock] = {}
@@ -265,7 +283,7 @@ def run_history(scenario: Scenario, history: History, *, replicates: int | None 
             _price_all(work, executor, lambda k, block: priced.__setitem__(k, block), None, progress)
     finally:
         _forget(work)
-    block = priced[0]
+    block, forecast_costs = _forecast_costs(priced[0], n_forecasts)
     model_cost = block.model
     baseline_cost = {name: block.baselines[:, i] for i, name in enumerate(BASELINES)}
     operations = None
@@ -275,7 +293,7 @@ def run_history(scenario: Scenario, history: History, *, replicates: int | None 
 
     seasons_per_history = max(1, round(history.n_evaluated / calendar.n_occasions))
     decision = decide(model_cost, baseline_cost[sim.reference], cutoffs, seasons_per_history,
-                      block_rng(seed, 0, _INTERVAL_STREAM))
+                      block_rng(seed, 0, _INTERVAL_STREAM), scenario.decision.objective)
     table = cutoff_table([(history, costs)], cutoffs, p_star, model_cost, baseline_cost[sim.reference])
     if operations is not None:
         table = _priced_by_rules(pd.concat([table, pd.DataFrame(operations.per_cutoff())], axis=1), baseline_cost)
@@ -296,14 +314,52 @@ def run_history(scenario: Scenario, history: History, *, replicates: int | None 
                                 sim.window_days, seed, replicates,
                                 sim.walk_forward if walk_forward is None else walk_forward,
                                 label=_label(scenario),
-                                rules=scenario if scenario.operations is not None else None)
+                                rules=scenario if scenario.operations is not None else None,
+                                objective=scenario.decision.objective)
+    comparison = None
+    if n_forecasts > 1:
+        def check(own: History):
+            if own is history:  # the main forecast's check is the run's own
+                return None if selection is None else selection.validation
+            if not own.has_validation:
+                return None
+            return select_honestly(own, calendar, cutoffs, costs, sim.reference, mean_block, sim.window_days,
+                                   seed, replicates, False, label=_label(scenario),
+                                   rules=scenario if scenario.operations is not None else None,
+                                   objective=scenario.decision.objective).validation
+
+        comparison = compare_forecasts(
+            history, [model_cost, *forecast_costs], baseline_cost[sim.reference], cutoffs,
+            [column for _, column in scenario.forecast_columns],
+            lambda cost: (decision if cost is model_cost else
+                          decide(cost, baseline_cost[sim.reference], cutoffs, seasons_per_history,
+                                 block_rng(seed, 0, _INTERVAL_STREAM), scenario.decision.objective)),
+            check, main_quality=(quality, value_curve))
+    verdict = judge(season_costs(history, calendar, cutoffs, scenario), calendar.n_occasions,
+                    best_rule({name: float(baseline_cost[name].mean()) for name in RULES}))
+    unprotected = (_events_without_action(work, decision.recommended_index)
+                   if scenario.event.hazard and calibration is None else None)
     return RunResult(scenario=scenario, history=history, calendar=calendar, cutoffs=cutoffs,
                      replicates=replicates, seed=seed, mean_block_days=mean_block * calendar.spacing_days,
                      theoretical_cutoff=p_star, decision=decision, model_cost=model_cost,
                      baseline_cost=baseline_cost, table=table, quality=quality,
                      value_curve=value_curve, reliability=reliability, warnings=warnings,
                      operations=operations, stress=stress, calibration=calibration,
-                     selection=selection)
+                     selection=selection, comparison=comparison, verdict=verdict,
+                     events_without_action=unprotected)
+
+
+_FORECAST_KEY = "forecast_model_cost_"  # extras of a priced block: a later forecast's model costs
+
+
+def _forecast_costs(block: PricedBlock, n_forecasts: int) -> tuple[PricedBlock, list[np.ndarray]]:
+    """The main forecast's priced block, and the model costs of each later forecast priced on the
+    same replicate rows (carried in the block's extras by :func:`_price_task`)."""
+    if n_forecasts == 1:
+        return block, []
+    costs = [block.extras[f"{_FORECAST_KEY}{j}"] for j in range(1, n_forecasts)]
+    extras = {key: value for key, value in block.extras.items() if not key.startswith(_FORECAST_KEY)}
+    return dataclasses.replace(block, extras=extras), costs
 
 
 def _priced_by_rules(table: pd.DataFrame, baseline_cost: dict[str, np.ndarray]) -> pd.DataFrame:
@@ -334,6 +390,9 @@ def _run_sites(scenario: Scenario, history: History, *, replicates: int, seed: i
     """A run with a site column: every site priced on the joint replicates, then the portfolio."""
     sim = scenario.simulation
     label = _label(scenario)
+    if len(scenario.forecasts) > 1:
+        raise InputError(f"{label} [forecasts]: several forecasts cannot be compared over many sites yet; "
+                         "compare them site by site (one history per site, without site_column)")
     if sim.mode == "calibrated":
         raise InputError(f'{label} [simulation] mode: "calibrated" draws each site\'s outcomes on its own '
                          'and would break the sites\' joint weather; use mode = "replay" with a site column')
@@ -380,7 +439,7 @@ def _run_sites(scenario: Scenario, history: History, *, replicates: int, seed: i
     baseline_cost = {name: baseline_matrix[:, i] for i, name in enumerate(BASELINES)}
     seasons_per_history = max(1, round(joint_dates / calendar.n_occasions))
     decision = decide(model_cost, baseline_cost[reference], cutoffs, seasons_per_history,
-                      block_rng(seed, 0, _INTERVAL_STREAM))
+                      block_rng(seed, 0, _INTERVAL_STREAM), scenario.decision.objective)
     (quality, value_curve, reliability), table = scored()
     table = with_replicates(table, model_cost, baseline_cost[reference])
     own_cost = sites[0].model_cost.copy()
@@ -400,12 +459,36 @@ def _run_sites(scenario: Scenario, history: History, *, replicates: int, seed: i
             warnings += site.warnings
     for site in sites:
         warnings += tuple(f'site "{site.name}": {w}' for case in site.stress or () for w in case.warnings)
+    unprotected = _events_without_action(work, common) if scenario.event.hazard else None
+    joint = together([site.season_costs for site in sites])  # one cutoff and one rule for every site
+    verdict = None if joint is None else judge(joint, calendar.n_occasions * len(sites),
+                                               best_rule({name: float(baseline_cost[name].mean()) for name in RULES}))
     return RunResult(scenario=scenario, history=history, calendar=calendar, cutoffs=cutoffs,
                      replicates=replicates, seed=seed, mean_block_days=mean_block * calendar.spacing_days,
                      theoretical_cutoff=p_star, decision=decision, model_cost=model_cost,
                      baseline_cost=baseline_cost, table=table, quality=quality,
                      value_curve=value_curve, reliability=reliability,
-                     warnings=tuple(warnings), portfolio=portfolio)
+                     warnings=tuple(warnings), portfolio=portfolio, events_without_action=unprotected,
+                     verdict=verdict)
+
+
+def _events_without_action(work: "_Work", index: int) -> np.ndarray:
+    """Event occasions of each replicate season on which the probability does not reach cutoff
+    ``index`` (so no action is taken), summed over the sites, (n_replicates,) int64.
+
+    The replicates are drawn again from their seeds (a replicate depends only on the seed and its
+    number), so they are those the run priced.
+    """
+    resampler = work.resampler
+    history = resampler.history
+    missed = []
+    for k in range(resampler.n_sites):
+        own = history.for_site(k)
+        missed.append(own.event & (cutoff_slots(own.p, work.cutoffs) <= index))  # act when slot > index
+    out = []
+    for rows in resampler.blocks(work.seed, work.replicates):
+        out.append(sum(m[resampler.site_rows(rows, k)].sum(axis=1) for k, m in enumerate(missed)))
+    return np.concatenate(out).astype(np.int64)
 
 
 def _checked_sites(work: "_Work", executor: Executor, sites: tuple[SiteResult, ...], check: bool,
@@ -436,7 +519,8 @@ def _check_task(work: "_Work", k: int, decision: Decision, base_mean_cost: float
         selection = select_honestly(history, calendar, work.cutoffs, scenario.costs, sim.reference,
                                     mean_block, sim.window_days, work.seed, work.replicates, walk_forward,
                                     label=f'{label} site "{history.site_names[0]}"',
-                                    rules=scenario if scenario.operations is not None else None)
+                                    rules=scenario if scenario.operations is not None else None,
+                                    objective=scenario.decision.objective)
     if scenario.stress:
         resampler = Resampler(history, calendar, mean_block, sim.window_days)
         stress = run_stress(scenario, history, calendar=calendar, resampler=resampler, cutoffs=work.cutoffs,
@@ -504,7 +588,7 @@ def _site_result(work: "_Work", k: int, block: PricedBlock) -> SiteResult:
     reference = baseline_cost[sim.reference]
     n_occ = work.resampler.calendar.n_occasions
     decision = decide(block.model, reference, cutoffs, max(1, round(history.n_evaluated / n_occ)),
-                      block_rng(work.seed, 0, _INTERVAL_STREAM))
+                      block_rng(work.seed, 0, _INTERVAL_STREAM), scenario.decision.objective)
     table = cutoff_table([(history, costs)], cutoffs, p_star, block.model, reference)
     operations = None
     if scenario.operations is not None:
@@ -514,12 +598,14 @@ def _site_result(work: "_Work", k: int, block: PricedBlock) -> SiteResult:
         operations = result.summary(decision.recommended_index)
     name = history.site_names[0]
     warnings = tuple(f'site "{name}" {w}' for w in cost_warnings(costs, scenario.decision.action))
+    seasons = season_costs(history, work.resampler.calendar, cutoffs, scenario)
+    verdict = judge(seasons, n_occ, best_rule({name: float(cost.mean()) for name, cost in baseline_cost.items()}))
     own_dates = np.unique(history.dates[history.evaluated]).size
     return SiteResult(name=name, scenario=scenario, history=history, theoretical_cutoff=p_star,
                       decision=decision, table=table, quality=forecast_scores(history),
                       model_cost=block.model[:, decision.recommended_index].copy(),
                       baseline_cost=baseline_cost, missing_dates=work.resampler.n_dates - own_dates,
-                      operations=operations, warnings=warnings)
+                      operations=operations, warnings=warnings, verdict=verdict, season_costs=seasons)
 
 
 def _sites_table(sites: Sequence[SiteResult], common: int) -> pd.DataFrame:
@@ -548,6 +634,11 @@ def _sites_table(sites: Sequence[SiteResult], common: int) -> pd.DataFrame:
                "mean_savings": d.savings.mean, "p05_savings": d.savings.p05, "p95_savings": d.savings.p95,
                "prob_saving": d.prob_saving, "forecast_value": value, "value_rank": int(r),
                "mean_cost_at_common_cutoff": _cell(site.table, common, "mean_cost")}
+        if site.verdict is not None:  # simulator.verdict, on the site's own seasons
+            v = site.verdict
+            row.update({"use_forecast": v.use_forecast, "best_rule_without_forecast": v.best_rule,
+                        "saving_against_best_rule_mean": v.mean, "saving_against_best_rule_p05": v.p05,
+                        "saving_against_best_rule_p95": v.p95, "saving_against_best_rule_prob": v.prob_saving})
         check = site.selection.validation if site.selection is not None else None
         if check is not None:
             row.update({"validation_chosen_cutoff": check.chosen_cutoff,
@@ -590,6 +681,7 @@ class _Work:
     replicates: int
     processes: tuple = ()
     outcome_probability: np.ndarray | None = None
+    n_forecasts: int = 1  # [forecasts] priced on the same rows (History.with_forecast), main first
     token: str = field(default_factory=lambda: uuid.uuid4().hex)  # names this run's cached pricers
 
     @property
@@ -599,16 +691,17 @@ class _Work:
         return [(b, min(CHUNK_BLOCKS, total - b)) for b in range(0, total, CHUNK_BLOCKS)]
 
 
-_PRICERS: dict[tuple[str, int], object] = {}  # per process: (run token, site) -> pricer
+_PRICERS: dict[tuple[str, int, int], object] = {}  # per process: (run token, site, forecast) -> pricer
 _MAX_PRICERS = 512
 
 
-def _pricer(work: _Work, k: int):
-    """Site ``k``'s pricer, made once per process and run (cheap to make, not free)."""
-    key = (work.token, k)
+def _pricer(work: _Work, k: int, forecast: int = 0):
+    """Site ``k``'s pricer of forecast ``forecast`` (0: the main one), made once per process and
+    run (cheap to make, not free)."""
+    key = (work.token, k, forecast)
     pricer = _PRICERS.get(key)
     if pricer is None:
-        history = work.resampler.history.for_site(k)
+        history = work.resampler.history.for_site(k).with_forecast(forecast)
         scenario = work.scenarios[k]
         if work.outcome_probability is not None:  # outcomes drawn afresh from recalibrated probabilities
             pricer = ReplicatePricer(history, work.cutoffs, scenario.costs, seed=work.seed,
@@ -659,10 +752,16 @@ def _price_task(work: _Work, first_site: int, last_site: int, chunk: int | None)
     group: list = [None, None, None]  # the whole group being summed: number, model, baselines
     for k in sites:
         pricer = _pricer(work, k)
+        others = [(j, _pricer(work, k, j)) for j in range(1, work.n_forecasts)]
         priced = []
         for i, b in enumerate(blocks):
             own = work.resampler.site_rows(drawn(b) if rows is None else rows[i], k)
-            priced.append(pricer(own, b) if calibrated else pricer(own))
+            block = pricer(own, b) if calibrated else pricer(own)
+            if others:  # every later forecast on the same rows: common random numbers
+                block = dataclasses.replace(block, extras={
+                    **block.extras, **{f"{_FORECAST_KEY}{j}": _later_forecast(other, own, block)
+                                       for j, other in others}})
+            priced.append(block)
         block = _join(priced)
         if chunk is not None:
             out.append(("chunk", k, chunk, block))
@@ -679,6 +778,14 @@ def _price_task(work: _Work, first_site: int, last_site: int, chunk: int | None)
         if k + 1 == min((g + 1) * SUM_GROUP, len(work.scenarios)):
             out.append(("group", *group))
     return out
+
+
+def _later_forecast(pricer, rows: np.ndarray, main: PricedBlock) -> np.ndarray:
+    """A later forecast's season costs at every cutoff on the rows the main forecast's ``main``
+    block was priced on: the baselines' costs are the main's (they do not depend on the forecast)."""
+    if isinstance(pricer, SeasonPricer):
+        return pricer.model_cost(rows, main.baselines)
+    return pricer(rows).model  # the operating rules: every lane played again
 
 
 _MAX_DRAWN_BYTES = 256 * 2**20  # a task keeps its drawn replicate rows for reuse up to this size
@@ -824,7 +931,8 @@ def choose_mean_block(history: History, scenarios: Sequence[Scenario], calendar:
     series of the cost per date: each site (``scenarios`` holds one per site, in site order; one for
     a history without sites) acting at its break-even probability, or, when its costs have none, its
     outcome series, summed over the sites with a row on that date. One run length serves every site,
-    as the runs of dates are shared.
+    as the runs of dates are shared. With several ``[forecasts]`` it is the longest of the lengths
+    each forecast's series gives, so the order they are listed in changes no replicate.
     """
     block_days = scenarios[0].simulation.block_days
     if block_days != "auto":
@@ -832,12 +940,16 @@ def choose_mean_block(history: History, scenarios: Sequence[Scenario], calendar:
     evaluated = history.evaluated
     dates, index = np.unique(history.dates[evaluated], return_inverse=True)
     site = history.site[evaluated] if history.has_sites else np.zeros(index.size, dtype=np.int64)
-    p, event = history.p[evaluated], history.event[evaluated]
-    total = np.zeros(dates.size)
-    for k, scenario in enumerate(scenarios):
-        own = site == k
-        p_star = break_even_probability(scenario.costs)
-        series = (event[own].astype(float) if np.isnan(p_star)
-                  else occasion_costs(decimals.reaches(p[own], p_star), event[own], scenario.costs))
-        total += np.bincount(index[own], weights=series, minlength=dates.size)
-    return max(1.0, float(optimal_block_length(total)))
+    event = history.event[evaluated]
+    lengths = []
+    for j in range(max(1, len(history.forecast_names))):
+        p = history.with_forecast(j).p[evaluated]
+        total = np.zeros(dates.size)
+        for k, scenario in enumerate(scenarios):
+            own = site == k
+            p_star = break_even_probability(scenario.costs)
+            series = (event[own].astype(float) if np.isnan(p_star)
+                      else occasion_costs(decimals.reaches(p[own], p_star), event[own], scenario.costs))
+            total += np.bincount(index[own], weights=series, minlength=dates.size)
+        lengths.append(float(optimal_block_length(total)))
+    return max(1.0, max(lengths))

@@ -56,6 +56,7 @@ MAX_SEASON_DAYS = 366  # a run length, a streak: at most a year of days
 MAX_SEASON_COSTS = 100_000_000  # replicates x cutoffs: the season costs held at once (800 MB as float64)
 YEARS = (1900, 2200)  # seasons a calendar may price
 MAX_HOLIDAYS = 10_000  # dates in a list of holidays
+MAX_FORECASTS = 20  # forecasts compared in one run ([forecasts])
 
 Money = Annotated[float, Field(ge=-MAX_MONEY, le=MAX_MONEY)]  # negative = income
 Price = Annotated[float, Field(ge=0, le=MAX_MONEY)]
@@ -150,6 +151,9 @@ class HistorySection(_Section):
                                  f'{seen[column]} and {key} both name column "{column}"; give each its own column')
             seen[column] = key
         return self
+    # a row where one of the [forecasts] has no probability: refuse the file, or leave the row out
+    # of the evaluation for every forecast (they are compared on the same occasions)
+    missing_forecast: Literal["refuse", "drop_row"] = "refuse"
 
     @model_validator(mode="after")
     def _one_way_to_the_outcome(self):
@@ -185,6 +189,9 @@ class DecisionSection(_Section):
     cutoffs: Annotated[tuple[float, float, float], Field(
         description="three numbers [from, to, step]: 0 <= from < to <= 1 and a step that divides the "
                     "range into whole steps, e.g. [0.0, 1.0, 0.01]")] = (0.0, 1.0, 0.01)
+    # what the cutoff is chosen by: the lowest mean season cost, the lowest 95th percentile, or the
+    # lowest mean of the worst 10% of seasons (decision.OBJECTIVES, decision.decide)
+    objective: Literal["mean", "p95", "shortfall10"] = "mean"
 
     @field_validator("cutoffs")
     @classmethod
@@ -477,6 +484,10 @@ class Scenario(_Section):
     operations: OperationsSection | None = None
     # per-site overrides, keyed by the site's name as the history's site column writes it
     sites: dict[Name, SiteSection] = {}
+    # several forecasts of the same event: display name -> probability column, in the order to show
+    # them; the first is the main forecast (it becomes [history] probability_column)
+    forecasts: Annotated[dict[Name, Name], Field(max_length=MAX_FORECASTS,
+                                                 description=f"at most {MAX_FORECASTS} forecasts")] = {}
     # where the file was read from (not a user key): history paths are relative to it
     source: Path | None = Field(default=None, exclude=True)
     sha256: str = Field(default="", exclude=True)
@@ -489,6 +500,41 @@ class Scenario(_Section):
     def slug(self) -> str:
         safe = "".join(ch.lower() if ch.isalnum() else "-" for ch in self.name)
         return "-".join(part for part in safe.split("-") if part) or "scenario"
+
+    @model_validator(mode="before")
+    @classmethod
+    def _main_forecast_column(cls, data: Any) -> Any:
+        """``[forecasts]`` replaces ``[history] probability_column``: its first column becomes it."""
+        if not isinstance(data, dict) or not isinstance(data.get("forecasts"), dict) or not data["forecasts"]:
+            return data
+        history = data.get("history", {})
+        given = (history.model_fields_set if isinstance(history, HistorySection)
+                 else set(history) if isinstance(history, dict) else set())
+        if "probability_column" in given:
+            raise ValueError("[forecasts] replaces [history] probability_column; list the main forecast "
+                             "first under [forecasts] and remove probability_column")
+        first = next(iter(data["forecasts"].values()))
+        if isinstance(history, HistorySection):
+            history = history.model_dump(exclude_unset=True)
+        if isinstance(history, dict) and isinstance(first, str):
+            data = {**data, "history": {**history, "probability_column": first}}
+        return data
+
+    @field_validator("forecasts")
+    @classmethod
+    def _forecast_names(cls, value: dict[str, str]) -> dict[str, str]:
+        for name, column in value.items():
+            if not name.strip() or not column.strip():
+                raise ValueError('each forecast needs a name and a column, as "our model" = "p_ours"')
+        return value
+
+    @property
+    def forecast_columns(self) -> tuple[tuple[str, str], ...]:
+        """(display name, probability column) of every forecast, the main one first: the
+        ``[forecasts]`` table, or the one ``[history] probability_column`` (named "forecast")."""
+        if self.forecasts:
+            return tuple(self.forecasts.items())
+        return (("forecast", self.history.probability_column),)
 
     @model_validator(mode="after")
     def _stress_names_differ(self):
@@ -532,13 +578,17 @@ def cutoff_grid(lo: float, hi: float, step: float) -> np.ndarray:
     return decimals.grid(lo, hi, step)
 
 
-def check_workload(replicates: int, n_cutoffs: int, where: str) -> None:
-    """Refuse, before any work, a run whose table of season costs (replicates x cutoffs) would pass
-    :data:`MAX_SEASON_COSTS`; ``where`` names the key or option that set the replicates."""
-    if replicates * n_cutoffs > MAX_SEASON_COSTS:
-        raise InputError(f"{where}: {replicates:,} replicate seasons x {n_cutoffs:,} cutoffs is "
-                         f"{replicates * n_cutoffs:,} season costs, more than the {MAX_SEASON_COSTS:,} a run "
-                         f"may hold; use at most {MAX_SEASON_COSTS // n_cutoffs:,} replicates, or a coarser "
+def check_workload(replicates: int, n_cutoffs: int, where: str, n_forecasts: int = 1) -> None:
+    """Refuse, before any work, a run whose tables of season costs (replicates x cutoffs, one per
+    forecast) would pass :data:`MAX_SEASON_COSTS`; ``where`` names the key or option that set the
+    replicates."""
+    n_forecasts = max(1, n_forecasts)
+    total = replicates * n_cutoffs * n_forecasts
+    if total > MAX_SEASON_COSTS:
+        each = f" x {n_forecasts} forecasts" if n_forecasts > 1 else ""
+        raise InputError(f"{where}: {replicates:,} replicate seasons x {n_cutoffs:,} cutoffs{each} is "
+                         f"{total:,} season costs, more than the {MAX_SEASON_COSTS:,} a run may hold; use "
+                         f"at most {MAX_SEASON_COSTS // (n_cutoffs * n_forecasts):,} replicates, or a coarser "
                          "cutoff step")
 
 
@@ -609,7 +659,8 @@ def scenario_from_text(text: str, label: str = "scenario") -> Scenario:
     except ValidationError as exc:
         raise InputError(_first_problem(exc, label)) from None
     _check_sites(scenario, label)
-    check_workload(scenario.simulation.replicates, len(scenario.cutoffs), f"{label} [simulation] replicates")
+    check_workload(scenario.simulation.replicates, len(scenario.cutoffs), f"{label} [simulation] replicates",
+                   len(scenario.forecasts))
     return scenario
 
 
@@ -685,7 +736,7 @@ def _what_is_wrong(err: dict, field: Any) -> str:
 
 
 _SECTIONS = ("history", "event", "decision", "costs", "season", "simulation", "operations", "stress",
-             "sites")
+             "sites", "forecasts")
 
 
 def _table(loc: list[str]) -> str:

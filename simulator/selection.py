@@ -12,7 +12,8 @@ Two things are fitted on a training period and then used forward:
   algorithm, ``scipy.optimize.isotonic_regression``; Zadrozny and Elkan 2002 use it to calibrate
   classifier scores), from which replicate outcomes are drawn afresh.
 
-A cutoff is chosen as the core chooses it: the lowest mean season cost over replicate seasons drawn
+A cutoff is chosen as the core chooses it (:func:`~simulator.decision.decide`): by the scenario's
+objective (the lowest mean season cost, by default) over replicate seasons drawn
 (:class:`~simulator.resample.Resampler`) from the training period alone. The same replicates give the
 spread of the cost per occasion over a period as long as the one checked, so a period that does much
 worse than its training can be flagged.
@@ -37,7 +38,7 @@ import pandas as pd
 
 from . import decimals, scoring
 from .costs import SeasonPricer, baseline_actions, occasion_costs, price
-from .decision import lowest
+from .decision import OBJECTIVE_COLUMN, lowest, season_cost_columns
 from .errors import InputError
 from .history import History
 from .operations_fast import OperationsPricer
@@ -236,7 +237,7 @@ class Selection:
 def select_honestly(history: History, calendar: Calendar, cutoffs: np.ndarray, costs: Costs,
                     reference: str, mean_block: float, window_days: int, seed: int,
                     replicates: int, walk_forward: bool, label: str = "scenario",
-                    rules: Scenario | None = None) -> Selection | None:
+                    rules: Scenario | None = None, objective: str = "mean") -> Selection | None:
     """The validation check (when the history has a validation period) and the walk-forward.
 
     Parameters
@@ -254,10 +255,13 @@ def select_honestly(history: History, calendar: Calendar, cutoffs: np.ndarray, c
         season being priced (each calendar day takes the season's occasion nearest to it in day of
         season), under the rules. Without rules, periods are priced with the ``[costs]`` matrix on
         their historical occasions.
+    objective : what the cutoff is chosen by on each training period's replicates, as in the base
+        run (:data:`simulator.decision.OBJECTIVES`). A priced period's own best cutoff (hindsight)
+        is its cheapest: one period has one cost, not a spread.
     """
     n_rep = max(20, min(int(replicates), SELECTION_REPLICATES))
     context = _Context(history, calendar, cutoffs, costs, reference, mean_block, window_days, seed, n_rep,
-                       rules)
+                       rules, objective)
     validation = _validation_check(context) if history.has_validation else None
     forward = None
     if walk_forward:
@@ -282,6 +286,7 @@ class _Context:
     seed: int
     n_rep: int
     rules: Scenario | None = None
+    objective: str = "mean"
 
     def pricer(self, history: History):
         """The pricer of replicate seasons: the rules engine with ``[operations]``, else the core's."""
@@ -336,7 +341,8 @@ def _walk_forward(c: _Context) -> WalkForward:
 
 def _choose_on(c: _Context, mask: np.ndarray, key: int,
                target_occasions: int) -> tuple[int, tuple[float, float]]:
-    """Cutoff index with the lowest mean season cost over replicates of the ``mask`` period, and
+    """Cutoff index chosen by the objective (the lowest mean season cost, by default) over replicates
+    of the ``mask`` period, and
     the 90% range of the cost per occasion at it over a period of ``target_occasions`` occasions.
 
     For a period longer than a season, whole replicate seasons are joined (the nearest whole
@@ -348,7 +354,8 @@ def _choose_on(c: _Context, mask: np.ndarray, key: int,
     pricer = c.pricer(h)
     model = np.concatenate([pricer(rows).model
                             for rows in resampler.blocks(c.seed, c.n_rep, SELECTION_STREAM, key)])
-    index = int(lowest(model.mean(axis=0)))  # as the core chooses (decision.decide)
+    # as the core chooses (decision.decide)
+    index = int(lowest(season_cost_columns(model)[OBJECTIVE_COLUMN[c.objective]]))
     per_occasion = model[:, index] / c.calendar.n_occasions
     ratio = target_occasions / c.calendar.n_occasions
     if ratio >= 1:

@@ -40,7 +40,7 @@ import numpy as np
 from . import decimals
 from .account import money
 from .costs import PricedBlock, SeasonPricer, baseline_actions, occasion_costs, price
-from .decision import Decision, Distribution, cheaper, decide, distribution
+from .decision import OBJECTIVE_NAMES, Decision, Distribution, cheaper, decide, distribution, objective_cost
 from .errors import InputError
 from .history import History
 from .operations_fast import OperationsPricer
@@ -318,8 +318,9 @@ class StressView:
     ``probabilities`` is "as_forecast" or "adapted" (moved to the new event rate). ``strategies``
     holds the model at the base case's recommended cutoff (``model``) and every baseline.
     ``extra_cost`` is the mean season cost at the base cutoff minus the base case's; ``saved_by_moving``
-    what moving to the case's own best cutoff saves on average, and ``prob_moving_saves`` in how many
-    replicate seasons it does. ``savings`` and ``prob_saving`` are against the reference, at the base
+    what moving to the case's own best cutoff (chosen by the run's ``[decision] objective``, as the
+    base case's) saves on average (negative when a risk objective moves to a cutoff dearer on
+    average), and ``prob_moving_saves`` in how many replicate seasons it is cheaper. ``savings`` and ``prob_saving`` are against the reference, at the base
     cutoff. ``decision`` is the core's decision for the case (best cutoff, its interval, bands,
     break-even ranges). Arrays are over replicates, ``mean_cost`` over cutoffs.
     """
@@ -536,7 +537,8 @@ def _view(name: str, case: StressCase, base: _Base, model: np.ndarray, baseline_
           rate_check: EventRateCheck | None) -> StressView:
     reference = baseline_cost[base.scenario.simulation.reference]
     cutoffs = base.cutoffs
-    decision = decide(model, reference, cutoffs, base.seasons_per_history, base.interval_rng())
+    objective = base.decision.objective  # the case's cutoff is re-chosen as the base case's was
+    decision = decide(model, reference, cutoffs, base.seasons_per_history, base.interval_rng(), objective)
     base_index, best = base.decision.recommended_index, decision.recommended_index
     at_base, at_best = model[:, base_index], model[:, best]
     strategies = {"model": distribution(at_base)}
@@ -545,8 +547,10 @@ def _view(name: str, case: StressCase, base: _Base, model: np.ndarray, baseline_
     saved = float(at_base.mean() - at_best.mean())
     moving = float(cheaper(at_best, at_base).mean())
     savings = reference - at_base
+    lowered = (0.0 if objective == "mean"
+               else float(objective_cost(at_base, objective) - objective_cost(at_best, objective)))
     headline = _headline(case.name, name, float(cutoffs[base_index]), float(cutoffs[best]), extra, saved,
-                         moving, decision.near_optimal_band, base.scenario.currency)
+                         moving, decision.near_optimal_band, base.scenario.currency, objective, lowered)
     if rate_check is not None and not rate_check.reached:
         headline += f" (Event rate aimed at {rate_check.target:.3f}, reached {rate_check.achieved:.3f}.)"
     return StressView(probabilities=name, base_cutoff=float(cutoffs[base_index]), strategies=strategies,
@@ -558,12 +562,25 @@ def _view(name: str, case: StressCase, base: _Base, model: np.ndarray, baseline_
 
 
 def _headline(case: str, view: str, base: float, best: float, extra: float, saved: float,
-              moving: float, band: tuple[float, float], currency: str) -> str:
-    """The sentence a budget holder needs, for one view of one case."""
+              moving: float, band: tuple[float, float], currency: str, objective: str = "mean",
+              lowered: float = 0.0) -> str:
+    """The sentence a budget holder needs, for one view of one case. With a risk objective the
+    case's best cutoff is the one with the lowest value of it, and ``lowered`` is how much moving
+    there lowers that value."""
     what = f'"{case}"' + (" (forecast adapted to the new event rate)" if view == "adapted" else "")
     direction = "more" if extra >= 0 else "less"
     text = (f"Keep the cutoff at {base:.2f} and {what} costs {money(abs(extra), currency)} {direction} "
             f"a season on average")
+    if objective != "mean":
+        measure = OBJECTIVE_NAMES[objective]
+        if best == base:
+            return text + f"; {base:.2f} keeps the lowest {measure}."
+        change = f"{money(abs(saved), currency)} {'less' if saved >= 0 else 'more'} on average"
+        if band[0] <= base <= band[1]:
+            return text + (f"; {base:.2f} stays within 1% of the lowest {measure} (moving to {best:.2f} "
+                           f"would lower it by only {money(lowered, currency)}, at {change}).")
+        return text + (f"; moving to {best:.2f} would lower the {measure} by {money(lowered, currency)} "
+                       f"a season, at {change}.")
     if best == base:
         return text + f"; {base:.2f} stays the cheapest cutoff."
     if band[0] <= base <= band[1]:

@@ -20,7 +20,8 @@ from .history import History
 from .scenario import Costs
 from .scoring import Contingency
 
-__all__ = ["cutoff_table", "history_table", "with_replicates", "forecast_scores", "forecast_quality"]
+__all__ = ["cutoff_table", "history_table", "with_replicates", "forecast_scores", "forecast_quality",
+           "forecastforecast_value_curve"]
 
 
 def cutoff_table(parts: Sequence[tuple[History, Costs]], cutoffs: np.ndarray, p_star: float,
@@ -94,14 +95,14 @@ def forecast_scores(history: History) -> dict[str, float]:
 
 def forecast_quality(history: History, cutoffs: np.ndarray) -> tuple[dict[str, float], pd.DataFrame,
                                                                     pd.DataFrame]:
-    """:func:`forecast_scores`, the value curve (:func:`_value_curve`) and the reliability table
+    """:func:`forecast_scores`, the value curve (:func:`forecast_value_curve`) and the reliability table
     (ten equal bins) of the evaluated occasions."""
     p, event = history.p[history.evaluated], history.event[history.evaluated]
     reliability = pd.DataFrame(dataclasses.asdict(scoring.reliability_table(p, event)))
-    return forecast_scores(history), _value_curve(history, cutoffs), reliability
+    return forecast_scores(history), forecast_value_curve(history, cutoffs), reliability
 
 
-def _value_curve(history: History, cutoffs: np.ndarray) -> pd.DataFrame:
+def forecast_value_curve(history: History, cutoffs: np.ndarray) -> pd.DataFrame:
     """Relative economic value across cost-loss ratios (Richardson 2000): the potential value (best
     cutoff for each ratio) and the value of acting at a cutoff equal to the ratio."""
     p, event = history.p[history.evaluated], history.event[history.evaluated]

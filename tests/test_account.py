@@ -234,6 +234,7 @@ def test_a_verdict_is_stated_first(demo):
     told = account(s)
     assert told.first[0].key == "verdict"
     assert "always send the crews out" in told.first[0].text
-    assert told.sentences[0].startswith("The saving is no larger")
+    assert told.sentences[0].startswith("Keep to the rule that ignores it")
+    assert "because the saving is no larger" in told.sentences[0]
     assert told.get("cutoff").label == "Cheapest cutoff (not advised)"
     assert "not advised" in told.get("cutoff").sentence

@@ -203,6 +203,66 @@ def test_slider_shows_the_chosen_row_of_cutoffs_csv(demo_report, page):
     assert all(url.startswith(("file:", "data:")) for url in requests), requests
 
 
+# A4 less the report's 12 mm margins (its @page rule), in CSS pixels (96 per inch, 25.4 mm per inch)
+A4_CONTENT_WIDTH = round((210 - 24) / 25.4 * 96)
+A4_CONTENT_HEIGHT = (297 - 24) / 25.4 * 96
+
+
+@pytest.fixture(scope="module")
+def flood_report(tmp_path_factory) -> Path:
+    """The flood scenario: a hazard caution above the decision, and a cost chart zoomed on the decision."""
+    out = tmp_path_factory.mktemp("browser") / "flood"
+    scenario = Path(__file__).resolve().parents[1] / "scenarios" / "river_pumps.toml"
+    result = CliRunner().invoke(app, ["run", str(scenario), "--out", str(out), "--replicates", "200", "--quiet"])
+    assert result.exit_code == 0, result.output
+    return out
+
+
+def test_page_does_not_scroll_sideways_on_a_phone(demo_report, flood_report, page):
+    """At 390 CSS pixels (a common phone width) wide tables scroll inside their own box, the figures
+    come in their narrow layout and the slider's marker sits on that layout's axes."""
+    page.call("Emulation.setDeviceMetricsOverride", width=390, height=844, deviceScaleFactor=2, mobile=True)
+    try:
+        for report in (demo_report, flood_report):
+            _open(page, report / "report.html")
+            assert page.evaluate("document.documentElement.scrollWidth") <= 390, report.name
+            shown = page.evaluate("""Array.from(document.querySelectorAll('figure img'))
+                .filter(img => getComputedStyle(img).display !== 'none').map(img => img.className)""")
+            assert shown and set(shown) == {"fig-narrow"}, shown
+            data = json.loads(page.evaluate("document.getElementById('cutoff-data').textContent"))
+            g = data["geometry"]["narrow"]
+            x = data["cutoff"][data["recommended"]]
+            expected = 100 * (g["left"] + (x - g["xmin"]) / (g["xmax"] - g["xmin"]) * (g["right"] - g["left"]))
+            left = page.evaluate("document.getElementById('cost-marker').style.left")
+            assert float(left.rstrip("%")) == pytest.approx(expected, abs=1e-3)
+    finally:
+        page.call("Emulation.clearDeviceMetricsOverride")
+
+
+def test_first_printed_page_holds_the_decision_the_tiles_and_the_cost_chart(demo_report, flood_report, page):
+    """Laid out for print on A4, everything from the title to the cost chart's caption ends within the
+    first page's height, in the wide layout; the hazard caution of the flood scenario included."""
+    page.call("Emulation.setDeviceMetricsOverride", width=A4_CONTENT_WIDTH, height=1000, deviceScaleFactor=1,
+              mobile=False)
+    page.call("Emulation.setEmulatedMedia", media="print")
+    try:
+        for report in (demo_report, flood_report):
+            _open(page, report / "report.html")
+            box = page.evaluate("""(() => {
+                const r = s => document.querySelector(s).getBoundingClientRect();
+                return {advice: r('#recommendation').bottom, tiles: r('#advice .tiles').bottom,
+                        chart: r('#cost figure').bottom, shown: r('#cost img.fig-wide').height,
+                        top: r('main').top + window.scrollY};
+            })()""")
+            assert box["shown"] > 200, "the cost chart is not shown in its wide layout"
+            assert box["advice"] < box["tiles"] < box["chart"] <= box["top"] + A4_CONTENT_HEIGHT, (report.name, box)
+        hazard = page.evaluate("document.getElementById('hazard').getBoundingClientRect().bottom")
+        assert 0 < hazard < box["advice"]
+    finally:
+        page.call("Emulation.setEmulatedMedia", media="")
+        page.call("Emulation.clearDeviceMetricsOverride")
+
+
 # the demo's own scenario with names full of markup: each tries to run script, load something, or
 # end the data block early
 HOSTILE_NAMES = {

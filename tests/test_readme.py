@@ -51,8 +51,13 @@ def test_readme_python_example_runs(monkeypatch):
         exec(compile(block, "README.md", "exec"), {})
 
 
-def test_readme_quotes_the_stress_headline_as_the_run_says_it():
-    result = run(read_scenario(ROOT / "scenarios" / "line_marking_stress.toml"))
+@pytest.fixture(scope="module")
+def stress_run():
+    return run(read_scenario(ROOT / "scenarios" / "line_marking_stress.toml"))
+
+
+def test_readme_quotes_the_stress_headline_as_the_run_says_it(stress_run):
+    result = stress_run
     wetter = next(case for case in result.stress if case.name == "a wetter year")
     headline = " ".join(wetter.views[0].headline.split())
     quoted = " ".join(re.search(r'\*"(Keep the cutoff.*?)"\*', README, flags=re.S).group(1).split())
@@ -88,3 +93,15 @@ def test_readme_path_from_a_spreadsheet_runs_as_written(tmp_path, monkeypatch):
         result = runner.invoke(app, command + extra)
         assert result.exit_code == 0, result.output
     assert (tmp_path / "outputs" / scenario.stem / "report.html").exists()
+
+
+def test_readme_quotes_the_bad_season_choice_as_the_run_makes_it(stress_run):
+    from simulator.account import money
+    from simulator.outputs import summary
+
+    objectives = summary(stress_run)["objectives"]
+    mean, tail = objectives["mean"], objectives["shortfall10"]
+    quoted = (f"the cutoff moves from **{mean['cutoff']:.2f}** to **{tail['cutoff']:.2f}**,\n"
+              f"a season costs {money(tail['mean_cost'] - mean['mean_cost'], 'EUR')} more on average, and the worst "
+              f"10% of seasons cost {money(mean['shortfall10_cost'] - tail['shortfall10_cost'], 'EUR')} less each.")
+    assert quoted in README

@@ -28,7 +28,7 @@ from simulator.report import (CAUTION, FIELD_FORMATS, format_value, headline_num
                               render_report, share)
 
 PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"  # PNG specification (W3C/ISO 15948), section 5.2
-CORE_FIGURES = ("season_cost", "savings", "reliability", "roc", "relative_value")
+CORE_FIGURES = ("season_cost", "savings", "reliability", "roc", "relative_value", "risk")
 
 MINIMAL_TOML = """
 name = "Yard gritting at Tollbury"
@@ -147,7 +147,7 @@ def test_recommendation_quotes_the_numbers_in_summary_json(out):
     assert f"{three(s['strategies']['model']['mean'])} on average" in text
     assert f"between {three(s['strategies']['model']['p05'])} and {three(s['strategies']['model']['p95'])}" in text
     assert f"{three(abs(s['savings']['mean']))} a season" in text
-    assert len(re.findall(r"[.!?](\s|$)", text)) in (3, 4)  # three or four plain sentences
+    assert len(re.findall(r"[.!?](\s|$)", text)) in (3, 4, 5, 6)  # three to six plain sentences (the verdict's, a hazard's)
 
 
 def test_hazard_caution_comes_before_the_recommendation(demo_out, minimal_run):
@@ -226,19 +226,33 @@ def test_without_javascript_the_explorer_shows_the_recommended_cutoff(out):
     assert re.search(r'<div class="controls" id="explorer-controls" hidden>', html)
 
 
+def _embedded(html: str, name_alt: str) -> bytes:
+    """The narrow (phone) PNG of the figure whose alt text starts with ``name_alt``."""
+    import base64
+
+    found = re.search(r'<img class="fig-narrow" src="data:image/png;base64,([^"]+)" width="\d+" height="\d+" alt="'
+                      + re.escape(name_alt), html)
+    assert found, name_alt
+    return base64.b64decode(found.group(1))
+
+
 def test_cost_chart_geometry_puts_the_marker_on_the_recommended_line(out):
     """The marker's position, computed from the embedded axes extents, falls on the black line
-    matplotlib drew at the recommended cutoff."""
-    data = _explorer((out / "report.html").read_text(encoding="utf-8"))
-    g = data["geometry"]
-    image = mpimg.imread(out / "figures" / "season_cost.png")
-    height, width = image.shape[:2]
-    x = data["cutoff"][data["recommended"]]
-    column = (g["left"] + (x - g["xmin"]) / (g["xmax"] - g["xmin"]) * (g["right"] - g["left"])) * width
-    top, bottom = int(g["top"] * height) + 5, int(g["bottom"] * height) - 5
-    dark = image[top:bottom, :, :3].max(axis=2) < 0.2  # near-black pixels
-    near = dark[:, max(0, int(column) - 2): int(column) + 3].any(axis=1)
-    assert near.mean() > 0.8
+    matplotlib drew at the recommended cutoff, in the wide figure and in the phone one."""
+    html = (out / "report.html").read_text(encoding="utf-8")
+    data = _explorer(html)
+    images = {"wide": (out / "figures" / "season_cost.png").read_bytes(),
+              "narrow": _embedded(html, "Season cost in")}
+    for layout, png in images.items():
+        g = data["geometry"][layout]
+        image = mpimg.imread(io.BytesIO(png), format="png")
+        height, width = image.shape[:2]
+        x = data["cutoff"][data["recommended"]]
+        column = (g["left"] + (x - g["xmin"]) / (g["xmax"] - g["xmin"]) * (g["right"] - g["left"])) * width
+        top, bottom = int(g["top"] * height) + 5, int(g["bottom"] * height) - 5
+        dark = image[top:bottom, :, :3].max(axis=2) < 0.2  # near-black pixels
+        near = dark[:, max(0, int(column) - 2): int(column) + 3].any(axis=1)
+        assert near.mean() > 0.8, layout
 
 
 STRESS_TOML = MINIMAL_TOML + """
@@ -336,3 +350,39 @@ def test_calibrated_mode_is_said_in_the_report(tmp_path):
     html = files["report.html"].decode()
     assert 'id="calibrated-mode"' in html
     assert f'{s["calibration"]["brier_training_recalibrated"]:.4f}' in html
+
+
+def test_two_by_two_table_appears_once_with_what_its_cells_mean(out):
+    html = (out / "report.html").read_text(encoding="utf-8")
+    assert html.count('<table class="matrix">') == 1
+    explorer = parse(html, "explorer").text
+    assert "A hit is a" in explorer and "a correct negative, we did not" in explorer
+
+
+def test_run_length_of_the_replay_is_explained_where_it_is_given(demo_out):
+    html = (demo_out / "report.html").read_text(encoding="utf-8")
+    s = json.loads((demo_out / "summary.json").read_text())
+    block = re.search(r"<dt>Spells kept together</dt><dd>(.*?)</dd>", html, re.S).group(1)
+    assert block.startswith(f"Mean run {s['mean_block_days']:.1f} days")
+    assert "runs of consecutive days of the history" in block and "replayed whole" in block
+
+
+def test_every_day_count_of_the_operating_rules_says_what_it_counts(tmp_path):
+    from simulator.operations import COUNTS
+
+    text = OPERATIONS_TOML.replace("damages_per_day_late = 40", "damages_per_day_late = 40\nmax_standby_days = 2")
+    s, files = _run_variant(tmp_path / "retention", text)
+    html = files["report.html"].decode()
+    rows = dict(re.findall(r"<tr><td>([^<]+)</td><td class=\"num\">[^<]*</td><td class=\"what-cell\">([^<]+)</td>", html))
+    assert set(rows) == {key.replace("_", " ").capitalize() for key in COUNTS}
+    assert "stood down 2 days in a row" in rows["Retention days"]
+
+
+def test_cost_chart_caption_says_when_it_shows_part_of_the_cutoffs(demo_out, tmp_path):
+    scenario = Path(__file__).resolve().parents[1] / "scenarios" / "river_pumps.toml"
+    result = run(read_scenario(scenario), replicates=100)
+    html = render_report(result, summary(result))["report.html"].decode()
+    caption = parse(html, "cost").text
+    assert re.search(r"The chart shows cutoffs 0\.00 to 0\.\d\d, where the decision lies", caption), caption
+    assert "every cutoff from 0.00 to 1.00" in caption
+    assert "The chart shows cutoffs" not in (demo_out / "report.html").read_text(encoding="utf-8")

@@ -1,0 +1,242 @@
+"""Is the forecast worth using at all? Acting on it against the best rule that ignores it, judged
+on seasons the choice was not made on.
+
+The recommended cutoff is the best of a hundred cutoffs on the same history, so even a forecast of
+pure noise shows a saving there: the choice fits the history's chance. This is the gap between the
+*potential* value of a forecast (its best cutoff chosen in hindsight) and its *actual* value (a
+cutoff chosen on past data and applied to new data), which Richardson (2000) discusses after Atger
+(2001). The verdict therefore prices the choice out of sample, by cross-validation over seasons
+(leave one season out; common practice in model selection, for example Hastie, Tibshirani and
+Friedman 2009, section 7.10, from memory): for each season of the history, the cutoff and the
+best rule without the forecast (never act, always act, persistence, seasonal rate) are each
+chosen on the *other* seasons (lowest total cost there), and both are priced on the held-out
+season. The saving of each held-out season is paired (the same occasions, the same outcomes), so
+a forecast with no skill saves nothing on average, whatever its best cutoff in hindsight.
+
+The money basis is one season of the priced calendar. Held-out seasons may hold different
+numbers of occasions (the history's first and last seasons are often partial), so the mean saving
+is a ratio estimate (total saving over total occasions, times the occasions of a season) and its
+variance is the ratio estimator's (Cochran 1977, section 6.3, from memory, check); the 90%
+interval of the mean uses Student's t with one degree of freedom fewer than the held-out seasons.
+Treating the held-out seasons as independent understates the spread a little, as their training
+sets overlap (Bengio and Grandvalet 2004, from memory), so the rule is kept strict: the forecast
+is worth using only when the lower end of that interval is above zero.
+
+Without ``[operations]`` each season is priced on its own historical occasions with the
+``[costs]`` matrix (:func:`~simulator.costs.price`); with them, each past season is laid on the
+priced season's calendar and played under the rules, as the honest selection does
+(:mod:`simulator.selection`). The rules without the forecast are priced the same way, and the
+seasonal rate learns its months from the training seasons only.
+
+References
+----------
+Atger (2001) and Richardson (2000) on actual against potential value: as cited in
+:mod:`simulator.selection`.
+Hastie, T., Tibshirani, R. and Friedman, J. (2009). The Elements of Statistical Learning, 2nd ed.
+Springer, section 7.10, cross-validation (from memory).
+Cochran, W. G. (1977). Sampling Techniques, 3rd ed. Wiley (ratio estimates; from memory).
+Bengio, Y. and Grandvalet, Y. (2004). No unbiased estimator of the variance of k-fold
+cross-validation. J. Mach. Learn. Res. 5, 1089-1105 (from memory).
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+from . import scoring
+from .costs import baseline_actions, occasion_costs, price
+from .history import History
+from .resample import Calendar
+from .scenario import Scenario
+
+__all__ = ["RULES", "RULE_WORDS", "CONFIDENCE", "SeasonCosts", "Verdict", "season_costs", "judge", "best_rule",
+           "together"]
+
+RULES = ("never_act", "always_act", "persistence", "seasonal_rate")
+"""The rules that ignore the forecast, in the order ties are broken."""
+RULE_WORDS = {"never_act": "never acting", "always_act": "always acting", "persistence": "persistence",
+              "seasonal_rate": "acting by calendar month"}
+"""Each rule in plain words, for sentences."""
+CONFIDENCE = 0.90  # two-sided interval of the mean saving; the forecast is used when its lower end is > 0
+
+
+@dataclass(frozen=True)
+class SeasonCosts:
+    """What each season of the history cost, ready to be held out in turn.
+
+    ``model`` (n_seasons, n_cutoffs): each season's cost acting on the forecast at each cutoff.
+    ``rules`` (n_seasons, n_seasons, n_rules): ``rules[f, s, r]``, season ``s``'s cost under rule
+    ``r`` of :data:`RULES` as learnt without season ``f`` (only the seasonal rate learns).
+    ``occasions`` (n_seasons,): occasions priced in each season. ``seasons``: their labels.
+    ``cutoffs`` (n_cutoffs,): the cutoffs of ``model``'s columns.
+    """
+
+    model: np.ndarray
+    rules: np.ndarray
+    occasions: np.ndarray
+    seasons: np.ndarray
+    cutoffs: np.ndarray
+
+
+@dataclass(frozen=True)
+class Verdict:
+    """Whether to act on the forecast at all, and the out-of-sample saving behind it.
+
+    ``mean``, ``p05``, ``p95``: the mean saving per season of acting on the forecast against the
+    best rule without it, each chosen on the other seasons and priced on the held-out one, and the
+    90% interval of that mean; ``prob_saving``: the confidence that the mean saving is above zero
+    (Student's t). Money per season of the priced calendar; NaN with fewer than two seasons.
+    ``held_out`` lists, per held-out season, its label, the cutoff and the rule chosen on the
+    other seasons, and its saving scaled to a season.
+    """
+
+    use_forecast: bool
+    best_rule: str
+    mean: float
+    p05: float
+    p95: float
+    prob_saving: float
+    n_seasons: int
+    held_out: tuple[tuple[int, float, str, float], ...]
+
+    def reason(self, currency: str) -> str:
+        """Why the forecast is worth using or not, in one plain sentence, its money per season."""
+        rule = RULE_WORDS[self.best_rule]
+        if self.n_seasons < 2:
+            return (f"The history holds {self.n_seasons} season, so a cutoff cannot be checked on a season it was "
+                    f"not chosen on; {rule} is the cheapest rule without the forecast.")
+        versus = (f"saved {_money(self.mean, currency)} a season on average over the best rule without it ({rule})"
+                  if self.mean >= 0 else f"cost {_money(-self.mean, currency)} more a season on average than the "
+                  f"best rule without it ({rule})")
+        found = (f"Priced on each of the {self.n_seasons} past seasons at the cutoff chosen on the others, acting on "
+                 f"the forecast {versus} (90% interval {_money(self.p05, currency)} to {_money(self.p95, currency)})")
+        if self.use_forecast or self.mean < 0:
+            return found + "."
+        return found + ", not clearly more than a forecast of no skill saves by chance."
+
+
+def best_rule(mean_costs: dict[str, float]) -> str:
+    """The rule of :data:`RULES` with the lowest mean season cost (ties: the first)."""
+    return min(RULES, key=lambda name: (mean_costs[name], RULES.index(name)))
+
+
+def judge(costs: SeasonCosts, season_occasions: int, rule: str) -> Verdict:
+    """Leave one season out: choose on the others, price on it, and judge the mean saving.
+
+    Parameters
+    ----------
+    costs : each season's costs (:func:`season_costs`).
+    season_occasions : occasions of the priced season (the money basis: one season).
+    rule : the best rule without the forecast, named in the verdict (:func:`best_rule`).
+
+    For held-out season f with saving D_f over n_f occasions, the mean saving per occasion is
+    R = sum(D) / sum(n) and its variance (sum((D_f - R n_f)^2) / (k - 1)) / (k nbar^2) over k
+    seasons (Cochran 1977, ratio estimate, from memory); per season both scale by
+    ``season_occasions``. Ties choose the lowest cutoff and the first rule of :data:`RULES`.
+    """
+    k = costs.seasons.size
+    nan = float("nan")
+    if k < 2:
+        return Verdict(use_forecast=False, best_rule=rule, mean=nan, p05=nan, p95=nan, prob_saving=nan,
+                       n_seasons=int(k), held_out=())
+    model_training = costs.model.sum(axis=0)[None, :] - costs.model  # (k, n_cutoffs): all but f
+    cut = np.argmin(model_training, axis=1)
+    fold = np.arange(k)
+    rules_training = costs.rules.sum(axis=1) - costs.rules[fold, fold]  # (k, n_rules)
+    chosen = np.argmin(rules_training, axis=1)
+    saving = costs.rules[fold, fold, chosen] - costs.model[fold, cut]  # over each season's occasions
+    n = costs.occasions.astype(float)
+    per_occasion = saving.sum() / n.sum()
+    spread = np.sum((saving - per_occasion * n) ** 2) / (k - 1)
+    se = math.sqrt(spread / (k * n.mean() ** 2)) * season_occasions
+    mean = per_occasion * season_occasions
+    from scipy.stats import t  # imported here: only the verdict needs Student's t
+
+    if se > 0:
+        half = float(t.ppf(0.5 + CONFIDENCE / 2, k - 1)) * se
+        prob = float(t.cdf(mean / se, k - 1))
+    else:  # every held-out season saved the same per occasion
+        half, prob = 0.0, float(mean > 0)
+    lo, hi = mean - half, mean + half
+    held_out = tuple((int(s), float(costs.cutoffs[c]), RULES[int(r)], float(d * season_occasions / max(m, 1)))
+                     for s, c, r, d, m in zip(costs.seasons, cut, chosen, saving, costs.occasions))
+    return Verdict(use_forecast=bool(lo > 0), best_rule=rule, mean=float(mean), p05=float(lo), p95=float(hi),
+                   prob_saving=prob, n_seasons=int(k), held_out=held_out)
+
+
+def together(parts: list[SeasonCosts]) -> SeasonCosts | None:
+    """The season costs of many sites added together (one cutoff and one rule for all), when every
+    site has the same past seasons; None otherwise (a held-out season must be held out everywhere)."""
+    first = parts[0]
+    if any(not np.array_equal(part.seasons, first.seasons) for part in parts[1:]):
+        return None
+    return SeasonCosts(model=sum(part.model for part in parts), rules=sum(part.rules for part in parts),
+                       occasions=sum(part.occasions for part in parts), seasons=first.seasons,
+                       cutoffs=first.cutoffs)
+
+
+def season_costs(history: History, calendar: Calendar, cutoffs: np.ndarray, scenario: Scenario) -> SeasonCosts:
+    """Each evaluated season's cost at every cutoff and under each rule of :data:`RULES`.
+
+    Without ``[operations]``: the season's historical occasions priced with ``[costs]``. With them:
+    the season laid on ``calendar`` and played under the rules
+    (:class:`~simulator.operations_fast.OperationsPricer`).
+    """
+    seasons = history.seasons
+    evaluated = history.evaluated
+    k = seasons.size
+    learnt = [dataclasses.replace(history, evaluated=evaluated & (history.season != s),
+                                  validation=np.zeros_like(evaluated)) for s in seasons]
+    if scenario.operations is None:
+        return _with_costs(history, cutoffs, scenario, seasons, learnt)
+    from .operations_fast import OperationsPricer
+    from .scenario import BASELINES
+    from .selection import _seasons_on_calendar  # each past season laid on the priced calendar
+
+    rows = _seasons_on_calendar(history, evaluated, calendar)  # (k, n_occasions), seasons ascending
+    columns = [BASELINES.index(name) for name in RULES]
+    everything = dataclasses.replace(history, validation=np.zeros_like(evaluated))
+    block = OperationsPricer(everything, calendar, cutoffs, scenario)(rows)  # the forecast learns nothing
+    rules = np.broadcast_to(block.baselines[:, columns], (k, k, len(RULES))).copy()
+    # only the seasonal rate learns: a fold whose months come out otherwise without its season
+    # plays the seasons again under its own rules (beside one cutoff, the cheapest to carry)
+    seasonal = baseline_actions(everything, scenario.costs)["seasonal_rate"][evaluated]
+    for f, h in enumerate(learnt):
+        if not np.array_equal(baseline_actions(h, scenario.costs)["seasonal_rate"][evaluated], seasonal):
+            rules[f] = OperationsPricer(h, calendar, cutoffs[:1], scenario)(rows).baselines[:, columns]
+    return SeasonCosts(model=block.model, rules=rules, occasions=np.full(k, calendar.n_occasions, dtype=np.int64),
+                       seasons=seasons, cutoffs=cutoffs)
+
+
+def _with_costs(history: History, cutoffs: np.ndarray, scenario: Scenario, seasons: np.ndarray,
+                learnt: list[History]) -> SeasonCosts:
+    costs = scenario.costs
+    evaluated = history.evaluated
+    index = np.searchsorted(seasons, history.season[evaluated])  # each evaluated row's season
+    p, event = history.p[evaluated], history.event[evaluated]
+    k = seasons.size
+    model = np.stack([price(scoring.count_at_cutoffs(p[index == i], event[index == i], cutoffs), costs)
+                      for i in range(k)])
+    rules = np.empty((k, k, len(RULES)))
+    for f, h in enumerate(learnt):
+        actions = baseline_actions(h, costs)
+        for r, name in enumerate(RULES):
+            cost = occasion_costs(actions[name][evaluated], event, costs)
+            rules[f, :, r] = np.bincount(index, weights=cost, minlength=k)
+    return SeasonCosts(model=model, rules=rules, occasions=np.bincount(index, minlength=k), seasons=seasons,
+                       cutoffs=cutoffs)
+
+
+def _money(value: float, currency: str) -> str:
+    """Money in prose: three significant figures, thousands separated (files keep full precision)."""
+    if not math.isfinite(value):
+        return "\u2013"
+    if value == 0:
+        return f"0 {currency}"
+    digits = 3 - int(math.floor(math.log10(abs(value)))) - 1
+    rounded = round(value, digits)
+    return f"{rounded:,.{max(digits, 0)}f} {currency}"
