@@ -20,7 +20,8 @@ import pandas as pd
 
 __all__ = ["datapackage", "describe_column"]
 
-_STATS = {"mean": "mean", "p05": "5th percentile", "p50": "median", "p95": "95th percentile"}
+_STATS = {"mean": "mean", "p05": "5th percentile", "p50": "median", "p95": "95th percentile",
+          "shortfall10": "mean of the worst 10% (expected shortfall)"}
 _STRATEGIES = {"model": "acting on the forecast at the base cutoff", "never_act": "never acting",
                "always_act": "always acting", "persistence": "acting when the event happened on the previous occasion",
                "seasonal_rate": "acting in months whose event rate reaches the break-even probability",
@@ -118,6 +119,16 @@ _COLUMNS: dict[str, tuple[str, str]] = {
                           "{cur} over the walk-forward seasons"),
     "walk_forward_optimism": ("walk-forward cost minus the cost at one cutoff chosen in hindsight",
                               "{cur} over the walk-forward seasons"),
+    "use_forecast": ("whether acting on the forecast beats the best rule without it at this site", "none"),
+    "best_rule_without_forecast": ("the cheapest rule that ignores the forecast", "none"),
+    "saving_against_best_rule_mean": ("mean saving against the best rule without the forecast",
+                                      "{cur} per season"),
+    "saving_against_best_rule_p05": ("5th percentile of the saving against the best rule without the forecast",
+                                     "{cur} per season"),
+    "saving_against_best_rule_p95": ("95th percentile of the saving against the best rule without the forecast",
+                                     "{cur} per season"),
+    "saving_against_best_rule_prob": ("share of replicate seasons that save against the best rule without the "
+                                      "forecast", "share"),
     "walk_forward_flagged_seasons": ("seasons dearer than their training range", "none"),
 }
 
@@ -133,7 +144,7 @@ def describe_column(name: str, currency: str) -> tuple[str, str]:
                              unit.replace("over the history", f"over the {prefix[:-1]} period"))
                 break
     if described is None:
-        match = re.fullmatch(r"(?:(\w+?)_)?(mean|p05|p50|p95)_cost", name)
+        match = re.fullmatch(r"(?:(\w+?)_)?(mean|p05|p50|p95|shortfall10)_cost", name)
         if match and (match.group(1) is None or match.group(1) in _STRATEGIES):
             who = f" of {_STRATEGIES[match.group(1)]}" if match.group(1) else " at this cutoff"
             described = (f"{_STATS[match.group(2)]} of the season cost{who}, over replicate seasons",
