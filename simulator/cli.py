@@ -32,6 +32,7 @@ from gonogo_command import raise_stopped, stop_name
 
 from . import __version__
 from .account import account, money, season_name, seasons_text, share, signed_money, strategy_label
+from .dates import human_format
 from .errors import InputError, printable
 from .history import read_history
 from .outputs import check_out_folder, render_files, summary, write_files
@@ -344,13 +345,15 @@ def _report_run(result: RunResult, out: Path, written: list[Path], quiet: bool, 
         out_console.print(part, soft_wrap=isinstance(part, Text) and bool(part.no_wrap))  # tables keep their lines
     for caution in cautions:
         out_console.print(caution, soft_wrap=True)
-    out_console.print(_plain(f"Wrote {len(written)} files to {out}/; open {out / 'report.html'} to read the report"))
+    out_console.print(_plain(f"Wrote {len(written)} files to {out}/; open {out / 'report.html'} to read the report"),
+                      soft_wrap=True)  # the last line says where, whole
 
 
 def _execute(scenario: Scenario, history: Path | None, out: Path | None, replicates: int | None,
              seed: int | None, force: bool, quiet: bool, as_json: bool,
              walk_forward: bool | None = None, workers: int | None = None, cluster: str | None = None) -> None:
-    out = out if out is not None else Path("outputs") / scenario.slug
+    if out is None:  # outputs/<the scenario file's name without .toml>/
+        out = Path("outputs") / (scenario.source.stem if scenario.source is not None else scenario.slug)
     check_out_folder(out, force)  # before any work, so a refusal costs nothing
     with _progress_bar(not (quiet or as_json)) as progress:
         result = run(scenario, history, replicates=replicates, seed=seed, progress=progress,
@@ -389,10 +392,10 @@ AsJson = Annotated[bool, typer.Option("--json", help="Print summary.json to stan
 def run_command(
     scenario: Annotated[Path, typer.Argument(help="The scenario file (.toml): costs, season, cutoffs, "
                                              "and where the history is.")],
-    history: Annotated[Path | None, typer.Option(help="The history file (CSV or Parquet), instead of "
+    history: Annotated[Path | None, typer.Option(help="The history file (CSV, Excel .xlsx or Parquet), instead of "
                                                  "the scenario's [history] path.")] = None,
-    out: Annotated[Path | None, typer.Option(help="Folder for the results (default: "
-                                             "outputs/<scenario name>).")] = None,
+    out: Annotated[Path | None, typer.Option(help="Folder for the results (default: outputs/<the "
+                                             "scenario file's name without .toml>).")] = None,
     replicates: Replicates = None,
     seed: Seed = None,
     force: Force = False,
@@ -444,7 +447,7 @@ def demo_command(
 
 @app.command("check")
 def check_command(
-    history: Annotated[Path, typer.Argument(help="The history file (CSV or Parquet) to check.")],
+    history: Annotated[Path, typer.Argument(help="The history file (CSV, Excel .xlsx or Parquet) to check.")],
     scenario: Annotated[Path | None, typer.Option(help="A scenario whose [history], [event] and "
                                                   "[season] say how to read the history.")] = None,
 ) -> None:
@@ -461,6 +464,7 @@ def check_command(
     table = Table(title=_plain(f"{history}: ok"), show_header=False, title_justify="left")
     table.add_column(style="bold")
     table.add_column()
+    table.add_row("File", Text(h.read_as))
     table.add_row("Rows", f"{h.n_rows} ({h.n_evaluated} in the season, {len(h.seasons)} seasons)")
     table.add_row("Period", f"{h.start} to {h.end}")
     table.add_row("Calendar", f"{h.frequency.describe()} (the priced season is laid on it)")
@@ -475,6 +479,80 @@ def check_command(
                                  f"{scoring.brier_skill_score(p, event):.3f})")
     table.add_row("ROC area", f"{scoring.roc_auc(p, event):.3f}")
     out_console.print(table)
+
+
+@app.command("init")
+def init_command(
+    history: Annotated[Path, typer.Argument(help="The history file: CSV (any common separator, decimal "
+                                            "mark and encoding), Excel .xlsx or Parquet.")],
+    scenario: Annotated[Path, typer.Argument(help="Where to write the starter scenario (.toml).")],
+    force: Annotated[bool, typer.Option("--force", help="Replace SCENARIO if it exists.")] = False,
+) -> None:
+    """Write a starter scenario for a history file: finds the date, probability and outcome columns,
+    the file's separator, decimal mark, encoding and date format, and the months and weekdays present.
+
+    The scenario says what was found and marks each choice made. The costs are left for you to fill
+    in: check and run refuse the scenario until they are numbers.
+    """
+    from .starter import find_layout, starter_scenario, write_scenario
+
+    with _user_errors():
+        if scenario.suffix.lower() != ".toml":
+            raise InputError(f"{scenario}: a scenario file's name ends in .toml; give for example "
+                             f"{scenario.with_suffix('.toml')}")
+        if scenario.exists() and not force:
+            raise InputError(f"{scenario}: already exists; give --force to replace it, or another name")
+        if not scenario.parent.is_dir():
+            raise InputError(f"{scenario.parent}: no such folder for the scenario; create it or give another path")
+        layout = find_layout(history)
+        text = starter_scenario(layout, scenario)
+        write_scenario(scenario, text)
+    d = layout.dialect
+    table = Table(title=Text(f"{history}: what init found"), show_header=False, title_justify="left")
+    table.add_column(style="bold")
+    table.add_column()
+
+    def add(label: str, text: str) -> None:  # names from the file are plain text, never markup
+        table.add_row(label, Text(text))
+
+    add("File", f"{d.describe()}; {layout.n_rows:,} rows")
+    date_how = ("left in doubt: " + layout.date_doubt if layout.date_format is None else
+                human_format(layout.date_format))
+    add("Dates", f'column "{layout.date_column}", {date_how}'
+                  + (f"; {layout.start} to {layout.end}" if layout.start else ""))
+    add("Probability", ", ".join(f'"{c}"' for c in layout.probability_columns)
+                  + (" (the first is used)" if len(layout.probability_columns) > 1 else ""))
+    if layout.outcome_column is not None:
+        add("Outcome", f'"{layout.outcome_column}", event on {layout.event_rate:.1%} of rows')
+    else:
+        add("Outcome", f'from "{layout.value_column}" at or above {layout.value_median:.6g} '
+                                 "(its median: set the threshold you mean)")
+    if layout.site_column is not None:
+        add("Sites", f'column "{layout.site_column}"')
+    if layout.months:
+        days = f"weekdays {', '.join(layout.weekdays)}" if layout.weekdays else f"a row {layout.frequency}"
+        add("Season", f"months {', '.join(str(m) for m in layout.months)}; {days}")
+
+    out_console.print(table)
+    for note in layout.notes:
+        err_console.print(f"note: {note}", markup=False, highlight=False, soft_wrap=True)
+    prog = _program()
+    out_console.print(Text(f"Wrote {scenario}. Next: fill in the four costs in its [costs] (and any line "
+                           f"marked CHOSEN that is not right), then run:\n  {prog} check {history} "
+                           f"--scenario {scenario}\n  {prog} run {scenario}"), soft_wrap=True)
+
+
+def _program() -> str:
+    """How the user called gonogo, for commands to copy: "gonogo" when that is on the PATH,
+    else the path they typed (such as .venv/bin/gonogo)."""
+    import os
+    import shutil
+
+    called = sys.argv[0] if sys.argv and Path(sys.argv[0]).name == "gonogo" else "gonogo"
+    found = shutil.which("gonogo")
+    if called == "gonogo" or (found and os.path.realpath(found) == os.path.realpath(called)):
+        return "gonogo"
+    return called
 
 
 @app.callback(invoke_without_command=True)

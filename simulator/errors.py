@@ -8,6 +8,7 @@ line: what is wrong, where (file, row as a spreadsheet counts it, column or key)
 from __future__ import annotations
 
 import difflib
+import stat
 from collections.abc import Iterable
 from pathlib import Path
 
@@ -67,14 +68,36 @@ def did_you_mean(word: str, choices: Iterable[str]) -> str:
     return f"; expected one of {listed}{more}"
 
 
-def read_input_file(path: Path, what: str, expected: str) -> bytes:
+def read_input_file(path: Path, what: str, expected: str, limit: int | None = None) -> bytes:
     """The bytes of a user's input file, or an :class:`InputError` saying why there are none.
 
     ``what`` names the file in messages ("scenario", "history"); ``expected`` says what to give
-    instead of a folder ("the scenario's .toml file").
+    instead of a folder ("the scenario's .toml file"). Only a regular file is opened (a named pipe
+    would block, a device may never end), and at most ``limit`` bytes are read: a longer file is
+    refused, naming the limit.
     """
-    if not path.exists():
-        raise InputError(f"{path}: no such {what} file; check the path")
-    if path.is_dir():
+    try:
+        mode = path.stat().st_mode
+    except FileNotFoundError:
+        raise InputError(f"{path}: no such {what} file; check the path") from None
+    except OSError as exc:
+        raise InputError(f"{path}: cannot be looked at ({exc.strerror or exc}); check the path") from None
+    if stat.S_ISDIR(mode):
         raise InputError(f"{path}: is a folder; give {expected}")
-    return path.read_bytes()
+    if not stat.S_ISREG(mode):
+        kind = ("a named pipe" if stat.S_ISFIFO(mode) else "a device" if stat.S_ISCHR(mode) or stat.S_ISBLK(mode)
+                else "a socket" if stat.S_ISSOCK(mode) else "not a regular file")
+        raise InputError(f"{path}: is {kind}, not a file; save the {what} to a file and give {expected}")
+    try:
+        with path.open("rb") as handle:
+            raw = handle.read(limit + 1) if limit is not None else handle.read()
+    except PermissionError:
+        raise InputError(f"{path}: you may not read this {what} file; ask its owner for read access or "
+                         "copy it somewhere you may read") from None
+    except OSError as exc:
+        raise InputError(f"{path}: cannot be read ({exc.strerror or exc}); check the file") from None
+    if limit is not None and len(raw) > limit:
+        size = f"{limit / 2**20:g} MiB" if limit >= 2**20 else f"{limit / 2**10:g} KiB"
+        raise InputError(f"{path}: is larger than the {size} that gonogo reads from a {what} "
+                         f"file; keep only the rows that matter (for example fewer years or sites)")
+    return raw

@@ -1,4 +1,4 @@
-"""Read a forecast history (CSV or Parquet), check it, and derive the binary outcome.
+"""Read a forecast history (CSV, Excel .xlsx or Parquet), check it, and derive the binary outcome.
 
 One row per forecast occasion: a date, the forecast probability of the event and the observed
 outcome, given directly (0/1, true/false, yes/no) or derived from a numeric column by a threshold
@@ -11,7 +11,6 @@ rows: the header is row 1) and column.
 from __future__ import annotations
 
 import dataclasses
-import hashlib
 from dataclasses import dataclass, field
 from datetime import date
 from pathlib import Path
@@ -20,15 +19,17 @@ import numpy as np
 import pandas as pd
 
 from . import decimals
-from .errors import InputError, closest, did_you_mean, excerpt, quoted, read_input_file
+from .dates import parse_dates
+from .errors import InputError, closest, did_you_mean, excerpt, quoted
 from .scenario import WEEKDAYS, HistorySection, Scenario, SeasonSection
+from .sheets import read_table
 
 __all__ = ["History", "Frequency", "read_history", "history_from_frame", "history_frequency", "season_mask",
-           "season_start_month", "nearest_position", "MIN_CLASS_COUNT"]
+           "season_start_month", "nearest_position", "MIN_CLASS_COUNT", "TRUE_WORDS", "FALSE_WORDS"]
 
 MIN_CLASS_COUNT = 5
-_TRUE = {"1", "1.0", "true", "yes", "y", "t"}
-_FALSE = {"0", "0.0", "false", "no", "n", "f"}
+TRUE_WORDS = {"1", "1.0", "true", "yes", "y", "t"}
+FALSE_WORDS = {"0", "0.0", "false", "no", "n", "f"}
 
 
 @dataclass(frozen=True)
@@ -65,6 +66,7 @@ class History:
     warnings: tuple[str, ...] = field(default=())
     site: np.ndarray | None = None  # int64 (n_rows,), an index into site_names; None: one site
     site_names: tuple[str, ...] = ()
+    read_as: str = ""  # how the file was read ("CSV, semicolon-separated, ..."); empty for a frame
     # with [forecasts] of two or more: every forecast's probabilities (after flip), the main one
     # (``p``) first, each (n_rows,); rows where one is missing hold 0 and are not evaluated
     forecast_p: tuple[np.ndarray, ...] = ()
@@ -267,40 +269,22 @@ def season_start_month(months: tuple[int, ...]) -> int:
 # reading files
 
 def read_history(scenario: Scenario, path: str | Path | None = None) -> History:
-    """Read and check the history named by ``path`` or by the scenario's ``[history] path``."""
+    """Read and check the history named by ``path`` or by the scenario's ``[history] path``.
+
+    CSV (any common separator, decimal mark and encoding), Excel ``.xlsx`` and Parquet are read by
+    :func:`simulator.sheets.read_table`, with what ``[history]`` says of the file's dialect.
+    """
     if path is None:
         path = scenario.history_path()
         if path is None:
             raise InputError(f"{_scenario_label(scenario)} [history]: no path; add path = "
                              '"history.csv" or give --history')
-    path = Path(path)
-    label = str(path)
-    raw = read_input_file(path, "history", "the history's CSV or Parquet file")
-    if not raw.strip():
-        raise InputError(f"{label}: the file is empty; it needs a header row and one row per occasion")
-    suffix = path.suffix.lower()
-    try:
-        if suffix in (".parquet", ".pq"):
-            frame = pd.read_parquet(path)
-            first_row = 1
-        elif suffix in (".csv", ".txt", ""):
-            # blank lines are kept as rows so that row numbers match the spreadsheet's; only
-            # blank lines at the end of the file are dropped
-            frame = pd.read_csv(path, dtype=str, keep_default_na=False, skipinitialspace=True,
-                                skip_blank_lines=False)
-            filled = frame.apply(lambda column: column.str.strip().ne("")).any(axis=1).to_numpy()
-            frame = frame.iloc[: int(np.flatnonzero(filled)[-1]) + 1 if filled.any() else 0]
-            first_row = 2
-        else:
-            raise InputError(f"{label}: unknown format {suffix!r}; give a .csv or .parquet file")
-    except InputError:
-        raise
-    except Exception as exc:  # pandas/pyarrow say many things; the user needs one line
-        reason = str(exc).splitlines()[0] if str(exc) else type(exc).__name__
-        raise InputError(f"{label}: cannot be read as {suffix.lstrip('.') or 'CSV'} ({reason}); "
-                         "save it as CSV with a header row, or as Parquet") from None
-    return history_from_frame(frame, scenario, label=label, sha256=hashlib.sha256(raw).hexdigest(),
-                              first_row=first_row)
+    spec = scenario.history
+    table = read_table(Path(path), sheet=spec.sheet, separator=spec.separator, decimal=spec.decimal,
+                       encoding=spec.encoding)
+    history = history_from_frame(table.frame, scenario, label=str(path), sha256=table.sha256,
+                                 first_row=table.first_row)
+    return dataclasses.replace(history, read_as=table.dialect.describe())
 
 
 def _scenario_label(scenario: Scenario) -> str:
@@ -336,7 +320,8 @@ def history_from_frame(frame: pd.DataFrame, scenario: Scenario, *, label: str = 
             if scenario.forecasts and role == "probability":
                 continue  # named under [forecasts]: checked below
             raise InputError(f'{label}: no column "{name}" (the {role}){did_you_mean(name, columns)}; '
-                             f"name it in the scenario's [history] {role}_column")
+                             f"name it in the scenario's [history] {role}_column (gonogo init writes a scenario that "
+                             "names the columns it finds)")
     for forecast, name in scenario.forecast_columns if scenario.forecasts else ():
         if name not in columns:
             raise InputError(f"{label}: no column {quoted(name)} (the forecast {quoted(forecast)})"
@@ -346,7 +331,7 @@ def history_from_frame(frame: pd.DataFrame, scenario: Scenario, *, label: str = 
     if spec.site_column is not None:
         codes, site_names = _parse_sites(frame[spec.site_column], where, spec.site_column)
         _check_site_tables(scenario, site_names, label, spec.site_column)
-    dates = _parse_dates(frame[spec.date_column], where, spec.date_column)
+    dates = parse_dates(frame[spec.date_column], spec.date_format, where, spec.date_column)
     _check_order(dates, where, spec.date_column, codes, site_names)
     forecasts, present, dropped = _parse_forecasts(frame, scenario, where)
     p = forecasts[0]
@@ -539,23 +524,6 @@ def _blank(values: pd.Series) -> np.ndarray:
     return (values.isna() | as_text.eq("") | as_text.str.lower().isin(["nan", "na", "nat", "none"])).to_numpy()
 
 
-def _parse_dates(values: pd.Series, where: _Where, column: str) -> np.ndarray:
-    blank = _blank(values)
-    if blank.any():
-        raise where.error(np.flatnonzero(blank)[0], column, "the date is missing; fill it in as YYYY-MM-DD")
-    if pd.api.types.is_datetime64_any_dtype(values):
-        parsed = pd.to_datetime(values)
-    else:
-        parsed = pd.to_datetime(values.astype(str).str.strip(), errors="coerce", format="ISO8601")
-    bad = parsed.isna().to_numpy()
-    if bad.any():
-        i = np.flatnonzero(bad)[0]
-        raise where.error(i, column, f"{excerpt(values.iloc[i])} is not a date; write dates as YYYY-MM-DD")
-    if getattr(parsed.dt, "tz", None) is not None:
-        parsed = parsed.dt.tz_localize(None)
-    return parsed.to_numpy().astype("datetime64[D]")
-
-
 def _check_order(dates: np.ndarray, where: _Where, column: str, codes: np.ndarray | None = None,
                  names: tuple[str, ...] = ()) -> None:
     if codes is not None:
@@ -606,10 +574,17 @@ def _parse_probability(values: pd.Series, where: _Where, column: str, or_else: s
     if outside.any():
         i = np.flatnonzero(outside)[0]
         value = numbers[i]
-        hint = (f"write {value / 100:g}, not {value:g}" if 1 < value <= 100
-                else "probabilities run from 0 to 1")
+        hint = (f"the column looks like percentages; divide them by 100 (write {value / 100:g}, not {value:g})"
+                if _looks_like_percentages(numbers) else "probabilities run from 0 to 1; check this cell")
         raise where.error(i, column, f"{value:g} is outside [0, 1]; {hint}")
     return numbers
+
+
+def _looks_like_percentages(numbers: np.ndarray) -> bool:
+    """Every value from 0 to 100 and most of those that are not 0 above 1: percentages, not a slip
+    in a column of probabilities (the project's own rule)."""
+    nonzero = numbers[numbers != 0]
+    return bool(((numbers >= 0) & (numbers <= 100)).all() and nonzero.size and (nonzero > 1).mean() > 0.5)
 
 
 def _parse_outcome(frame: pd.DataFrame, spec: HistorySection, where: _Where,
@@ -625,8 +600,9 @@ def _parse_outcome(frame: pd.DataFrame, spec: HistorySection, where: _Where,
         if blank.any():
             raise where.error(np.flatnonzero(blank)[0], column, "the outcome is missing; write 1 or 0")
         text = values.astype(str).str.strip().str.lower()
-        is_true = text.isin(_TRUE).to_numpy()
-        is_false = text.isin(_FALSE).to_numpy()
+        number = pd.to_numeric(text, errors="coerce").to_numpy(dtype=float)  # 1.00 and 0.00 as exported
+        is_true = text.isin(TRUE_WORDS).to_numpy() | (number == 1)
+        is_false = text.isin(FALSE_WORDS).to_numpy() | (number == 0)
         bad = ~(is_true | is_false)
         if bad.any():
             i = np.flatnonzero(bad)[0]

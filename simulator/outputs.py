@@ -21,6 +21,7 @@ import pandas as pd
 
 from . import __version__
 from .account import account
+from .datapackage import datapackage
 from .cautions import cautions
 from .decision import distribution
 from .result_set import check_out_folder, write_files
@@ -169,7 +170,11 @@ def render_files(result: RunResult) -> dict[str, bytes]:
         "sites.csv": lambda: _csv(result.portfolio.table),
         "forecasts.csv": lambda: _csv(result.comparison.table()),
     }
-    files = {name: render[name]() for name in table_names(result)}  # the report lists the same names
+    scenario = result.scenario
+    render["datapackage.json"] = lambda: datapackage(files, scenario.slug, scenario.name, scenario.currency)
+    files: dict[str, bytes] = {}
+    for name in table_names(result):  # the report lists the same names; datapackage.json comes last
+        files[name] = render[name]()
     files.update(render_report(result, contents))
     return files
 
@@ -188,6 +193,7 @@ def table_names(result: RunResult) -> list[str]:
         names.append("sites.csv")
     if result.comparison is not None:
         names.append("forecasts.csv")
+    names.append("datapackage.json")  # describes the CSV files above, so it comes after them
     return names
 
 

@@ -56,7 +56,8 @@ FILE_NOTES = {"summary.json": " (every headline number, full precision)", "cutof
               "selection.csv": " (the cutoff chosen on earlier periods, priced on later ones)",
               "stress.csv": " (every stress case)", "sites.csv": " (each site at its own cutoff)",
               "calibration.csv": " (the recalibration curve)",
-              "forecasts.csv": " (each forecast at every cutoff, on the same replicate seasons)"}
+              "forecasts.csv": " (each forecast at every cutoff, on the same replicate seasons)",
+              "datapackage.json": " (what every column of the CSV files means, with its unit)"}
 
 _ENV = jinja2.Environment(loader=jinja2.PackageLoader("simulator", "templates"),
                           autoescape=jinja2.select_autoescape(["html", "j2"]),

@@ -14,7 +14,9 @@ years 1900 to 2200), and listed in the README's key table.
 
 from __future__ import annotations
 
+import codecs
 import hashlib
+import re
 import tomllib
 import types
 import typing
@@ -30,12 +32,15 @@ from . import decimals
 from .errors import InputError, did_you_mean, excerpt, printable, quoted, read_input_file
 
 __all__ = ["Scenario", "Costs", "read_scenario", "scenario_from_text", "cutoff_grid",
-           "break_even_probability", "cost_warnings", "WEEKDAYS", "BASELINES",
+           "break_even_probability", "cost_warnings", "WEEKDAYS", "BASELINES", "COST_KEYS", "COST_PLACEHOLDER",
            "OperationsSection", "StressCase", "CostChanges", "OperationsChanges", "STRESS_CHANGES",
            "SiteSection", "SiteOperations", "CostFactors", "OperationsFactors", "MAX_MONEY",
            "MAX_FACTOR", "MAX_TEXT", "MAX_SCENARIO_BYTES", "YEARS", "MAX_SEASON_COSTS", "check_workload"]
 
 WEEKDAYS = ("mon", "tue", "wed", "thu", "fri", "sat", "sun")
+COST_KEYS = ("hit", "false_alarm", "miss", "correct_negative")
+COST_PLACEHOLDER = "fill in"
+"""What ``gonogo init`` writes for each cost: text, so that the schema refuses it until replaced."""
 _WEEKDAY_NAMES = ("monday", "tuesday", "wednesday", "thursday", "friday", "saturday", "sunday")
 BASELINES = ("never_act", "always_act", "persistence", "seasonal_rate", "perfect")
 
@@ -95,6 +100,57 @@ class HistorySection(_Section):
     side: Literal["above", "below"] | None = None
     direction: Literal["up", "down"] | None = None
     validation_from: date | None = None
+    # how the file is written; each found from the file when not given (simulator.sheets)
+    sheet: Name | None = None  # an .xlsx workbook's sheet; default the first
+    separator: Literal[",", ";", "\t"] | None = None
+    decimal: Literal[".", ","] | None = None
+    encoding: Annotated[str, Field(max_length=40)] | None = None
+    date_format: Annotated[str, Field(max_length=40)] | None = None  # strftime codes, e.g. "%d.%m.%Y"; default ISO or found
+
+    @field_validator("separator", mode="before")
+    @classmethod
+    def _tab_by_name(cls, value):
+        return "\t" if isinstance(value, str) and value.lower() in ("tab", "\\t") else value
+
+    @field_validator("encoding")
+    @classmethod
+    def _known_encoding(cls, value):
+        if value is None:
+            return value
+        try:
+            codecs.lookup(value)
+        except LookupError:
+            raise ValueError(f'{quoted(value)} is not an encoding Python knows; use for example "utf-8" or '
+                             '"cp1252"') from None
+        return value
+
+    @field_validator("date_format")
+    @classmethod
+    def _strftime_codes(cls, value):
+        if value is None:
+            return value
+        codes = set(re.findall(r"%(.)", value))
+        if not codes & {"d", "j"} or not codes & {"Y", "y"} or not codes & {"m", "b", "B", "j"}:
+            raise ValueError(f'{quoted(value)} needs codes for the day, month and year, for example "%d.%m.%Y" '
+                             'or "%m/%d/%Y"')
+        return value
+
+    @model_validator(mode="after")
+    def _distinct_columns(self):
+        roles = [("date_column", self.date_column), ("probability_column", self.probability_column),
+                 ("value_column" if self.value_column else "outcome_column", self.outcome_source),
+                 ("site_column", self.site_column)]
+        seen: dict[str, str] = {}
+        for key, column in roles:
+            if column is None:
+                continue
+            if column in seen:
+                raise ValueError(f'{seen[column]} and {key} both name column "{column}"; the outcome must '
+                                 "come from a column of its own (a forecast judged against itself looks perfect)"
+                                 if "probability_column" in (seen[column], key) else
+                                 f'{seen[column]} and {key} both name column "{column}"; give each its own column')
+            seen[column] = key
+        return self
     # a row where one of the [forecasts] has no probability: refuse the file, or leave the row out
     # of the evaluation for every forecast (they are compared on the same occasions)
     missing_forecast: Literal["refuse", "drop_row"] = "refuse"
@@ -163,6 +219,16 @@ class Costs(_Section):
     false_alarm: Money
     miss: Money
     correct_negative: Money = 0.0
+
+    @model_validator(mode="before")
+    @classmethod
+    def _filled_in(cls, data):
+        if isinstance(data, dict) and COST_PLACEHOLDER in data.values():
+            blank = [k for k, v in data.items() if v == COST_PLACEHOLDER]
+            raise ValueError(f"fill in the four costs ({', '.join(COST_KEYS)}: money per occasion in the "
+                             f"scenario's currency, negative for income); {', '.join(blank)} "
+                             f"{'is' if len(blank) == 1 else 'are'} not a number yet")
+        return data
 
     def as_array(self) -> np.ndarray:
         """(hit, false_alarm, miss, correct_negative) as float64."""

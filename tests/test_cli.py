@@ -86,10 +86,10 @@ def test_binary_garbage_in_a_csv_is_refused(good, write_history, out):
     assert_refused(result, out, "garbage.csv: cannot be read", "save it as CSV")
 
 
-def test_spreadsheet_file_is_refused_with_the_formats_we_read(good, write_history, out):
-    write_history(b"PK\x03\x04" + bytes(200), "forecasts.xlsx")  # the zip header of an .xlsx
+def test_broken_workbook_is_refused_in_one_line(good, write_history, out):
+    write_history(b"PK\x03\x04" + bytes(200), "forecasts.xlsx")  # the zip header of an .xlsx, no more
     result = gonogo("run", good, "--history", good.parent / "forecasts.xlsx", "--out", out)
-    assert_refused(result, out, "forecasts.xlsx", "give a .csv or .parquet file")
+    assert_refused(result, out, "forecasts.xlsx: cannot be read as an Excel workbook", "save it again")
 
 
 def test_empty_file_is_refused(good, write_history, out):
@@ -130,10 +130,11 @@ BAD_CELLS = {
     "unparseable date": (4, "date", "5th Jan 2020",
                          ['row 6, column "date"', "'5th Jan 2020' is not a date", "YYYY-MM-DD"]),
     "missing date": (9, "date", "", ['row 11, column "date"', "the date is missing"]),
-    "probability in percent": (12, "probability", "17",
-                               # STYLE.md section 4 gives this very message as the model
-                               ['history.csv row 14, column "probability": 17 is outside [0, 1]; '
-                                "write 0.17, not 17"]),
+    # one 17 among probabilities is a slip, not a percentage: advice about percentages is kept for a
+    # column that looks like percentages (test_history.py)
+    "probability out of range": (12, "probability", "17",
+                                 ['history.csv row 14, column "probability": 17 is outside [0, 1]; '
+                                  "probabilities run from 0 to 1; check this cell"]),
     "negative probability": (3, "probability", "-0.2",
                              ['row 5, column "probability": -0.2 is outside [0, 1]',
                               "probabilities run from 0 to 1"]),
@@ -244,7 +245,7 @@ def test_check_command_refuses_bad_input_the_same_way(write_history, text_frame,
     text_frame.loc[12, "probability"] = "17"
     path = write_history(text_frame)
     result = gonogo("check", path)
-    assert_refused(result, tmp_path / "out", 'row 14, column "probability"', "write 0.17")
+    assert_refused(result, tmp_path / "out", 'row 14, column "probability"', "17 is outside [0, 1]")
 
 
 # ------------------------------------------------------------------------------------------------

@@ -31,7 +31,7 @@ def test_readme_shows_the_demo_headline_as_the_demo_prints_it(tmp_path):
     console = Console(width=100, record=True, file=open(tmp_path / "out.txt", "w"))
     console.print(_headline(result))
     printed = [line.rstrip() for line in console.export_text().splitlines()]
-    shown = _readme_block("`make demo` (or `gonogo demo`) prints:")
+    shown = _readme_block("`make demo` (or `.venv/bin/gonogo demo`) prints:")
     table = [line for line in printed if line.strip()]
     assert shown[: len(table)] == table
 
@@ -62,6 +62,37 @@ def test_readme_quotes_the_stress_headline_as_the_run_says_it(stress_run):
     headline = " ".join(wetter.views[0].headline.split())
     quoted = " ".join(re.search(r'\*"(Keep the cutoff.*?)"\*', README, flags=re.S).group(1).split())
     assert headline.startswith(quoted)
+
+
+def test_readme_path_from_a_spreadsheet_runs_as_written(tmp_path, monkeypatch):
+    """The README's init, check and run commands, in order, on the demo's history, after the four
+    costs are filled in (with the demo's own costs)."""
+    import shlex
+
+    from typer.testing import CliRunner
+
+    from simulator.cli import app
+
+    section = README[README.index("## Your own history"):README.index("## Commands")]
+    commands = [shlex.split(line)[1:] for block in re.findall(r"```sh\n(.*?)```", section, flags=re.S)
+                for line in block.splitlines() if line.startswith(".venv/bin/gonogo ")]
+    assert [c[0] for c in commands] == ["init", "check", "run"]
+    monkeypatch.chdir(tmp_path)
+    write_demo_files(tmp_path / "outputs" / "demo")
+    runner = CliRunner()
+    made = runner.invoke(app, commands[0])
+    assert made.exit_code == 0, made.output
+    scenario = tmp_path / commands[0][2]
+    demo_costs = {"hit": 2400, "false_alarm": 7400, "miss": 3800, "correct_negative": 3800}  # README's demo
+    text = scenario.read_text()
+    for key, value in demo_costs.items():
+        text = re.sub(rf'^{key} = "fill in"', f"{key} = {value}", text, flags=re.M)
+    scenario.write_text(text)
+    for command in commands[1:]:
+        extra = ["--replicates", "20"] if command[0] == "run" else []
+        result = runner.invoke(app, command + extra)
+        assert result.exit_code == 0, result.output
+    assert (tmp_path / "outputs" / scenario.stem / "report.html").exists()
 
 
 def test_readme_quotes_the_bad_season_choice_as_the_run_makes_it(stress_run):
