@@ -80,6 +80,7 @@ class Words:
     labels: dict[str, str] = field(default_factory=dict)  # strategy name -> short legend label
     reference: str = "never_act"
     decimals: int = 2  # decimals of a cutoff on this grid
+    best: str = "recommended"  # the lowest-cost cutoff: "cheapest" when the verdict advises against the forecast
 
     def __post_init__(self) -> None:
         for name in ("event", "action", "currency", "occasion"):
@@ -213,7 +214,7 @@ def cost_chart(cutoffs: np.ndarray, mean_cost: np.ndarray, p05_cost: np.ndarray,
             ax.plot(crossings, [ref_cost] * len(crossings), "D", color=OKABE_ITO["black"], ms=6,
                     mfc="white", mew=1.5, zorder=5, label="Where the forecast stops beating the reference")
         ax.axvline(recommended, color=OKABE_ITO["black"], lw=1.6, zorder=4,
-                   label=f"Recommended cutoff {recommended:.{words.decimals}f}")
+                   label=f"{words.best.capitalize()} cutoff {recommended:.{words.decimals}f}")
         marks = [(recommended, f"{recommended:.{words.decimals}f}", {"fontweight": "bold"})]
         if np.isfinite(theoretical):
             ax.axvline(theoretical, color=_GREY, lw=1.2, linestyle=(0, (1, 2)), zorder=3,
@@ -280,7 +281,7 @@ def savings_chart(savings: np.ndarray, reference_label: str, words: Words, narro
                             f"({words.currency}; below 0: the forecast costs more)", wrap))
         ax.set_ylabel("Simulated seasons (count)")
         _money_axis(ax.xaxis, few=narrow)
-        _title(ax, f"Savings at the recommended cutoff ({words.currency} per season)", narrow)
+        _title(ax, f"Savings at the {words.best} cutoff ({words.currency} per season)", narrow)
         fig.legend(loc="outside lower center", ncol=2 if narrow else 4)
         return Chart(_png(fig))
 
@@ -327,7 +328,7 @@ def roc_chart(false_alarm_rate: np.ndarray, hit_rate: np.ndarray, point: tuple[f
         ax.plot([0, 1], [0, 1], color=_GREY, lw=1, linestyle=(0, (4, 2)), label="No skill")
         ax.plot(x, y, color=OKABE_ITO["blue"], lw=2, label=f"This forecast (area {auc:.2f})")
         ax.plot(*point, "o", color=OKABE_ITO["vermillion"], ms=8, mec="black", zorder=5,
-                label=f"Recommended cutoff {cutoff:.{words.decimals}f}")
+                label=f"{words.best.capitalize()} cutoff {cutoff:.{words.decimals}f}")
         ax.set_xlim(0, 1)
         ax.set_ylim(0, 1.01)
         ax.set_aspect("equal")
@@ -354,7 +355,7 @@ def value_chart(ratios: np.ndarray, potential: np.ndarray, at_ratio: np.ndarray,
         if np.isfinite(scenario_ratio):
             ax.axvline(scenario_ratio, color=_GREY, lw=1.2, linestyle=(0, (1, 2)))
             ax.plot([scenario_ratio], [scenario_value], "o", color=OKABE_ITO["vermillion"], mec="black",
-                    ms=8, zorder=5, label=f"This scenario ({scenario_ratio:.{words.decimals}f}) at the recommended cutoff")
+                    ms=8, zorder=5, label=f"This scenario ({scenario_ratio:.{words.decimals}f}) at the {words.best} cutoff")
         finite = np.concatenate([potential[np.isfinite(potential)], at_ratio[np.isfinite(at_ratio)], [0.0]])
         ax.set_ylim(max(-0.5, float(finite.min()) - 0.05), 1.02)
         ax.set_xlim(0, 1)
@@ -375,8 +376,8 @@ def stress_chart(names: Sequence[str], mean: Sequence[float], p05: Sequence[floa
         ax = fig.add_subplot()
         y = np.arange(len(names))[::-1]
         mean, p05, p95, best, reference = (np.asarray(v, dtype=float) for v in (mean, p05, p95, best, reference))
-        ax.hlines(y, p05, p95, color=OKABE_ITO["sky_blue"], lw=7, label="90% of seasons at the recommended cutoff")
-        ax.plot(mean, y, "o", color=OKABE_ITO["blue"], ms=8, label="Expected, at the recommended cutoff")
+        ax.hlines(y, p05, p95, color=OKABE_ITO["sky_blue"], lw=7, label=f"90% of seasons at the {words.best} cutoff")
+        ax.plot(mean, y, "o", color=OKABE_ITO["blue"], ms=8, label=f"Expected, at the {words.best} cutoff")
         ax.plot(best, y, "D", color=OKABE_ITO["vermillion"], mfc="white", mew=1.6, ms=7,
                 label="Expected, at the case's own best cutoff")
         style = BASELINE_STYLE.get(words.reference, {"color": _GREY})
@@ -406,7 +407,7 @@ def components_chart(names: Sequence[str], values: Sequence[float], reference: S
         y = np.arange(len(names))[::-1].astype(float)
         height = 0.38 if reference is not None else 0.6
         ax.barh(y + (height / 2 if reference is not None else 0), values, height=height,
-                color=OKABE_ITO["blue"], label="Following the forecast at the recommended cutoff")
+                color=OKABE_ITO["blue"], label=f"Following the forecast at the {words.best} cutoff")
         if reference is not None:
             ax.barh(y - height / 2, reference, height=height, color=OKABE_ITO["vermillion"], hatch="///",
                     edgecolor="white", label="The reference rule")
@@ -434,7 +435,7 @@ def completion_chart(dates: Sequence[str], shares: Sequence[float], reference: S
         done = 100 * np.asarray(shares, dtype=float)
         # finished during a day: counted from the end of it
         ax.step(np.concatenate([[day[0]], day + 1]), np.concatenate([[0.0], done]), where="post",
-                color=OKABE_ITO["blue"], lw=2, label="Following the forecast at the recommended cutoff")
+                color=OKABE_ITO["blue"], lw=2, label=f"Following the forecast at the {words.best} cutoff")
         if reference is not None:
             ax.step(np.concatenate([[day[0]], day + 1]), np.concatenate([[0.0], 100 * np.asarray(reference)]),
                     where="post", color="#555555", lw=1.5, linestyle=(0, (1, 1.5)),

@@ -444,8 +444,11 @@ def render_report(result, summary: Mapping[str, Any]) -> dict[str, bytes]:
     action, event = scenario.decision.action, scenario.event.name
     occasion = "day" if history.frequency.is_daily else "occasion"
     decimals = cutoff_decimals(scenario.decision.cutoffs[2])
+    # the lowest-cost cutoff is "recommended" only when the verdict advises acting on the forecast
+    advised = bool((summary.get("verdict") or {}).get("use_forecast", True))
+    best_word = "recommended" if advised else "cheapest"
     words = Words(event=event, action=action, currency=currency, occasion=occasion,
-                  reference=result.reference, decimals=decimals,
+                  reference=result.reference, decimals=decimals, best=best_word,
                   labels={k: short_label(k, action, occasion) for k in result.baseline_cost})
     best = decision.recommended_index
     row = table.iloc[best]
@@ -514,13 +517,13 @@ def render_report(result, summary: Mapping[str, Any]) -> dict[str, bytes]:
                    **{k: money(v, currency) for k, v in d.items()},
                    "versus": money(summary["strategies"][result.reference]["mean"] - d["mean"], currency)}
                   for name, d in summary["strategies"].items()]
-    explorer = {"recommended": best, "cutoff": [float(c) for c in result.cutoffs],
+    explorer = {"recommended": best, "best_title": f"At the {best_word} cutoff", "cutoff": [float(c) for c in result.cutoffs],
                 "mean_cost": [float(c) for c in table["mean_cost"]],
                 "geometry": {"wide": charts["season_cost"].geometry, "narrow": phone["season_cost"].geometry},
                 "phone": PHONE_MEDIA,
                 "rows": _explorer_rows(table, currency, decimals)}
     context = {
-        "s": summary, "scenario": scenario, "history": history, "words": words, "version": __version__,
+        "s": summary, "best_word": best_word, "scenario": scenario, "history": history, "words": words, "version": __version__,
         "recommendation": recommendation(summary, occasion, decimals), "numbers": headline_numbers(summary, decimals),
         "caution": CAUTION, "cautions": summary["cautions"], "hazard": scenario.event.hazard, "occasion": occasion,
         "verdict": summary.get("verdict"), "missed": summary.get("events_without_action"),

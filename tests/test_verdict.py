@@ -11,6 +11,7 @@ the gritting and pump scenarios are invented too.
 from __future__ import annotations
 
 import json
+import re
 
 import numpy as np
 import pytest
@@ -150,6 +151,15 @@ def test_useless_forecast_report_opens_with_the_rule_to_keep(useless_run):
     assert "because priced on each of the 3 past seasons at the cutoff chosen on the others" in first
     assert "when the forecast probability of" not in advice  # no cutoff given as advice
     assert "Keep to the rule" in html
+
+
+def test_useless_forecast_page_and_figures_call_the_cutoff_cheapest_not_recommended(useless_run):
+    _, out = useless_run
+    html = (out / "report.html").read_text(encoding="utf-8")
+    assert 'id="is-recommended">cheapest<' in html
+    assert "At the cheapest cutoff" in html
+    shown = re.sub(r"<script.*?</script>", "", html, flags=re.S)  # what a reader sees
+    assert "recommended cutoff" not in shown.lower()
 
 
 # ---- the computation, against references outside the project -----------------------------------
