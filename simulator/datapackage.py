@@ -119,7 +119,10 @@ _COLUMNS: dict[str, tuple[str, str]] = {
                           "{cur} over the walk-forward seasons"),
     "walk_forward_optimism": ("walk-forward cost minus the cost at one cutoff chosen in hindsight",
                               "{cur} over the walk-forward seasons"),
-    "use_forecast": ("whether acting on the forecast beats the best rule without it at this site", "none"),
+    "use_forecast": ("whether acting on the forecast beats the best rule without it on held-out seasons "
+                     "(sites.csv: at this site; forecasts.csv: this row's forecast)", "none"),
+    "forecast": ("the forecast's name, as listed under [forecasts]", "none"),
+    "recommended": ("true on the row of the forecast's recommended cutoff", "none"),
     "best_rule_without_forecast": ("the cheapest rule that ignores the forecast", "none"),
     "saving_against_best_rule_mean": ("mean saving against the best rule without the forecast",
                                       "{cur} per season"),

@@ -34,6 +34,7 @@ from .decision import Decision, cheaper, distribution, money_tolerance, per_cuto
 from .history import History
 from .selection import ValidationCheck
 from .tables import forecast_scores, forecast_value_curve
+from .verdict import Verdict
 
 __all__ = ["ForecastResult", "ForecastPair", "Comparison", "compare_forecasts", "SCORES"]
 
@@ -49,7 +50,8 @@ class ForecastResult:
     and savings against the reference; ``scores`` its quality on the evaluated history
     (:data:`SCORES` and the event rate); ``value_curve`` its relative economic value across
     cost-loss ratios (Richardson 2000); ``validation`` its honest check, when the history has a
-    validation period.
+    validation period; ``verdict`` whether acting on it beats the best rule without it, judged on
+    held-out seasons (:mod:`simulator.verdict`; the main forecast's is the run's own verdict).
     """
 
     name: str
@@ -59,21 +61,25 @@ class ForecastResult:
     scores: dict[str, float]
     value_curve: pd.DataFrame
     validation: ValidationCheck | None = None
+    verdict: Verdict | None = None
 
     @property
     def cost(self) -> np.ndarray:
         """Season cost at its own recommended cutoff, (n_replicates,)."""
         return self.model_cost[:, self.decision.recommended_index]
 
-    def as_dict(self) -> dict:
-        """This forecast's entry in ``summary.json``'s ``forecasts`` block."""
+    def as_dict(self, currency: str) -> dict:
+        """This forecast's entry in ``summary.json``'s ``forecasts`` block (``currency`` names the
+        money in its verdict's reason)."""
         d = self.decision
         out = {"column": self.column, "recommended_cutoff": d.recommended_cutoff,
                "recommended_cutoff_interval": d.recommended_cutoff_interval,
                "season_cost": distribution(self.cost).as_dict(),
                "savings": {"mean": d.savings.mean, "p05": d.savings.p05, "p95": d.savings.p95,
-                           "prob_saving": d.prob_saving},
-               **{key: self.scores[key] for key in SCORES}}
+                           "prob_saving": d.prob_saving}}
+        if self.verdict is not None:  # as the run's "verdict" (held-out seasons)
+            out["verdict"] = self.verdict.as_dict(currency)
+        out.update({key: self.scores[key] for key in SCORES})
         if self.validation is not None:
             v = self.validation
             out["validation"] = {"chosen_on": "training period", "chosen_cutoff": v.chosen_cutoff,
@@ -132,21 +138,23 @@ class Comparison:
                 return p
         raise KeyError((a, b))
 
-    def summary(self) -> dict:
+    def summary(self, currency: str) -> dict:
         """The ``forecasts`` and ``forecast_pairs`` blocks of ``summary.json``."""
-        return {"forecasts": {f.name: f.as_dict() for f in self.forecasts},
+        return {"forecasts": {f.name: f.as_dict(currency) for f in self.forecasts},
                 "forecast_pairs": [p.as_dict() for p in self.pairs]}
 
     def table(self) -> pd.DataFrame:
         """``forecasts.csv``: one row per forecast and cutoff, its season cost distribution and its
-        savings against the reference, and whether it is the forecast's recommended cutoff."""
+        savings against the reference, whether it is the forecast's recommended cutoff, and, on
+        every row of a forecast, whether its verdict advises using it (``use_forecast``)."""
         frames = []
         for f in self.forecasts:
             columns = per_cutoff(f.model_cost, self.reference_cost)
             recommended = np.zeros(self.cutoffs.size, dtype=bool)
             recommended[f.decision.recommended_index] = True
+            use = {} if f.verdict is None else {"use_forecast": f.verdict.use_forecast}
             frames.append(pd.DataFrame({"forecast": f.name, "cutoff": self.cutoffs, **columns,
-                                        "recommended": recommended}))
+                                        "recommended": recommended, **use}))
         return pd.concat(frames, ignore_index=True)
 
 
@@ -154,7 +162,8 @@ def compare_forecasts(history: History, model_costs: Sequence[np.ndarray], refer
                       cutoffs: np.ndarray, columns: Sequence[str],
                       decide_one: Callable[[np.ndarray], Decision],
                       check: Callable[[History], ValidationCheck | None],
-                      main_quality: tuple[dict[str, float], pd.DataFrame] | None = None) -> Comparison:
+                      main_quality: tuple[dict[str, float], pd.DataFrame] | None = None,
+                      judge_one: Callable[[History], Verdict | None] | None = None) -> Comparison:
     """Decide for each forecast and compare every pair on the same replicate seasons.
 
     Parameters
@@ -168,6 +177,7 @@ def compare_forecasts(history: History, model_costs: Sequence[np.ndarray], refer
     decide_one : the run's decision for one forecast's costs (the same bootstrap draws for each).
     check : the honest check of a history with a validation period (None without one).
     main_quality : the main forecast's scores and value curve, when the run has them already.
+    judge_one : the verdict of one forecast's history (held-out seasons, :mod:`simulator.verdict`).
     """
     results = []
     for j, name in enumerate(history.forecast_names):
@@ -178,7 +188,8 @@ def compare_forecasts(history: History, model_costs: Sequence[np.ndarray], refer
             quality, value_curve = forecast_scores(own), forecast_value_curve(own, cutoffs)
         results.append(ForecastResult(name=name, column=columns[j], decision=decide_one(model_costs[j]),
                                       model_cost=model_costs[j], scores=quality, value_curve=value_curve,
-                                      validation=check(own)))
+                                      validation=check(own),
+                                      verdict=None if judge_one is None else judge_one(own)))
     pairs = []
     for a, b in combinations(results, 2):
         tolerance = money_tolerance(a.cost, b.cost)

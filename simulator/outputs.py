@@ -28,7 +28,6 @@ from .result_set import check_out_folder, write_files
 from .run import RunResult
 from .selection import Calibration, Selection
 from .stress import StressResult
-from .verdict import Verdict
 
 __all__ = ["summary", "render_files", "write_files", "check_out_folder", "SCHEMA"]
 
@@ -55,7 +54,7 @@ def summary(result: RunResult) -> dict[str, Any]:
     """The contents of ``summary.json`` (schema 1).
 
     Among its keys: ``cautions``, every caution of the run as a list of strings (the hazard's
-    first, the general one, the operating rules'); ``verdict`` (:func:`_verdict_entry`); with
+    first, the general one, the operating rules'); ``verdict`` (:meth:`simulator.verdict.Verdict.as_dict`); with
     ``[event] hazard = true``, ``events_without_action``: event occasions a season leaves without
     action at the recommended ``cutoff`` (all sites together), mean, p05, p50, p95 over the
     replicate seasons.
@@ -118,9 +117,9 @@ def summary(result: RunResult) -> dict[str, Any]:
     if result.portfolio is not None:  # a site column: the run's numbers above are the portfolio's
         out["portfolio"] = _portfolio_entry(result)
     if result.verdict is not None:  # whether to act on the forecast at all (simulator.verdict)
-        out["verdict"] = _verdict_entry(result.verdict, scenario.currency)
+        out["verdict"] = result.verdict.as_dict(scenario.currency)
     if result.comparison is not None:  # two or more [forecasts]: "forecasts" and "forecast_pairs"
-        out.update(result.comparison.summary())
+        out.update(result.comparison.summary(scenario.currency))
     out = _clean(out)
     out["account"] = [finding.as_dict() for finding in account(out).findings]
     return out
@@ -135,14 +134,6 @@ def _file_names_only(text: str, result: RunResult) -> str:
     return text
 
 
-def _verdict_entry(v: Verdict, currency: str) -> dict[str, Any]:
-    """The ``verdict`` block: ``use_forecast``, ``best_rule_without_forecast``,
-    ``saving_against_best_rule`` (per season, out of sample: mean, p05 and p95 of its 90% interval,
-    prob_saving the confidence that it is above zero) and ``reason``, one plain sentence."""
-    return {"use_forecast": v.use_forecast, "best_rule_without_forecast": v.best_rule,
-            "saving_against_best_rule": {"mean": v.mean, "p05": v.p05, "p95": v.p95,
-                                         "prob_saving": v.prob_saving},
-            "reason": v.reason(currency)}
 def _objectives_entry(result: RunResult) -> dict[str, dict[str, float]]:
     """The cutoff each objective would choose (``decision.choices``), with that cutoff's mean, 95th
     percentile and expected shortfall over the worst 10% of season costs (``cutoffs.csv`` columns),

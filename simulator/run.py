@@ -316,6 +316,13 @@ def run_history(scenario: Scenario, history: History, *, replicates: int | None 
                                 label=_label(scenario),
                                 rules=scenario if scenario.operations is not None else None,
                                 objective=scenario.decision.objective)
+    rule = best_rule({name: float(baseline_cost[name].mean()) for name in RULES})  # ignores the forecast
+
+    def judge_one(own: History) -> Verdict:
+        """Whether acting on ``own``'s forecast beats the best rule without it, on held-out seasons."""
+        return judge(season_costs(own, calendar, cutoffs, scenario), calendar.n_occasions, rule)
+
+    verdict = judge_one(history)
     comparison = None
     if n_forecasts > 1:
         def check(own: History):
@@ -334,9 +341,8 @@ def run_history(scenario: Scenario, history: History, *, replicates: int | None 
             lambda cost: (decision if cost is model_cost else
                           decide(cost, baseline_cost[sim.reference], cutoffs, seasons_per_history,
                                  block_rng(seed, 0, _INTERVAL_STREAM), scenario.decision.objective)),
-            check, main_quality=(quality, value_curve))
-    verdict = judge(season_costs(history, calendar, cutoffs, scenario), calendar.n_occasions,
-                    best_rule({name: float(baseline_cost[name].mean()) for name in RULES}))
+            check, main_quality=(quality, value_curve),
+            judge_one=lambda own: verdict if own is history else judge_one(own))
     unprotected = (_events_without_action(work, decision.recommended_index)
                    if scenario.event.hazard and calibration is None else None)
     return RunResult(scenario=scenario, history=history, calendar=calendar, cutoffs=cutoffs,

@@ -103,6 +103,16 @@ class Verdict:
     n_seasons: int
     held_out: tuple[tuple[int, float, str, float], ...]
 
+    def as_dict(self, currency: str) -> dict:
+        """The ``verdict`` block of ``summary.json``: ``use_forecast``, ``best_rule_without_forecast``,
+        ``saving_against_best_rule`` (per season, out of sample: mean, p05 and p95 of its 90%
+        interval, prob_saving the confidence that it is above zero) and ``reason``, one plain
+        sentence. The run's own verdict and each forecast's under ``[forecasts]`` share it."""
+        return {"use_forecast": self.use_forecast, "best_rule_without_forecast": self.best_rule,
+                "saving_against_best_rule": {"mean": self.mean, "p05": self.p05, "p95": self.p95,
+                                             "prob_saving": self.prob_saving},
+                "reason": self.reason(currency)}
+
     def reason(self, currency: str) -> str:
         """Why the forecast is worth using or not, in one plain sentence, its money per season."""
         rule = RULE_WORDS[self.best_rule]
