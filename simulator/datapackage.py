@@ -124,14 +124,15 @@ _COLUMNS: dict[str, tuple[str, str]] = {
     "forecast": ("the forecast's name, as listed under [forecasts]", "none"),
     "recommended": ("true on the row of the forecast's recommended cutoff", "none"),
     "best_rule_without_forecast": ("the cheapest rule that ignores the forecast", "none"),
-    "saving_against_best_rule_mean": ("mean saving against the best rule without the forecast",
+    "saving_against_best_rule_mean": ("mean saving per season against the best rule without the forecast, each "
+                                      "past season priced at the cutoff and rule chosen on the others",
                                       "{cur} per season"),
-    "saving_against_best_rule_p05": ("5th percentile of the saving against the best rule without the forecast",
-                                     "{cur} per season"),
-    "saving_against_best_rule_p95": ("95th percentile of the saving against the best rule without the forecast",
-                                     "{cur} per season"),
-    "saving_against_best_rule_prob": ("share of replicate seasons that save against the best rule without the "
-                                      "forecast", "share"),
+    "saving_against_best_rule_p05": ("lower end of the 90% interval (Student's t over the held-out seasons) of that "
+                                     "mean saving", "{cur} per season"),
+    "saving_against_best_rule_p95": ("upper end of the 90% interval (Student's t over the held-out seasons) of that "
+                                     "mean saving", "{cur} per season"),
+    "saving_against_best_rule_prob": ("confidence (Student's t over the held-out seasons) that the mean saving "
+                                      "against the best rule without the forecast is above zero", "probability"),
     "walk_forward_flagged_seasons": ("seasons dearer than their training range", "none"),
 }
 
