@@ -48,6 +48,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from . import scoring
+from .account import money  # the one formatter of money in prose (as stress.py uses it)
 from .costs import baseline_actions, occasion_costs, price
 from .history import History
 from .resample import Calendar
@@ -119,11 +120,11 @@ class Verdict:
         if self.n_seasons < 2:
             return (f"The history holds {self.n_seasons} season, so a cutoff cannot be checked on a season it was "
                     f"not chosen on; {rule} is the cheapest rule without the forecast.")
-        versus = (f"saved {_money(self.mean, currency)} a season on average over the best rule without it ({rule})"
-                  if self.mean >= 0 else f"cost {_money(-self.mean, currency)} more a season on average than the "
+        versus = (f"saved {money(self.mean, currency)} a season on average over the best rule without it ({rule})"
+                  if self.mean >= 0 else f"cost {money(-self.mean, currency)} more a season on average than the "
                   f"best rule without it ({rule})")
         found = (f"Priced on each of the {self.n_seasons} past seasons at the cutoff chosen on the others, acting on "
-                 f"the forecast {versus} (90% interval {_money(self.p05, currency)} to {_money(self.p95, currency)})")
+                 f"the forecast {versus} (90% interval {money(self.p05, currency)} to {money(self.p95, currency)})")
         if self.use_forecast or self.mean < 0:
             return found + "."
         return found + ", not clearly more than a forecast of no skill saves by chance."
@@ -239,14 +240,3 @@ def _with_costs(history: History, cutoffs: np.ndarray, scenario: Scenario, seaso
             rules[f, :, r] = np.bincount(index, weights=cost, minlength=k)
     return SeasonCosts(model=model, rules=rules, occasions=np.bincount(index, minlength=k), seasons=seasons,
                        cutoffs=cutoffs)
-
-
-def _money(value: float, currency: str) -> str:
-    """Money in prose: three significant figures, thousands separated (files keep full precision)."""
-    if not math.isfinite(value):
-        return "\u2013"
-    if value == 0:
-        return f"0 {currency}"
-    digits = 3 - int(math.floor(math.log10(abs(value)))) - 1
-    rounded = round(value, digits)
-    return f"{rounded:,.{max(digits, 0)}f} {currency}"
