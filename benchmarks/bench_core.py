@@ -23,10 +23,10 @@ import numpy as np
 import pandas as pd
 from sklearn.metrics import confusion_matrix
 
-from simulator.costs import SeasonPricer
-from simulator.history import history_from_frame
-from simulator.resample import Resampler, season_calendar
-from simulator.scenario import scenario_from_text
+from simulator.pricing.costs import SeasonPricer
+from simulator.inputs.history import history_from_frame
+from simulator.replay.resample import Resampler, season_calendar
+from simulator.inputs.scenario import scenario_from_text
 
 SCENARIO = """
 name = "bench"

@@ -20,9 +20,9 @@ import numpy as np
 import pandas as pd
 
 from bench_core import SCENARIO, synthetic_frame  # the same history and season as the core's benchmark
-from simulator.history import history_from_frame
+from simulator.inputs.history import history_from_frame
 from simulator.run import run_history
-from simulator.scenario import scenario_from_text
+from simulator.inputs.scenario import scenario_from_text
 
 SIMULATION = """
 [simulation]

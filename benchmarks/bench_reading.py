@@ -17,9 +17,9 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from simulator.history import read_history
-from simulator.scenario import scenario_from_text
-from simulator.sheets import read_table
+from simulator.inputs.history import read_history
+from simulator.inputs.scenario import scenario_from_text
+from simulator.inputs.sheets import read_table
 
 
 def _median_seconds(call, rounds: int = 3) -> float:

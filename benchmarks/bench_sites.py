@@ -45,8 +45,8 @@ import numpy as np
 import pandas as pd
 
 from simulator import history_from_frame, run_history, scenario_from_text
-from simulator.parallel import prepare
-from simulator.resample import season_calendar
+from simulator.execution.parallel import prepare
+from simulator.replay.resample import season_calendar
 
 FIXED = """
 name = "bench sites, fixed costs"

@@ -31,14 +31,15 @@ from rich.text import Text
 from gonogo_command import raise_stopped, stop_name
 
 from . import __version__
-from .account import account, money, season_name, seasons_text, share, signed_money, strategy_label
-from .dates import human_format
-from .errors import InputError, printable
-from .history import read_history
-from .outputs import check_out_folder, render_files, summary, write_files
-from .parallel import CLUSTER_ENV
+from .account.findings import account, season_name, seasons_text, strategy_label
+from .notation.prose import money, share, signed_money
+from .inputs.dates import human_format
+from .inputs.errors import InputError, printable
+from .inputs.history import read_history
+from .account.outputs import check_out_folder, render_files, summary, write_files
+from .execution.parallel import CLUSTER_ENV
 from .run import RunResult, run
-from .scenario import Costs, Scenario, read_scenario
+from .inputs.scenario import Costs, Scenario, read_scenario
 
 app = typer.Typer(add_completion=False, no_args_is_help=True, pretty_exceptions_enable=False,
                   rich_markup_mode=None,
@@ -435,7 +436,7 @@ def demo_command(
 
     Writes the demo's history and scenario into the output folder, runs them, and prints the headline.
     """
-    from .demo import write_demo_files
+    from .demo.generator import write_demo_files
 
     with _stops("the demo did not finish; the results in the output folder are as they were"), _user_errors():
         check_out_folder(out, force)
@@ -452,7 +453,7 @@ def check_command(
                                                   "[season] say how to read the history.")] = None,
 ) -> None:
     """Check a history and describe it (rows, period, event rate, forecast quality) without simulating."""
-    from . import scoring
+    from .pricing import scoring
 
     with _stops("the check did not finish"), _user_errors():
         spec = (read_scenario(scenario) if scenario is not None
@@ -494,7 +495,7 @@ def init_command(
     The scenario says what was found and marks each choice made. The costs are left for you to fill
     in: check and run refuse the scenario until they are numbers.
     """
-    from .starter import find_layout, starter_scenario, write_scenario
+    from .inputs.starter import find_layout, starter_scenario, write_scenario
 
     with _user_errors():
         if scenario.suffix.lower() != ".toml":

@@ -1,7 +1,7 @@
 """One path through a run: the Python interface, which the command line calls.
 
 ``run(scenario)`` reads the history, draws the replicate seasons, prices every strategy on them, and
-returns a :class:`RunResult` holding numbers only (no files are written here; see ``outputs.py``).
+returns a :class:`RunResult` holding numbers only (no files are written here; see ``account/outputs.py``).
 
 The pricing is cut into tasks, each a fixed chunk of :data:`CHUNK_BLOCKS` seeded replicate blocks
 for a group of sites, and run by an executor of :mod:`simulator.parallel` (this process, local
@@ -30,24 +30,24 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from . import decimals
-from .blocklength import optimal_block_length
-from .costs import PricedBlock, SeasonPricer, occasion_costs
-from .decision import Decision, Distribution, decide, distribution
-from .errors import InputError
-from .forecasts import Comparison, compare_forecasts
-from .history import History, read_history
-from .operations import OperationsResult, UserProcess, make_rules
-from .operations_fast import OperationsPricer
-from .parallel import Executor, InlineExecutor, open_executor, prepare
-from .resample import BLOCK, Calendar, Resampler, block_rng, calendar_warnings, n_blocks, season_calendar
-from .scenario import (BASELINES, Scenario, break_even_probability, check_workload, cost_warnings,
+from .notation import decimals
+from .replay.blocklength import optimal_block_length
+from .pricing.costs import PricedBlock, SeasonPricer, occasion_costs
+from .pricing.decision import Decision, Distribution, decide, distribution
+from .inputs.errors import InputError
+from .analysis.forecasts import Comparison, compare_forecasts
+from .inputs.history import History, read_history
+from .rules.operations import OperationsResult, UserProcess, make_rules
+from .rules.operations_fast import OperationsPricer
+from .execution.parallel import Executor, InlineExecutor, open_executor, prepare
+from .replay.resample import BLOCK, Calendar, Resampler, block_rng, calendar_warnings, n_blocks, season_calendar
+from .inputs.scenario import (BASELINES, Scenario, break_even_probability, check_workload, cost_warnings,
                        read_scenario)
-from .scoring import cutoff_slots, relative_value_from_costs
-from .selection import Calibration, Selection, calibrate, select_honestly
-from .stress import ReplicatePricer, StressResult, run_stress
-from .tables import cutoff_table, forecast_quality, forecast_scores, history_table, with_replicates
-from .verdict import RULES, SeasonCosts, Verdict, best_rule, judge, season_costs, together
+from .pricing.scoring import cutoff_slots, relative_value_from_costs
+from .analysis.selection import Calibration, Selection, calibrate, select_honestly
+from .analysis.stress import ReplicatePricer, StressResult, run_stress
+from .pricing.tables import cutoff_table, forecast_quality, forecast_scores, history_table, with_replicates
+from .analysis.verdict import RULES, SeasonCosts, Verdict, best_rule, judge, season_costs, together
 
 __all__ = ["run", "run_history", "RunResult", "SiteResult", "Portfolio", "Progress", "CHUNK_BLOCKS"]
 
@@ -205,12 +205,6 @@ class RunResult:
     def sites(self) -> tuple[SiteResult, ...]:
         """Each site's results (empty without a site column)."""
         return () if self.portfolio is None else self.portfolio.sites
-
-    def summary(self) -> dict:
-        """The contents of ``summary.json``, as plain Python values."""
-        from .outputs import summary
-
-        return summary(self)
 
 
 def run(scenario: Scenario | str | Path, history_path: str | Path | None = None, *,

@@ -14,8 +14,8 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from simulator.history import history_from_frame
-from simulator.scenario import scenario_from_text
+from simulator.inputs.history import history_from_frame
+from simulator.inputs.scenario import scenario_from_text
 
 # the cost matrix of issue 2's example scenario (per occasion, in the currency)
 EXAMPLE_COSTS = {"hit": 300, "false_alarm": 1800, "miss": 2500, "correct_negative": 0}

@@ -22,7 +22,7 @@ import numpy as np
 import pytest
 from scipy.signal import lfilter
 
-from simulator.blocklength import _autocovariances, optimal_block_length
+from simulator.replay.blocklength import _autocovariances, optimal_block_length
 
 arch_bootstrap = pytest.importorskip("arch.bootstrap")
 

@@ -26,7 +26,7 @@ import pytest
 from typer.testing import CliRunner
 
 from simulator.cli import app
-from simulator.report import FIELD_FORMATS, format_value
+from simulator.account.report import FIELD_FORMATS, format_value
 
 CHROMIUM = shutil.which("chromium") or ("/usr/bin/chromium" if Path("/usr/bin/chromium").exists() else None)
 FLAGS = ["--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
@@ -178,7 +178,7 @@ def test_slider_shows_the_chosen_row_of_cutoffs_csv(demo_report, page):
         assert text == format_value(FIELD_FORMATS[field], value, currency), (field, text, value)
         kind = FIELD_FORMATS[field]
         if kind == "money":
-            # three significant figures (simulator.account.money)
+            # three significant figures (simulator.account.findings.money)
             places = max(0, len(str(int(abs(round(value))))) - 3)
             assert abs(_number(text) - value) <= 0.5 * 10 ** places, (field, text, value)
         elif kind == "rate":

@@ -48,7 +48,7 @@ def out(tmp_path):
 def without_report(monkeypatch):
     """Skip drawing the HTML report's figures (seconds a run; the report has its own tests in
     test_report.py). Only the tests that need a finished run, not the report, use this."""
-    report = pytest.importorskip("simulator.report")
+    report = pytest.importorskip("simulator.account.report")
     monkeypatch.setattr(report, "render_report", lambda result, contents: {}, raising=False)
 
 

@@ -15,7 +15,7 @@ import pytest
 from typer.testing import CliRunner
 
 from simulator.cli import app
-from simulator.datapackage import describe_column
+from simulator.account.datapackage import describe_column
 
 frictionless = pytest.importorskip("frictionless")
 SCENARIOS = Path(__file__).resolve().parent.parent / "scenarios"

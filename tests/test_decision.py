@@ -11,10 +11,10 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from simulator.decision import CONFIDENT, NEAR_OPTIMAL, cutoff_ranges, decide, distribution, per_cutoff
-from simulator.history import history_from_frame
+from simulator.pricing.decision import CONFIDENT, NEAR_OPTIMAL, cutoff_ranges, decide, distribution, per_cutoff
+from simulator.inputs.history import history_from_frame
 from simulator.run import run, run_history
-from simulator.scenario import break_even_probability
+from simulator.inputs.scenario import break_even_probability
 
 CUTOFFS = np.array([0.1, 0.2, 0.3, 0.4, 0.5, 0.6, 0.7])
 
@@ -126,8 +126,8 @@ def test_a_cutoff_that_costs_the_reference_to_the_last_bit_is_no_saving(rng):
 def test_demo_cutoffs_that_act_as_always_act_do_not_beat_it(tmp_path):
     # The demo's reference is always_act. A cutoff no higher than every P(dry day) of the history
     # acts on every occasion, exactly as the reference does: a tie, not a saving.
-    from simulator.demo import write_demo_files
-    from simulator.scenario import read_scenario
+    from simulator.demo.generator import write_demo_files
+    from simulator.inputs.scenario import read_scenario
 
     result = run(read_scenario(write_demo_files(tmp_path)), replicates=300)
     assert result.reference == "always_act"
@@ -144,7 +144,7 @@ def test_demo_cutoffs_that_act_as_always_act_do_not_beat_it(tmp_path):
 def test_cutoffs_above_every_probability_do_not_beat_never_act(toml_text, synthetic, rng):
     # Under the never_act reference a cutoff above every probability never acts: a tie. The same
     # rule holds for the stress cases, which decide with the same function.
-    from simulator.scenario import scenario_from_text
+    from simulator.inputs.scenario import scenario_from_text
 
     text = toml_text(simulation={"replicates": 200, "seed": 3, "reference": "never_act"})
     scenario = scenario_from_text(text + '\n[[stress]]\nname = "dearer misses"\n'

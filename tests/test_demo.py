@@ -16,11 +16,11 @@ import pandas as pd
 import pytest
 from sklearn.metrics import brier_score_loss, roc_auc_score
 
-from simulator import demo
+from simulator.demo import generator as demo
 
 REPO = Path(__file__).resolve().parent.parent
 SCENARIOS = REPO / "scenarios"
-PACKAGE_DATA = REPO / "simulator" / "data"
+PACKAGE_DATA = REPO / "simulator" / "demo" / "data"
 
 WET_MONTHS = [11, 12, 1, 2]
 DRY_MONTHS = [6, 7, 8]
@@ -61,7 +61,7 @@ def _brier_skill(y: np.ndarray, p: np.ndarray, reference: np.ndarray) -> float:
 def test_committed_history_equals_generator_byte_for_byte(file_name, generator):
     committed = (SCENARIOS / file_name).read_bytes()
     assert committed == demo.history_csv_bytes(generator()), (
-        f"scenarios/{file_name} differs from simulator.demo; if the change is intended, run "
+        f"scenarios/{file_name} differs from simulator.demo.generator; if the change is intended, run "
         "scenarios/regenerate.py and review the diff"
     )
 

@@ -14,8 +14,8 @@ import matplotlib.image as mpimg
 import numpy as np
 import pytest
 
-from simulator import figures
-from simulator.figures import BASELINE_STYLE, OKABE_ITO, Words, focus_range
+from simulator.account import figures
+from simulator.account.figures import BASELINE_STYLE, OKABE_ITO, Words, focus_range
 
 WORDS = Words(event="dry day", action="send the crews out", currency="EUR", reference="always_act",
               labels={"never_act": "Never send the crews out", "always_act": "Always send the crews out"})

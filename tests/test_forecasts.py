@@ -18,11 +18,11 @@ import pytest
 from scipy import integrate, stats
 
 from realdata import seattle_rain, with_noise_forecast
-from simulator.errors import InputError
-from simulator.history import history_from_frame
-from simulator.outputs import render_files, summary
+from simulator.inputs.errors import InputError
+from simulator.inputs.history import history_from_frame
+from simulator.account.outputs import render_files, summary
 from simulator.run import run_history
-from simulator.scenario import scenario_from_text
+from simulator.inputs.scenario import scenario_from_text
 
 from conftest import EXAMPLE_COSTS, scenario_toml
 
@@ -302,7 +302,7 @@ def test_the_command_line_refuses_a_missing_forecast_in_one_line(write_history, 
 
 
 # ------------------------------------------------------------------------------------------------
-# each forecast's own verdict (simulator.verdict: held-out seasons)
+# each forecast's own verdict (simulator.analysis.verdict: held-out seasons)
 
 def _cost_loss_run(frame: pd.DataFrame, forecasts: dict[str, str], replicates: int = 20):
     """A run with the invented cost-loss table C/L = 0.3 (act costs 300 whatever happens, a miss

@@ -16,7 +16,7 @@ from pathlib import Path
 import pytest
 
 from simulator import read_scenario, run
-from simulator.outputs import summary
+from simulator.account.outputs import summary
 
 GOLDEN = Path(__file__).resolve().parent / "golden" / "single_site"
 

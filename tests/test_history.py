@@ -10,8 +10,8 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from simulator.errors import InputError
-from simulator.history import MIN_CLASS_COUNT, read_history, season_start_month
+from simulator.inputs.errors import InputError
+from simulator.inputs.history import MIN_CLASS_COUNT, read_history, season_start_month
 
 
 def _frame(n=40, start="2021-03-01", **columns):
@@ -209,7 +209,7 @@ def test_spaces_after_commas_and_trailing_blank_lines_are_tolerated(write_histor
 
 
 def test_history_path_is_relative_to_the_scenario_file(write_history, write_scenario, history_frame):
-    from simulator.scenario import read_scenario
+    from simulator.inputs.scenario import read_scenario
 
     write_history(history_frame)
     scenario = read_scenario(write_scenario())

@@ -386,7 +386,7 @@ def test_a_python_warning_prints_as_one_line_without_a_source_path(tmp_path, mon
     import warnings
 
     from simulator import cli
-    from simulator.errors import InputError
+    from simulator.inputs.errors import InputError
 
     def warn_then_fail(*args, **kwargs):
         np.seterr(all="warn")

@@ -20,15 +20,15 @@ import numpy as np
 import pytest
 
 from realdata import wti_big_move
-from simulator.costs import SeasonPricer
-from simulator.decision import OBJECTIVES, decide, objective_cost, season_cost_columns, shortfall
-from simulator.errors import InputError
-from simulator.history import history_from_frame
-from simulator.outputs import summary
-from simulator.resample import Resampler, season_calendar
+from simulator.pricing.costs import SeasonPricer
+from simulator.pricing.decision import OBJECTIVES, decide, objective_cost, season_cost_columns, shortfall
+from simulator.inputs.errors import InputError
+from simulator.inputs.history import history_from_frame
+from simulator.account.outputs import summary
+from simulator.replay.resample import Resampler, season_calendar
 from simulator.run import run, run_history
-from simulator.scenario import read_scenario, scenario_from_text
-from simulator.selection import SELECTION_STREAM, select_honestly
+from simulator.inputs.scenario import read_scenario, scenario_from_text
+from simulator.analysis.selection import SELECTION_STREAM, select_honestly
 
 CUTOFFS = np.array([0.1, 0.2, 0.3, 0.4])
 GOLDEN = Path(__file__).resolve().parent / "golden" / "single_site"
@@ -236,7 +236,7 @@ def _printed_headline(result) -> str:
 
 
 def test_the_report_draws_the_trade_off_and_the_headline_names_a_risk_objective(wti):
-    from simulator.report import render_report
+    from simulator.account.report import render_report
 
     result = _oil_run(wti, "shortfall10")
     written = summary(result)
@@ -249,7 +249,7 @@ def test_the_report_draws_the_trade_off_and_the_headline_names_a_risk_objective(
     printed = _printed_headline(result)
     assert "Chosen by the lowest mean cost of the worst 10% of seasons" in printed and moved in printed
     # cutoffs that beat the reference by the objective (said when none beat it in 95% of seasons)
-    from simulator.account import account
+    from simulator.account.findings import account
 
     beats = account({**written, "confident_break_even": []}).get("beats_reference")
     assert beats.text.endswith("(over the worst 10% of seasons; none in 95% of simulated seasons)")

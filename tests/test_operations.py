@@ -22,15 +22,15 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from simulator import read_history, read_scenario
-from simulator.costs import SeasonPricer
-from simulator.errors import InputError
-from simulator.operations import (COMPONENTS, REGULAR, SimpyPricer, make_rules, play_season)
-from simulator.operations_fast import OperationsPricer, play_seasons
-from simulator.outputs import summary
-from simulator.resample import Resampler, season_calendar
+from simulator.pricing.costs import SeasonPricer
+from simulator.inputs.errors import InputError
+from simulator.rules.operations import (COMPONENTS, REGULAR, SimpyPricer, make_rules, play_season)
+from simulator.rules.operations_fast import OperationsPricer, play_seasons
+from simulator.account.outputs import summary
+from simulator.replay.resample import Resampler, season_calendar
 from simulator.run import run_history
-from simulator.history import history_from_frame
-from simulator.scenario import OperationsSection
+from simulator.inputs.history import history_from_frame
+from simulator.inputs.scenario import OperationsSection
 
 REPO = Path(__file__).resolve().parent.parent
 RULES_DEMO = REPO / "scenarios" / "line_marking_rules.toml"

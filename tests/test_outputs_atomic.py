@@ -25,10 +25,10 @@ from pathlib import Path
 import pytest
 from typer.testing import CliRunner
 
-from simulator import result_set
+from simulator.account import result_set
 from simulator.cli import app
-from simulator.errors import InputError
-from simulator.result_set import MANIFEST, STAGING_PREFIX, check_out_folder, write_files
+from simulator.inputs.errors import InputError
+from simulator.account.result_set import MANIFEST, STAGING_PREFIX, check_out_folder, write_files
 
 runner = CliRunner()
 ROOT = Path(__file__).resolve().parents[1]
@@ -71,7 +71,7 @@ def result(generation: int, stress: bool = False) -> dict[str, bytes]:
 @pytest.fixture
 def without_report(monkeypatch):
     """Skip drawing the report's figures where the test is about the folder, not the report."""
-    from simulator import report
+    from simulator.account import report
 
     monkeypatch.setattr(report, "render_report", lambda result, contents: {}, raising=False)
 
@@ -212,7 +212,7 @@ def test_a_process_killed_at_the_swap_leaves_one_whole_set(tmp_path, moment):
     script = f"""
 import os
 from pathlib import Path
-from simulator import result_set
+from simulator.account import result_set
 
 exchange = result_set._exchange
 def killed(a, b):
@@ -259,7 +259,7 @@ def test_force_over_a_run_with_stress_cases_and_a_validation_split_removes_their
         write_history, write_scenario, history_frame, toml_text, tmp_path, monkeypatch):
     """Through the command line: stress.csv, selection.csv and figures/stress.png of an earlier
     run go when the new run no longer has them; a file the user added stays."""
-    from simulator import report
+    from simulator.account import report
 
     def figures_only(result, contents):  # the report's figures, as names: drawing them takes seconds
         return {f"figures/{name}.png": b"png" for name in ("season_cost", "stress")[: 1 + bool(result.stress)]}

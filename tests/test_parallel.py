@@ -23,13 +23,13 @@ from typer.testing import CliRunner
 
 from simulator import InputError, read_scenario, run
 from simulator.cli import app
-from simulator.outputs import render_files
+from simulator.account.outputs import render_files
 
 from test_sites import SITES_TOML, correlated_sites
 
 run_module = importlib.import_module("simulator.run")
-parallel = importlib.import_module("simulator.parallel")
-report = importlib.import_module("simulator.report")
+parallel = importlib.import_module("simulator.execution.parallel")
+report = importlib.import_module("simulator.account.report")
 
 COMPARED = ("summary.json", "cutoffs.csv", "sites.csv", "stress.csv")
 
@@ -207,7 +207,7 @@ def test_how_the_sites_are_shared_out_changes_no_byte(plan, monkeypatch):
     """More sites than one group of SUM_GROUP: a task may sum a whole group itself, send each site's
     costs, or send chunks for the sites to be put together here; the totals come out the same."""
     from simulator import history_from_frame, run_history, scenario_from_text
-    from simulator.outputs import summary
+    from simulator.account.outputs import summary
 
     names = tuple(f"site {k:02d}" for k in range(run_module.SUM_GROUP + 4))
     frame = correlated_sites(3, names=names, years=2)

@@ -14,7 +14,7 @@ from rich.console import Console
 
 from simulator import read_scenario, run
 from simulator.cli import _headline
-from simulator.demo import write_demo_files
+from simulator.demo.generator import write_demo_files
 
 ROOT = Path(__file__).resolve().parents[1]
 README = (ROOT / "README.md").read_text(encoding="utf-8")
@@ -96,8 +96,8 @@ def test_readme_path_from_a_spreadsheet_runs_as_written(tmp_path, monkeypatch):
 
 
 def test_readme_quotes_the_bad_season_choice_as_the_run_makes_it(stress_run):
-    from simulator.account import money
-    from simulator.outputs import summary
+    from simulator.notation.prose import money
+    from simulator.account.outputs import summary
 
     objectives = summary(stress_run)["objectives"]
     mean, tail = objectives["mean"], objectives["shortfall10"]

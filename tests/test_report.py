@@ -23,8 +23,8 @@ from typer.testing import CliRunner
 
 from simulator import read_scenario, run
 from simulator.cli import app
-from simulator.outputs import render_files, summary, write_files
-from simulator.report import (CAUTION, FIELD_FORMATS, format_value, headline_numbers, money,
+from simulator.account.outputs import render_files, summary, write_files
+from simulator.account.report import (CAUTION, FIELD_FORMATS, format_value, headline_numbers, money,
                               render_report, share)
 
 PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"  # PNG specification (W3C/ISO 15948), section 5.2
@@ -192,7 +192,7 @@ def test_content_security_policy_allows_only_the_pages_own_script_by_its_hash(ou
 def test_json_for_the_page_escapes_what_could_end_or_bend_a_script_element(text):
     # WHATWG HTML, "Restrictions for contents of script elements": "<!--", "<script" and "</script"
     # must not appear in a script's text; JSON's \\u escapes read back as the same characters
-    from simulator.report import script_json
+    from simulator.account.report import script_json
 
     encoded = script_json({"name": text, "values": [1.5, float("nan")]})
     assert not re.search("[<>&\u2028\u2029]", encoded)
@@ -368,7 +368,7 @@ def test_run_length_of_the_replay_is_explained_where_it_is_given(demo_out):
 
 
 def test_every_day_count_of_the_operating_rules_says_what_it_counts(tmp_path):
-    from simulator.operations import COUNTS
+    from simulator.rules.operations import COUNTS
 
     text = OPERATIONS_TOML.replace("damages_per_day_late = 40", "damages_per_day_late = 40\nmax_standby_days = 2")
     s, files = _run_variant(tmp_path / "retention", text)

@@ -1,4 +1,4 @@
-"""Scores and values of simulator.scoring, checked against published tables, identities and
+"""Scores and values of simulator.pricing.scoring, checked against published tables, identities and
 reference libraries (scikit-learn, scipy) on random data and on an open daily weather record."""
 
 import numpy as np
@@ -8,7 +8,7 @@ from sklearn.calibration import calibration_curve
 from sklearn.linear_model import LogisticRegression
 from sklearn.metrics import brier_score_loss, confusion_matrix, roc_auc_score, roc_curve
 
-from simulator.scoring import (
+from simulator.pricing.scoring import (
     Contingency,
     brier_decomposition,
     brier_score,

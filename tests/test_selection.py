@@ -15,13 +15,13 @@ import pytest
 from typer.testing import CliRunner
 
 from simulator.cli import app
-from simulator.errors import InputError
-from simulator.history import history_from_frame
-from simulator.outputs import summary
-from simulator.resample import Calendar
+from simulator.inputs.errors import InputError
+from simulator.inputs.history import history_from_frame
+from simulator.account.outputs import summary
+from simulator.replay.resample import Calendar
 from simulator.run import run, run_history
-from simulator.scenario import read_scenario, scenario_from_text
-from simulator.selection import _seasons_on_calendar, fit_recalibration
+from simulator.inputs.scenario import read_scenario, scenario_from_text
+from simulator.analysis.selection import _seasons_on_calendar, fit_recalibration
 
 SEASON = {"months": [4, 5, 6, 7, 8, 9]}
 

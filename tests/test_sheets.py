@@ -16,10 +16,10 @@ import pandas as pd
 import pytest
 from typer.testing import CliRunner
 
-from simulator import sheets
+from simulator.inputs import sheets
 from simulator.cli import app
-from simulator.errors import InputError
-from simulator.sheets import read_table
+from simulator.inputs.errors import InputError
+from simulator.inputs.sheets import read_table
 
 runner = CliRunner()
 

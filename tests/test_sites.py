@@ -19,9 +19,9 @@ from typer.testing import CliRunner
 
 from simulator import InputError, history_from_frame, run, run_history, scenario_from_text
 from simulator.cli import app
-from simulator.history import MISSING_DATE_RULE
-from simulator.outputs import render_files, summary
-from simulator.resample import Resampler, season_calendar
+from simulator.inputs.history import MISSING_DATE_RULE
+from simulator.account.outputs import render_files, summary
+from simulator.replay.resample import Resampler, season_calendar
 
 
 def correlated_sites(seed: int, names=("North", "South"), years: int = 6, start: str = "2016-01-01",
@@ -279,7 +279,7 @@ def test_calibrated_mode_with_sites_is_refused(frame):
 
 
 def test_command_line_writes_sites_csv_and_the_portfolio(tmp_path, frame, monkeypatch):
-    report = importlib.import_module("simulator.report")
+    report = importlib.import_module("simulator.account.report")
     monkeypatch.setattr(report, "render_report", lambda result, contents: {})
     frame.to_csv(tmp_path / "history.csv", index=False)
     (tmp_path / "s.toml").write_text(SITES_TOML.replace("[history]\n", '[history]\npath = "history.csv"\n'))
@@ -301,7 +301,7 @@ def test_command_line_writes_sites_csv_and_the_portfolio(tmp_path, frame, monkey
 
 
 def test_command_line_shows_each_sites_checks_and_stress_cases(tmp_path, frame, monkeypatch):
-    report = importlib.import_module("simulator.report")
+    report = importlib.import_module("simulator.account.report")
     monkeypatch.setattr(report, "render_report", lambda result, contents: {})
     frame.to_csv(tmp_path / "history.csv", index=False)
     text = SITES_TOML.replace("[history]\n", '[history]\npath = "history.csv"\nvalidation_from = 2020-10-01\n')
@@ -340,7 +340,7 @@ def test_the_gritting_example_prices_five_depots_and_warns_of_the_missing_nights
 def test_report_has_a_sites_section_whose_numbers_are_those_of_summary_json(result):
     """The page and summary.json cannot disagree: the section is written from the summary, with the
     report's one formatter (report.money)."""
-    from simulator.report import money, render_report
+    from simulator.account.report import money, render_report
 
     s = summary(result)
     html = render_report(result, s)["report.html"].decode()

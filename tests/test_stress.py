@@ -14,13 +14,13 @@ import pytest
 from typer.testing import CliRunner
 
 from simulator.cli import app
-from simulator.errors import InputError
-from simulator.outputs import summary
-from simulator.resample import Resampler, season_calendar
+from simulator.inputs.errors import InputError
+from simulator.account.outputs import summary
+from simulator.replay.resample import Resampler, season_calendar
 from simulator.run import run, run_history
-from simulator.scenario import read_scenario, scenario_from_text
-from simulator.history import history_from_frame
-from simulator.stress import degrade, prior_shift, shift_odds
+from simulator.inputs.scenario import read_scenario, scenario_from_text
+from simulator.inputs.history import history_from_frame
+from simulator.analysis.stress import degrade, prior_shift, shift_odds
 
 REPLICATES = 120  # small: these tests check identities and wiring, not precision
 

@@ -18,13 +18,13 @@ import pytest
 from scipy import stats
 
 from realdata import seattle_rain, sp500_up, wti_big_move, with_noise_forecast
-from simulator.history import history_from_frame
-from simulator.operations import SimpyPricer
-from simulator.resample import season_calendar
+from simulator.inputs.history import history_from_frame
+from simulator.rules.operations import SimpyPricer
+from simulator.replay.resample import season_calendar
 from simulator.run import run, run_history
-from simulator.scenario import read_scenario, scenario_from_text
-from simulator.selection import _seasons_on_calendar
-from simulator.verdict import RULES, SeasonCosts, judge, season_costs
+from simulator.inputs.scenario import read_scenario, scenario_from_text
+from simulator.analysis.selection import _seasons_on_calendar
+from simulator.analysis.verdict import RULES, SeasonCosts, judge, season_costs
 
 REPLICATES = 20  # the verdict does not use the replicates; only the named best rule does
 
@@ -106,7 +106,7 @@ def test_demo_forecast_is_worth_using_and_says_so_everywhere(tmp_path):
     assert set(v["saving_against_best_rule"]) == {"mean", "p05", "p95", "prob_saving"}
     assert v["best_rule_without_forecast"] in RULES
     assert "Recommended cutoff" in result.stdout and "use the forecast, because" in result.stdout
-    from simulator.cautions import GENERAL
+    from simulator.account.cautions import GENERAL
 
     assert s["cautions"] == [GENERAL]  # the demo is no hazard: the general caution only
     assert "events_without_action" not in s
@@ -234,7 +234,7 @@ def test_under_operating_rules_seasons_are_played_by_the_rules_as_the_simpy_mode
     # the rules demo's first three seasons, each laid on the priced calendar and played under the
     # contract's rules: the vectorised twin against the event-level simpy model (the oracle)
     scenario = read_scenario("scenarios/line_marking_rules.toml")
-    from simulator.history import read_history
+    from simulator.inputs.history import read_history
 
     history = read_history(scenario)
     first = history.seasons[:3]
@@ -271,8 +271,8 @@ def test_hazard_caution_is_printed_to_standard_error_under_quiet(tmp_path):
 
 
 def test_summary_carries_every_caution_of_the_run(tmp_path):
-    from simulator.cautions import GENERAL, RULES_CAUTION
-    from simulator.outputs import summary
+    from simulator.account.cautions import GENERAL, RULES_CAUTION
+    from simulator.account.outputs import summary
 
     pumps = summary(run("scenarios/river_pumps.toml", replicates=40))
     assert len(pumps["cautions"]) == 2
@@ -286,7 +286,7 @@ def test_summary_carries_every_caution_of_the_run(tmp_path):
 
 def test_flood_days_without_pumps_are_counted_per_season_at_the_recommended_cutoff():
     result = run("scenarios/river_pumps.toml", replicates=300)
-    from simulator.outputs import summary
+    from simulator.account.outputs import summary
 
     s = summary(result)
     missed = s["events_without_action"]

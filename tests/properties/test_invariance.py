@@ -20,10 +20,10 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from conftest import scenario_toml
-from simulator.history import history_from_frame, read_history
-from simulator.outputs import summary
+from simulator.inputs.history import history_from_frame, read_history
+from simulator.account.outputs import summary
 from simulator.run import run_history
-from simulator.scenario import scenario_from_text
+from simulator.inputs.scenario import scenario_from_text
 
 SETTINGS = settings(max_examples=int(os.environ.get("GONOGO_EXAMPLES", 20)), deadline=None, derandomize=True,
                     suppress_health_check=[HealthCheck.function_scoped_fixture])

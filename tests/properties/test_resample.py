@@ -1,4 +1,4 @@
-"""Properties of the calendar-aware stationary bootstrap (simulator.resample), with hypothesis.
+"""Properties of the calendar-aware stationary bootstrap (simulator.replay.resample), with hypothesis.
 
 What a replicate season must keep from the history (issue 2 sections 3 and 7): the event rate, the
 requested mean run length, the spells of consecutive events when runs are long, and the seasonal
@@ -17,7 +17,7 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from simulator.resample import BLOCK, Resampler, season_calendar
+from simulator.replay.resample import BLOCK, Resampler, season_calendar
 from simulator.run import run_history
 
 FEW = settings(max_examples=8, deadline=None, database=None)

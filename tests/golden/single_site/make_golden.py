@@ -18,7 +18,7 @@ import numpy as np
 import pandas as pd
 
 from simulator import read_scenario, run
-from simulator.outputs import summary
+from simulator.account.outputs import summary
 
 HERE = Path(__file__).resolve().parent
 SCENARIOS = ("plain", "rules", "calibrated")

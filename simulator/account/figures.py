@@ -31,7 +31,7 @@ from matplotlib.figure import Figure
 from matplotlib import dates as mdates
 from matplotlib.ticker import FuncFormatter, MaxNLocator
 
-from .errors import printable
+from ..inputs.errors import printable
 
 __all__ = ["Chart", "Words", "OKABE_ITO", "BASELINE_STYLE", "focus_range", "cost_chart", "savings_chart", "reliability_chart",
            "roc_chart", "value_chart", "stress_chart", "components_chart", "completion_chart",

@@ -36,14 +36,15 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
-from . import decimals, scoring
-from .costs import SeasonPricer, baseline_actions, occasion_costs, price
-from .decision import OBJECTIVE_COLUMN, lowest, season_cost_columns
-from .errors import InputError
-from .history import History
-from .operations_fast import OperationsPricer
-from .resample import Calendar, Resampler, nearest_position
-from .scenario import BASELINES, Costs, Scenario
+from ..notation import decimals
+from ..pricing import scoring
+from ..pricing.costs import SeasonPricer, baseline_actions, occasion_costs, price
+from ..pricing.decision import OBJECTIVE_COLUMN, lowest, season_cost_columns
+from ..inputs.errors import InputError
+from ..inputs.history import History
+from ..rules.operations_fast import OperationsPricer
+from ..replay.resample import Calendar, Resampler, nearest_position
+from ..inputs.scenario import BASELINES, Costs, Scenario
 
 __all__ = ["Recalibration", "fit_recalibration", "Calibration", "calibrate", "PeriodRecord",
            "ValidationCheck", "WalkForwardStep", "WalkForward", "Selection", "select_honestly",

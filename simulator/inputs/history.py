@@ -18,7 +18,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from . import decimals
+from ..notation import decimals
 from .dates import parse_dates
 from .errors import InputError, closest, did_you_mean, excerpt, quoted
 from .scenario import WEEKDAYS, HistorySection, Scenario, SeasonSection

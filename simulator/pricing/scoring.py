@@ -17,7 +17,7 @@ from typing import NamedTuple
 
 import numpy as np
 
-from . import decimals
+from ..notation import decimals
 
 __all__ = [
     "Contingency",

@@ -7,8 +7,8 @@ same words. A cost-optimal cutoff is a budget figure; where the event is a hazar
 
 from __future__ import annotations
 
-from .operations import CAUTION as RULES_CAUTION
-from .scenario import Scenario
+from ..rules.operations import CAUTION as RULES_CAUTION
+from ..inputs.scenario import Scenario
 
 __all__ = ["GENERAL", "hazard_caution", "cautions"]
 

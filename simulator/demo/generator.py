@@ -43,7 +43,7 @@ __all__ = [
 DATA_FOLDER = Path(__file__).parent / "data"
 
 DEMO_FILES = {
-    "scenario": "line_marking.toml",  # copied verbatim from simulator/data/
+    "scenario": "line_marking.toml",  # copied verbatim from simulator/demo/data/
     "history": "line_marking_history.csv",  # written by line_marking_history()
 }
 

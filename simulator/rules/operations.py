@@ -54,13 +54,13 @@ from dataclasses import dataclass, field
 import numpy as np
 import simpy
 
-from . import decimals
-from .costs import PricedBlock, baseline_actions
-from .errors import InputError
-from .history import History
-from .resample import Calendar
-from .scenario import BASELINES, WEEKDAYS, OperationsSection, Scenario
-from .scoring import cutoff_slots
+from ..notation import decimals
+from ..pricing.costs import PricedBlock, baseline_actions
+from ..inputs.errors import InputError
+from ..inputs.history import History
+from ..replay.resample import Calendar
+from ..inputs.scenario import BASELINES, WEEKDAYS, OperationsSection, Scenario
+from ..pricing.scoring import cutoff_slots
 
 __all__ = ["COMPONENTS", "COUNTS", "OFF", "REGULAR", "OVERTIME", "WORK_UNIT", "Rules", "make_rules",
            "safety_stops",

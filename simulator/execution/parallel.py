@@ -45,7 +45,7 @@ from typing import Any
 
 import numpy as np
 
-from .errors import InputError
+from ..inputs.errors import InputError
 
 __all__ = ["Executor", "InlineExecutor", "PoolExecutor", "DaskExecutor", "open_executor", "prepare",
            "default_workers", "process_running", "CONNECT_TIMEOUT", "CLUSTER_ENV", "IN_FLIGHT_PER_WORKER"]

@@ -19,15 +19,15 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from . import __version__
-from .account import account
+from .. import __version__
+from .findings import account
 from .datapackage import datapackage
 from .cautions import cautions
-from .decision import distribution
+from ..pricing.decision import distribution
 from .result_set import check_out_folder, write_files
-from .run import RunResult
-from .selection import Calibration, Selection
-from .stress import StressResult
+from ..run import RunResult
+from ..analysis.selection import Calibration, Selection
+from ..analysis.stress import StressResult
 
 __all__ = ["summary", "render_files", "write_files", "check_out_folder", "SCHEMA"]
 
@@ -336,7 +336,7 @@ def _portfolio_entry(result: RunResult) -> dict[str, Any]:
     single-site run; ``stress`` (with ``[[stress]]`` cases): each site's cases, as the ``stress``
     list of a single-site run.
     """
-    from .decision import cheaper, distribution
+    from ..pricing.decision import cheaper, distribution
 
     portfolio = result.portfolio
     reference = portfolio.reference_cost

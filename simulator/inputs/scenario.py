@@ -28,7 +28,7 @@ import numpy as np
 from pydantic import (BaseModel, ConfigDict, Field, ValidationError, create_model, field_validator,
                       model_validator)
 
-from . import decimals
+from ..notation import decimals
 from .errors import InputError, did_you_mean, excerpt, printable, quoted, read_input_file
 
 __all__ = ["Scenario", "Costs", "read_scenario", "scenario_from_text", "cutoff_grid",

@@ -47,12 +47,12 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from . import scoring
-from .account import money  # the one formatter of money in prose (as stress.py uses it)
-from .costs import baseline_actions, occasion_costs, price
-from .history import History
-from .resample import Calendar
-from .scenario import Scenario
+from ..pricing import scoring
+from ..notation.prose import money  # the one formatter of money in prose (as stress.py uses it)
+from ..pricing.costs import baseline_actions, occasion_costs, price
+from ..inputs.history import History
+from ..replay.resample import Calendar
+from ..inputs.scenario import Scenario
 
 __all__ = ["RULES", "RULE_WORDS", "CONFIDENCE", "SeasonCosts", "Verdict", "season_costs", "judge", "best_rule",
            "together"]
@@ -204,8 +204,8 @@ def season_costs(history: History, calendar: Calendar, cutoffs: np.ndarray, scen
                                   validation=np.zeros_like(evaluated)) for s in seasons]
     if scenario.operations is None:
         return _with_costs(history, cutoffs, scenario, seasons, learnt)
-    from .operations_fast import OperationsPricer
-    from .scenario import BASELINES
+    from ..rules.operations_fast import OperationsPricer
+    from ..inputs.scenario import BASELINES
     from .selection import _seasons_on_calendar  # each past season laid on the priced calendar
 
     rows = _seasons_on_calendar(history, evaluated, calendar)  # (k, n_occasions), seasons ascending

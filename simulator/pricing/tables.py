@@ -13,15 +13,16 @@ from collections.abc import Sequence
 import numpy as np
 import pandas as pd
 
-from . import decimals, scoring
+from ..notation import decimals
+from . import scoring
 from .costs import price
 from .decision import per_cutoff
-from .history import History
-from .scenario import Costs
+from ..inputs.history import History
+from ..inputs.scenario import Costs
 from .scoring import Contingency
 
 __all__ = ["cutoff_table", "history_table", "with_replicates", "forecast_scores", "forecast_quality",
-           "forecastforecast_value_curve"]
+           "forecast_value_curve"]
 
 
 def cutoff_table(parts: Sequence[tuple[History, Costs]], cutoffs: np.ndarray, p_star: float,

@@ -48,8 +48,8 @@ import stat
 from collections.abc import Mapping
 from pathlib import Path
 
-from .errors import InputError
-from .parallel import process_running
+from ..inputs.errors import InputError
+from ..execution.parallel import process_running
 
 __all__ = ["check_out_folder", "write_files", "MANIFEST"]
 

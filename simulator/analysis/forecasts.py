@@ -30,10 +30,10 @@ from itertools import combinations
 import numpy as np
 import pandas as pd
 
-from .decision import Decision, cheaper, distribution, money_tolerance, per_cutoff
-from .history import History
+from ..pricing.decision import Decision, cheaper, distribution, money_tolerance, per_cutoff
+from ..inputs.history import History
 from .selection import ValidationCheck
-from .tables import forecast_scores, forecast_value_curve
+from ..pricing.tables import forecast_scores, forecast_value_curve
 from .verdict import Verdict
 
 __all__ = ["ForecastResult", "ForecastPair", "Comparison", "compare_forecasts", "SCORES"]

@@ -19,11 +19,11 @@ from collections.abc import Callable, Sequence
 
 import numpy as np
 
-from .costs import PricedBlock
-from .history import History
+from ..pricing.costs import PricedBlock
+from ..inputs.history import History
 from .operations import COUNTS, OFF, REGULAR, WORK_UNIT, Rules, RulesPricer, SimpyPricer, UserProcess
-from .resample import Calendar
-from .scenario import Scenario
+from ..replay.resample import Calendar
+from ..inputs.scenario import Scenario
 
 __all__ = ["play_seasons", "OperationsPricer"]
 

@@ -37,16 +37,16 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from . import decimals
-from .account import money
-from .costs import PricedBlock, SeasonPricer, baseline_actions, occasion_costs, price
-from .decision import OBJECTIVE_NAMES, Decision, Distribution, cheaper, decide, distribution, objective_cost
-from .errors import InputError
-from .history import History
-from .operations_fast import OperationsPricer
-from .resample import Calendar, Resampler, block_rng
-from .scenario import BASELINES, Costs, Scenario, StressCase, break_even_probability
-from .scoring import counts_from_slots, cutoff_slots
+from ..notation import decimals
+from ..notation.prose import money
+from ..pricing.costs import PricedBlock, SeasonPricer, baseline_actions, occasion_costs, price
+from ..pricing.decision import OBJECTIVE_NAMES, Decision, Distribution, cheaper, decide, distribution, objective_cost
+from ..inputs.errors import InputError
+from ..inputs.history import History
+from ..rules.operations_fast import OperationsPricer
+from ..replay.resample import Calendar, Resampler, block_rng
+from ..inputs.scenario import BASELINES, Costs, Scenario, StressCase, break_even_probability
+from ..pricing.scoring import counts_from_slots, cutoff_slots
 
 __all__ = ["prior_shift", "degrade", "log_odds_noise", "run_event_share", "Tilt", "tilt_to_rate",
            "shift_odds", "odds_shift_to_rate",

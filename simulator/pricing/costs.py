@@ -13,9 +13,9 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from . import decimals
-from .history import History
-from .scenario import BASELINES, Costs, break_even_probability
+from ..notation import decimals
+from ..inputs.history import History
+from ..inputs.scenario import BASELINES, Costs, break_even_probability
 from .scoring import Contingency, cutoff_slots
 
 __all__ = ["price", "occasion_costs", "baseline_actions", "SeasonPricer", "PricedBlock"]

@@ -27,16 +27,17 @@ from typing import Any
 import jinja2
 import numpy as np
 
-from . import __version__, figures
-from .account import (OBJECTIVE_WORDS, account, bad_season, cutoff_decimals, cutoff_text, format_value, money,
-                      money_exact, rate, ranges_text, season_name, seasons_text, share, short_label, signed_money,
-                      strategy_label)
+from .. import __version__
+from . import figures
+from .findings import OBJECTIVE_WORDS, account, bad_season, season_name, seasons_text, short_label, strategy_label
+from ..notation.prose import (cutoff_decimals, cutoff_text, format_value, money, money_exact, rate, ranges_text, share,
+                              signed_money)
 from .cautions import GENERAL
-from .decision import OBJECTIVE_NAMES
-from .verdict import RULE_WORDS
+from ..pricing.decision import OBJECTIVE_NAMES
+from ..analysis.verdict import RULE_WORDS
 from .figures import Words
-from .scenario import BASELINES
-from .scenario import WEEKDAYS
+from ..inputs.scenario import BASELINES
+from ..inputs.scenario import WEEKDAYS
 
 __all__ = ["render_report", "headline_numbers", "recommendation", "format_value", "money", "share",
            "cutoff_text", "strategy_label", "FIELD_FORMATS", "CAUTION"]
@@ -59,7 +60,7 @@ FILE_NOTES = {"summary.json": " (every headline number, full precision)", "cutof
               "forecasts.csv": " (each forecast at every cutoff, on the same replicate seasons)",
               "datapackage.json": " (what every column of the CSV files means, with its unit)"}
 
-_ENV = jinja2.Environment(loader=jinja2.PackageLoader("simulator", "templates"),
+_ENV = jinja2.Environment(loader=jinja2.PackageLoader("simulator.account", "templates"),
                           autoescape=jinja2.select_autoescape(["html", "j2"]),
                           undefined=jinja2.StrictUndefined, trim_blocks=True, lstrip_blocks=True)
 

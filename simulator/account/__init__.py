@@ -1,0 +1,9 @@
+"""The findings of a run and their renderings: summary.json, CSV files, figures, report, cautions.
+
+``findings`` states each finding once with its unit and basis; ``outputs`` turns a run's result
+into the bytes of every file, which ``result_set`` writes as one set (staged, swapped in,
+never half-written); ``report`` and ``figures`` draw the HTML report; ``datapackage`` describes
+the CSV files; ``cautions`` holds the safety texts.
+
+May import: ``run`` (for its results) and everything below it; nothing below imports this.
+"""
