@@ -39,7 +39,9 @@ from .analysis.forecasts import Comparison, compare_forecasts
 from .inputs.history import History, read_history
 from .rules.operations import OperationsResult, UserProcess, make_rules
 from .rules.operations_fast import OperationsPricer
-from .execution.parallel import Executor, InlineExecutor, open_executor, prepare
+from .execution.choose import open_executor
+from .execution.executor import Executor, InlineExecutor
+from .execution.pool import prepare
 from .replay.resample import BLOCK, Calendar, Resampler, block_rng, calendar_warnings, n_blocks, season_calendar
 from .inputs.scenario import (BASELINES, Scenario, break_even_probability, check_workload, cost_warnings,
                        read_scenario)
