@@ -36,7 +36,9 @@ from .notation.prose import money, share, signed_money
 from .inputs.dates import human_format
 from .inputs.errors import InputError, printable
 from .inputs.history import read_history
-from .account.outputs import check_out_folder, render_files, summary, write_files
+from .account.outputs import render_files, summary
+from .account.out_folder import check_out_folder
+from .account.result_set import write_files
 from .execution.parallel import CLUSTER_ENV
 from .run import RunResult, run
 from .inputs.scenario import Costs, Scenario, read_scenario
