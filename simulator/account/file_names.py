@@ -5,7 +5,7 @@
 
 from __future__ import annotations
 
-from ..run import RunResult
+from ..results import RunResult
 
 __all__ = ["table_names"]
 

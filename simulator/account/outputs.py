@@ -25,7 +25,7 @@ from .datapackage import datapackage
 from .file_names import table_names
 from .cautions import cautions
 from ..pricing.decision import distribution
-from ..run import RunResult
+from ..results import RunResult
 from ..analysis.selection import Calibration, Selection
 from ..analysis.stress import StressResult
 

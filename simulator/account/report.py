@@ -32,7 +32,8 @@ from .cost_figures import cost_chart, risk_chart, savings_chart
 from .quality_figures import reliability_chart, roc_chart, value_chart
 from .stress_figures import stress_chart
 from .operations_figures import completion_chart, components_chart
-from .report_page import _CSP_PLACEHOLDER, _ENV, PHONE_MEDIA, _data_uri, _png_size, _with_content_policy, script_json
+from .report_page import (_CSP_PLACEHOLDER, _ENV, PHONE_MEDIA, _data_uri, _png_size, _with_content_policy,
+                          script_json)
 from .report_sections import (_completion_by_day, _explorer_rows, _matrix, _operations, _portfolio, _sentence_case,
                               _stress_cases, _zoomed, headline_numbers, recommendation)
 from .scenario_words import _months, _occasion_days, _rules_read_back
