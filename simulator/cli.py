@@ -39,7 +39,7 @@ from .inputs.history import read_history
 from .account.outputs import render_files, summary
 from .account.out_folder import check_out_folder
 from .account.result_set import write_files
-from .execution.parallel import CLUSTER_ENV
+from .execution.dask_cluster import CLUSTER_ENV
 from .results import RunResult
 from .run import run
 from .inputs.scenario import Costs, Scenario, read_scenario

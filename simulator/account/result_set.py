@@ -47,7 +47,7 @@ import stat
 from collections.abc import Mapping
 from pathlib import Path
 
-from ..execution.parallel import process_running
+from ..execution.lifetime import process_running
 from .out_folder import (STAGING_PREFIX, _make_parents, _not_renamable, _remove_made, _staging_path, _target,
                          _unwritable, check_out_folder)
 
