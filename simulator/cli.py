@@ -36,7 +36,9 @@ from .account.terminal import (_calibration_lines, _headline, _plain, _selection
 from .inputs.dates import human_format
 from .inputs.errors import InputError
 from .inputs.history import read_history
-from .account.outputs import check_out_folder, render_files, summary, write_files
+from .account.outputs import render_files, summary
+from .account.out_folder import check_out_folder
+from .account.result_set import write_files
 from .execution.dask_cluster import CLUSTER_ENV
 from .results import RunResult
 from .run import run
