@@ -18,6 +18,7 @@ from .analysis.stress import StressResult
 from .analysis.verdict import SeasonCosts, Verdict
 from .inputs.history import History
 from .inputs.scenario import Scenario
+from .pricing.counts import ReplicateCounts
 from .pricing.decision import Decision, Distribution, distribution
 from .replay.resample import Calendar
 from .rules.operations import OperationsResult
@@ -148,6 +149,11 @@ class RunResult:
     events_without_action: np.ndarray | None = None
     # with two or more [forecasts]: each priced on the same replicates, and every pair compared
     comparison: Comparison | None = None
+    # each replicate's classification counts (the main forecast at every cutoff, and the baselines
+    # in BASELINES order), all replicates in replicate order, int32; they do not depend on the costs,
+    # so any other fixed costs reprice them (costs.price) without a replay. Single-site runs with
+    # fixed costs in the replay mode only; None with a site column, [operations] or mode = "calibrated"
+    replicate_counts: ReplicateCounts | None = None
 
     @property
     def reference(self) -> str:
