@@ -39,7 +39,8 @@ from .inputs.history import read_history
 from .account.outputs import check_out_folder, render_files, summary, write_files
 from .execution.parallel import CLUSTER_ENV
 from .run import RunResult, run
-from .inputs.scenario import Costs, Scenario, read_scenario
+from .inputs.scenario import Scenario, read_scenario
+from .inputs.scenario_costs import Costs
 
 app = typer.Typer(add_completion=False, no_args_is_help=True, pretty_exceptions_enable=False,
                   rich_markup_mode=None,

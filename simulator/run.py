@@ -41,8 +41,9 @@ from .rules.operations import OperationsResult, UserProcess, make_rules
 from .rules.operations_fast import OperationsPricer
 from .execution.parallel import Executor, InlineExecutor, open_executor, prepare
 from .replay.resample import BLOCK, Calendar, Resampler, block_rng, calendar_warnings, n_blocks, season_calendar
-from .inputs.scenario import (BASELINES, Scenario, break_even_probability, check_workload, cost_warnings,
-                       read_scenario)
+from .inputs.scenario import Scenario, check_workload, read_scenario
+from .inputs.scenario_costs import break_even_probability, cost_warnings
+from .inputs.scenario_types import BASELINES
 from .pricing.scoring import cutoff_slots, relative_value_from_costs
 from .analysis.selection import Calibration, Selection, calibrate, select_honestly
 from .analysis.stress import ReplicatePricer, StressResult, run_stress

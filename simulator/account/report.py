@@ -36,8 +36,8 @@ from .cautions import GENERAL
 from ..pricing.decision import OBJECTIVE_NAMES
 from ..analysis.verdict import RULE_WORDS
 from .figures import Words
-from ..inputs.scenario import BASELINES
-from ..inputs.scenario import WEEKDAYS
+from ..inputs.scenario_types import BASELINES
+from ..inputs.scenario_types import WEEKDAYS
 
 __all__ = ["render_report", "headline_numbers", "recommendation", "format_value", "money", "share",
            "cutoff_text", "strategy_label", "FIELD_FORMATS", "CAUTION"]

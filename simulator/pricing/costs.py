@@ -15,7 +15,8 @@ import numpy as np
 
 from ..notation import decimals
 from ..inputs.history import History
-from ..inputs.scenario import BASELINES, Costs, break_even_probability
+from ..inputs.scenario_costs import Costs, break_even_probability
+from ..inputs.scenario_types import BASELINES
 from .scoring import Contingency, cutoff_slots
 
 __all__ = ["price", "occasion_costs", "baseline_actions", "SeasonPricer", "PricedBlock"]
