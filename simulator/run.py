@@ -37,6 +37,7 @@ from .inputs.scenario_costs import break_even_probability, cost_warnings
 from .inputs.scenario_types import BASELINES
 from .notation import decimals
 from .pricing.costs import PricedBlock, occasion_costs
+from .pricing.counts import from_extras
 from .pricing.decision import decide
 from .pricing.scoring import relative_value_from_costs
 from .pricing.tables import cutoff_table, forecast_quality, history_table, with_replicates
@@ -113,7 +114,7 @@ def run_history(scenario: Scenario, history: History, *, replicates: int | None 
     work = _Work(resampler=resampler, scenarios=(scenario,), cutoffs=cutoffs, seed=seed,
                  replicates=replicates, processes=tuple(processes),
                  outcome_probability=None if calibration is None else calibration.probability,
-                 n_forecasts=n_forecasts)
+                 n_forecasts=n_forecasts, keep_counts=scenario.operations is None and calibration is None)
     try:
         rules = _pricer(work, 0).rules if scenario.operations is not None else None  # checks them
         priced: dict[int, PricedBlock] = {}
@@ -122,11 +123,12 @@ def run_history(scenario: Scenario, history: History, *, replicates: int | None 
     finally:
         _forget(work)
     block, forecast_costs = _forecast_costs(priced[0], n_forecasts)
+    counts, extras = from_extras(block.extras, block.n_events)
     model_cost = block.model
     baseline_cost = {name: block.baselines[:, i] for i, name in enumerate(BASELINES)}
     operations = None
     if scenario.operations is not None:
-        operations = OperationsResult(rules=rules, n_cutoffs=cutoffs.size, extras=block.extras,
+        operations = OperationsResult(rules=rules, n_cutoffs=cutoffs.size, extras=extras,
                                       section=scenario.operations)
 
     seasons_per_history = max(1, round(history.n_evaluated / calendar.n_occasions))
@@ -190,7 +192,7 @@ def run_history(scenario: Scenario, history: History, *, replicates: int | None 
                      value_curve=value_curve, reliability=reliability, warnings=warnings,
                      operations=operations, stress=stress, calibration=calibration,
                      selection=selection, comparison=comparison, verdict=verdict,
-                     events_without_action=unprotected)
+                     events_without_action=unprotected, replicate_counts=counts)
 
 
 def _priced_by_rules(table: pd.DataFrame, baseline_cost: dict[str, np.ndarray]) -> pd.DataFrame:

@@ -38,6 +38,7 @@ from .report_sections import (_completion_by_day, _explorer_rows, _matrix, _oper
                               _stress_cases, _zoomed, headline_numbers, recommendation)
 from .scenario_words import _months, _occasion_days, _rules_read_back
 from .file_names import table_names
+from .whatif import whatif_context
 
 __all__ = ["render_report", "CAUTION", "FILE_NOTES"]
 
@@ -169,6 +170,7 @@ def render_report(result, summary: Mapping[str, Any]) -> dict[str, bytes]:
         "calibration": summary.get("calibration"),
         "portfolio": _portfolio(summary, currency, decimals),
         "risk": risk,
+        "whatif": whatif_context(result, action, event, occasion, decimals),
     }
     html = _with_content_policy(_ENV.get_template("report.html.j2").render(context))
     files = {"report.html": html.encode("utf-8")}
