@@ -37,15 +37,19 @@ from .pricing.decision import Decision, Distribution, decide, distribution
 from .inputs.errors import InputError
 from .analysis.forecasts import Comparison, compare_forecasts
 from .inputs.history import History, read_history
-from .rules.operations import OperationsResult, UserProcess, make_rules
-from .rules.operations_fast import OperationsPricer
+from .rules.operating_rules import make_rules
+from .rules.operations_result import OperationsResult
+from .rules.simpy_model import UserProcess
+from .rules.vectorised_model import OperationsPricer
 from .execution.parallel import Executor, InlineExecutor, open_executor, prepare
 from .replay.resample import BLOCK, Calendar, Resampler, block_rng, calendar_warnings, n_blocks, season_calendar
 from .inputs.scenario import (BASELINES, Scenario, break_even_probability, check_workload, cost_warnings,
                        read_scenario)
-from .pricing.scoring import cutoff_slots, relative_value_from_costs
+from .pricing.contingency import cutoff_slots
+from .pricing.value import relative_value_from_costs
 from .analysis.selection import Calibration, Selection, calibrate, select_honestly
-from .analysis.stress import ReplicatePricer, StressResult, run_stress
+from .analysis.replicate_pricer import ReplicatePricer
+from .analysis.stress import StressResult, run_stress
 from .pricing.tables import cutoff_table, forecast_quality, forecast_scores, history_table, with_replicates
 from .analysis.verdict import RULES, SeasonCosts, Verdict, best_rule, judge, season_costs, together
 

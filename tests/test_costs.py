@@ -18,7 +18,7 @@ from simulator.pricing.costs import SeasonPricer, price
 from simulator.inputs.history import history_from_frame
 from simulator.replay.resample import Resampler, season_calendar
 from simulator.inputs.scenario import BASELINES, break_even_probability
-from simulator.pricing.scoring import Contingency
+from simulator.pricing.contingency import Contingency
 
 N_PER_BLOCK = 8  # replicates taken from each seeded block: enough for the oracle, quick to loop
 BLOCKS = (0, 1, 3)

@@ -16,7 +16,7 @@ import numpy as np
 from ..notation import decimals
 from ..inputs.history import History
 from ..inputs.scenario import BASELINES, Costs, break_even_probability
-from .scoring import Contingency, cutoff_slots
+from .contingency import Contingency, cutoff_slots
 
 __all__ = ["price", "occasion_costs", "baseline_actions", "SeasonPricer", "PricedBlock"]
 
