@@ -27,7 +27,7 @@ from simulator.account.outputs import render_files
 
 from test_sites import SITES_TOML, correlated_sites
 
-run_module = importlib.import_module("simulator.run")
+run_module = importlib.import_module("simulator.tasks.plan")
 parallel = importlib.import_module("simulator.execution.parallel")
 report = importlib.import_module("simulator.account.report")
 

@@ -17,7 +17,8 @@ from .probability_changes import log_odds_noise
 
 __all__ = ["ReplicatePricer", "OUTCOME_STREAM"]
 
-# seed streams (spawn_key prefixes): run.py 1, tilt.py 41, replicate_pricer.py 42 and 43, selection.py 45
+# seed streams (spawn_key prefixes): tasks/work.py 1, tilt.py 41, replicate_pricer.py 42-43,
+# selection.py 45
 NOISE_STREAM = 42  # log-odds noise, with a key made from the case's name
 OUTCOME_STREAM = 43  # outcomes drawn in the calibrated mode (shared by the base and every case)
 

@@ -18,7 +18,8 @@ from .probability_changes import shift_odds
 
 __all__ = ["run_event_share", "Tilt", "tilt_to_rate", "odds_shift_to_rate", "PILOT_REPLICATES"]
 
-# seed streams (spawn_key prefixes): run.py 1, tilt.py 41, replicate_pricer.py 42 and 43, selection.py 45
+# seed streams (spawn_key prefixes): tasks/work.py 1, tilt.py 41, replicate_pricer.py 42-43,
+# selection.py 45
 TILT_STREAM = 41  # pilot replicates that set the tilt
 PILOT_REPLICATES = 1000
 TILT_LIMIT = 200.0  # |theta| searched; weights exp(theta * (share - 0.5)) stay finite and positive
