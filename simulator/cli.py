@@ -37,7 +37,7 @@ from .inputs.dates import human_format
 from .inputs.errors import InputError
 from .inputs.history import read_history
 from .account.outputs import check_out_folder, render_files, summary, write_files
-from .execution.parallel import CLUSTER_ENV
+from .execution.dask_cluster import CLUSTER_ENV
 from .results import RunResult
 from .run import run
 from .inputs.scenario import Costs, Scenario, read_scenario

@@ -6,7 +6,7 @@ returns a :class:`~simulator.results.RunResult` holding numbers only (no files a
 
 The pricing is cut into tasks (``tasks/``), each a fixed chunk of
 :data:`~simulator.tasks.work.CHUNK_BLOCKS` seeded replicate blocks for a group of sites, and run by
-an executor of :mod:`simulator.execution.parallel` (this process, local worker processes or a Dask
+an executor of :mod:`simulator.execution` (this process, local worker processes or a Dask
 cluster). A task returns the season costs of its replicates; they are
 put together site by site in block order, so the results are the same bytes whatever runs them.
 
@@ -29,7 +29,7 @@ from .analysis.forecasts import compare_forecasts
 from .analysis.selection import calibrate, select_honestly
 from .analysis.stress import run_stress
 from .analysis.verdict import RULES, Verdict, best_rule, judge, season_costs, together
-from .execution.parallel import prepare
+from .execution.pool import prepare
 from .inputs.errors import InputError
 from .inputs.history import History, read_history
 from .inputs.scenario import (BASELINES, Scenario, break_even_probability, check_workload, cost_warnings,

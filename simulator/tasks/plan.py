@@ -17,7 +17,8 @@ from typing import Any
 
 import numpy as np
 
-from ..execution.parallel import Executor, InlineExecutor, open_executor
+from ..execution.choose import open_executor
+from ..execution.executor import Executor, InlineExecutor
 from ..pricing.costs import PricedBlock, SeasonPricer
 from ..replay.resample import BLOCK
 from ..results import SiteResult

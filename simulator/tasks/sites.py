@@ -16,7 +16,7 @@ import pandas as pd
 from ..analysis.selection import Selection, select_honestly
 from ..analysis.stress import StressResult, run_stress
 from ..analysis.verdict import best_rule, judge, season_costs
-from ..execution.parallel import Executor
+from ..execution.executor import Executor
 from ..inputs.scenario import BASELINES, break_even_probability, cost_warnings
 from ..pricing.costs import PricedBlock
 from ..pricing.decision import Decision, decide
