@@ -11,7 +11,8 @@ import numpy as np
 from ..pricing.contingency import counts_from_slots, cutoff_slots
 from ..pricing.costs import PricedBlock, SeasonPricer, baseline_actions, occasion_costs, price
 from ..inputs.history import History
-from ..inputs.scenario import BASELINES, Costs
+from ..inputs.scenario_costs import Costs
+from ..inputs.scenario_types import BASELINES
 from ..replay.resample import block_rng
 from .probability_changes import log_odds_noise
 

@@ -44,7 +44,10 @@ from ..inputs.errors import InputError
 from ..inputs.history import History
 from ..rules.vectorised_model import OperationsPricer
 from ..replay.resample import Calendar, Resampler
-from ..inputs.scenario import BASELINES, Costs, Scenario, StressCase, break_even_probability
+from ..inputs.scenario import Scenario
+from ..inputs.scenario_changes import StressCase
+from ..inputs.scenario_costs import Costs, break_even_probability
+from ..inputs.scenario_types import BASELINES
 from .probability_changes import degrade, prior_shift, shift_odds
 from .replicate_pricer import ReplicatePricer
 from .tilt import Tilt, odds_shift_to_rate, tilt_to_rate

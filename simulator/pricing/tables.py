@@ -18,7 +18,7 @@ from . import scoring
 from .costs import price
 from .decision import per_cutoff
 from ..inputs.history import History
-from ..inputs.scenario import Costs
+from ..inputs.scenario_costs import Costs
 from .contingency import Contingency, count_at_cutoffs
 from .rates import rates
 from .value import net_benefit, relative_value, relative_value_from_costs, value_curve

@@ -58,7 +58,9 @@ import numpy as np
 from ..notation import decimals
 from ..inputs.errors import InputError
 from ..inputs.history import History
-from ..inputs.scenario import WEEKDAYS, OperationsSection, Scenario
+from ..inputs.scenario import Scenario
+from ..inputs.scenario_tables import OperationsSection
+from ..inputs.scenario_types import WEEKDAYS
 
 __all__ = ["COMPONENTS", "COUNTS", "OFF", "REGULAR", "OVERTIME", "WORK_UNIT", "Rules", "make_rules",
            "safety_stops"]

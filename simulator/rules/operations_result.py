@@ -8,7 +8,8 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from ..inputs.scenario import BASELINES, OperationsSection
+from ..inputs.scenario_tables import OperationsSection
+from ..inputs.scenario_types import BASELINES
 from .operating_rules import COMPONENTS, COUNTS, Rules, _iso
 
 __all__ = ["CAUTION", "OperationsResult"]

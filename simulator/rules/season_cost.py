@@ -17,7 +17,8 @@ from ..pricing.contingency import cutoff_slots
 from ..pricing.costs import PricedBlock, baseline_actions
 from ..inputs.errors import InputError
 from ..inputs.history import History
-from ..inputs.scenario import BASELINES, Scenario
+from ..inputs.scenario import Scenario
+from ..inputs.scenario_types import BASELINES
 from ..replay.resample import Calendar
 from .operating_rules import COMPONENTS, COUNTS, WORK_UNIT, Rules, make_rules, safety_stops
 
