@@ -1,19 +1,20 @@
-"""Tasks on an existing Dask cluster: checking the address, scattering the inputs, the workers' heap.
+"""Tasks on an existing Dask cluster: checking the address, scattering the inputs, tasks in flight.
 
 :class:`DaskExecutor` sends tasks to a Dask scheduler (``distributed.Client``), given by address or
 as a client; an address is probed first (:func:`_probe`) so that a wrong one fails in one line.
-Dask is an optional dependency, imported only here and only when a cluster is used.
+Each task runs wrapped (:mod:`.dask_worker`) so that the worker's process suits it. Dask is an
+optional dependency, imported only when a cluster is used.
 """
 
 from __future__ import annotations
 
-import ctypes
 import socket
 import struct
 from typing import Any
 
 from ..inputs.errors import InputError
-from .executor import IN_FLIGHT_PER_WORKER, Executor, TaskFunction
+from .dask_worker import _OnDaskWorker
+from .executor import IN_FLIGHT_PER_WORKER, Executor
 
 __all__ = ["DaskExecutor", "CONNECT_TIMEOUT", "CLUSTER_ENV"]
 
@@ -147,38 +148,3 @@ class DaskExecutor(Executor):
         self._forget_shared()
         if self._own:
             self.client.close()
-
-
-class _OnDaskWorker:
-    """A task function that first gives large arrays back to the heap in the worker's process.
-
-    Dask's nanny starts workers with ``MALLOC_TRIM_THRESHOLD_=65536`` so that they return memory to
-    the system; on glibc that also fixes the threshold above which ``malloc`` maps fresh pages at its
-    128 KiB default, so every block-sized numpy temporary is mapped, zeroed and unmapped again and the
-    pricing runs up to twice as slowly. Raising the mmap and trim thresholds with ``mallopt``
-    (glibc's ``M_MMAP_THRESHOLD`` = -3, ``M_TRIM_THRESHOLD`` = -1; see ``man mallopt``) lets freed
-    blocks be reused; elsewhere (no glibc) nothing is changed.
-    """
-
-    def __init__(self, fn: TaskFunction):
-        self.fn = fn
-
-    def __call__(self, shared: Any, *task: Any) -> Any:
-        _roomy_heap()
-        return self.fn(shared, *task)
-
-
-_HEAP_TUNED = False
-
-
-def _roomy_heap() -> None:
-    global _HEAP_TUNED
-    if _HEAP_TUNED:
-        return
-    _HEAP_TUNED = True
-    try:
-        libc = ctypes.CDLL("libc.so.6")
-        libc.mallopt(-3, 32 * 2**20)  # M_MMAP_THRESHOLD: glibc's largest allowed value on 64-bit
-        libc.mallopt(-1, 256 * 2**20)  # M_TRIM_THRESHOLD
-    except (OSError, AttributeError):
-        pass
