@@ -27,7 +27,7 @@ from simulator.account.outputs import render_files
 
 from test_sites import SITES_TOML, correlated_sites
 
-run_module = importlib.import_module("simulator.run")
+run_module = importlib.import_module("simulator.tasks.plan")
 pool = importlib.import_module("simulator.execution.pool")
 shared_memory = importlib.import_module("simulator.execution.shared_memory")
 dask_cluster = importlib.import_module("simulator.execution.dask_cluster")
