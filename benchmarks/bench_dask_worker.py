@@ -1,16 +1,23 @@
-"""What a Dask worker's own threads cost gonogo's tasks, with its profiler and tick paused or not.
+"""Where a Dask run's processor time goes beside the tasks: the workers' event loops and this process.
 
 Invented data (like every benchmark here; the many-sites history of ``bench_sites.py``): a
-two-worker Dask LocalCluster with Dask's default settings (one thread per worker process) prices
-the same run again and again, in rounds, alternately with the worker's profiler and health tick
-paused while gonogo's tasks run (``simulator.execution.dask_worker.QUIET``, as gonogo runs) and
-running as Dask has them (``QUIET`` emptied in the workers). For each way: the run's wall time, the
-processor time of the workers' task threads, and that of the workers' other threads (their event
-loops: profiler, tick, heartbeats, transfers), from each thread's own counters (psutil, Linux), as
-a share of the task threads' time. Medians over the rounds. The machine's other load makes wall
-times drift; the processor times do not.
+two-worker Dask LocalCluster with Dask's default settings (one thread per worker process; its
+scheduler and nannies live in this process) prices the same run again and again, in rounds, three
+ways, each first in turn:
 
-    .venv/bin/python benchmarks/bench_dask_worker.py                 # about 2 minutes here
+- as gonogo runs: the workers' profiler and health tick paused while gonogo's tasks run
+  (``simulator.execution.dask_worker.QUIET``), results fetched from the workers that hold them
+  (``simulator.execution.dask_cluster._direct``);
+- the profiler and tick running, as Dask has them (``QUIET`` emptied in the workers);
+- results relayed through the scheduler, as Dask does for a client outside the cluster.
+
+For each way: the run's wall time; the processor time of the workers' task threads, of the
+workers' other threads (their event loops: profiler, tick, heartbeats, transfers), and of this
+process (the run's own work, the scheduler, the nannies), from each thread's and process's own
+counters (psutil, Linux). Medians over the rounds. The machine's other load makes wall times
+drift; processor times drift far less.
+
+    .venv/bin/python benchmarks/bench_dask_worker.py                 # about 3 minutes here
     .venv/bin/python benchmarks/bench_dask_worker.py --sites 80 --rounds 5
 """
 
@@ -27,7 +34,9 @@ import numpy as np
 from bench_sites import FIXED, sites_frame
 from simulator import history_from_frame, run_history, scenario_from_text
 
-WAYS = {"profiler and tick paused (gonogo)": None, "as Dask has them": ()}
+GONOGO = "as gonogo runs"
+WAYS = {GONOGO: (None, True), "profiler and tick running": ((), True),
+        "results through the scheduler": (None, False)}  # way: (paused callbacks, fetched directly)
 
 
 def _thread_names() -> dict[int, str]:
@@ -47,6 +56,12 @@ def _cpu_by_thread(pid: int) -> dict[int, float]:
     return {t.id: t.user_time + t.system_time for t in psutil.Process(pid).threads()}
 
 
+def _own_cpu() -> float:
+    import psutil
+
+    return sum(psutil.Process().cpu_times()[:2])
+
+
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
     parser.add_argument("--sites", type=int, default=40, help="sites with fixed costs (default 40)")
@@ -56,24 +71,30 @@ def main() -> None:
     args = parser.parse_args()
     from distributed import Client, LocalCluster
 
+    dask_cluster = importlib.import_module("simulator.execution.dask_cluster")
+    direct = dask_cluster._direct
     scenario = scenario_from_text(FIXED.format(replicates=args.replicates, step=0.01))
     history = history_from_frame(sites_frame(args.sites, args.years), scenario, label="invented")
     print(f"bench_dask_worker: {args.sites} sites x {args.years} years x {args.replicates:,} replicates x "
           f"{scenario.cutoffs.size} cutoffs; a two-worker LocalCluster, Dask's default settings")
-    results: dict[str, list[tuple[float, float, float]]] = {way: [] for way in WAYS}
+    results: dict[str, list[tuple[float, float, float, float]]] = {way: [] for way in WAYS}
     with LocalCluster(n_workers=2, threads_per_worker=1, processes=True, dashboard_address=None) as cluster, \
             Client(cluster.scheduler_address) as client:
         client.run(importlib.import_module, "simulator.run")
         pids = client.run(os.getpid)
         run_history(scenario, history, cluster=cluster.scheduler_address)  # warm: every import made
+        ways = list(WAYS)
         for r in range(args.rounds):
-            order = list(WAYS) if r % 2 == 0 else list(WAYS)[::-1]
-            for way in order:
-                client.run(_set_quiet, WAYS[way])
+            for way in ways[r % len(ways):] + ways[: r % len(ways)]:
+                quiet, fetch_directly = WAYS[way]
+                client.run(_set_quiet, quiet)
+                dask_cluster._direct = direct if fetch_directly else (lambda client: None)
                 before = {w: _cpu_by_thread(pid) for w, pid in pids.items()}
+                here = _own_cpu()
                 start = time.perf_counter()
                 run_history(scenario, history, cluster=cluster.scheduler_address)
                 wall = time.perf_counter() - start
+                here = _own_cpu() - here
                 after = {w: _cpu_by_thread(pid) for w, pid in pids.items()}
                 names = client.run(_thread_names)
                 task = other = 0.0
@@ -84,15 +105,16 @@ def main() -> None:
                             task += used
                         else:
                             other += used
-                results[way].append((wall, task, other))
+                results[way].append((wall, task, other, here))
             print(f"  round {r + 1}: " + ", ".join(f"{way} {results[way][-1][0]:.1f} s" for way in WAYS), flush=True)
         client.run(_set_quiet, None)
-    print(f"  median of {args.rounds} rounds (processor time summed over both workers):")
+        dask_cluster._direct = direct
+    print(f"  median of {args.rounds} rounds (processor time of both workers together):")
     for way, rows in results.items():
-        wall, task, other = (float(np.median([row[i] for row in rows])) for i in range(3))
-        share = float(np.median([row[2] / row[1] for row in rows]))
-        print(f"    {way:34} run {wall:5.1f} s; task threads {task:5.2f} s; other threads {other:4.2f} s "
-              f"({share:.0%} of the task threads')")
+        wall, task, other, here = (float(np.median([row[i] for row in rows])) for i in range(4))
+        total = float(np.median([row[1] + row[2] + row[3] for row in rows]))
+        print(f"    {way:30} run {wall:5.1f} s; processor time: task threads {task:5.2f} s, workers' other "
+              f"threads {other:4.2f} s, this process {here:4.2f} s, in all {total:5.2f} s")
 
 
 if __name__ == "__main__":

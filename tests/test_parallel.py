@@ -275,3 +275,19 @@ def test_a_dask_workers_profiler_and_tick_pause_while_a_task_runs_and_start_agai
     assert before == {name: True for name in QUIET}
     assert during == {name: False for name in QUIET}
     assert after == before
+
+
+@pytest.mark.filterwarnings("ignore::DeprecationWarning")
+def test_results_fetched_from_the_workers_directly_are_the_same_bytes(scenario_path, monkeypatch):
+    # gonogo's own rule (DEVELOPERS.md, "Reproducibility"): how results travel changes nothing
+    distributed = pytest.importorskip("distributed")
+    scenario = read_scenario(scenario_path)
+    one = _files(run(scenario, workers=1))
+    chosen = []
+    real = dask_cluster._direct
+    monkeypatch.setattr(dask_cluster, "_direct", lambda client: chosen.append(real(client)) or chosen[-1])
+    with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=False, protocol="tcp",
+                                  dashboard_address=None) as cluster:
+        on_cluster = _files(run(scenario, cluster=cluster.scheduler_address))
+    assert chosen == [True]
+    assert on_cluster == one

@@ -19,6 +19,7 @@ from .executor import IN_FLIGHT_PER_WORKER, Executor
 __all__ = ["DaskExecutor", "CONNECT_TIMEOUT", "CLUSTER_ENV"]
 
 CONNECT_TIMEOUT = 5.0  # seconds a cluster's scheduler has to answer
+REACH_TIMEOUT = 1.0  # seconds each worker has to accept a connection from here (_direct)
 _HANDSHAKE_BYTES = 1 << 20  # a Dask handshake is a few hundred bytes; a first message above this is not one
 CLUSTER_ENV = "GONOGO_CLUSTER"  # the command line's --cluster, when not given
 
@@ -108,6 +109,7 @@ class DaskExecutor(Executor):
         self.workers = max(1, sum(w.get("nthreads", 1) for w in
                                   client.scheduler_info().get("workers", {}).values()))
         self.where = f"the Dask cluster at {client.scheduler.address} ({self.workers} threads)"
+        self._direct = _direct(client)
         self._distributed = distributed
         self._scattered: tuple[Any, Any] | None = None  # (shared inputs, their future on the cluster)
 
@@ -132,7 +134,7 @@ class DaskExecutor(Executor):
             for _ in range(IN_FLIGHT_PER_WORKER * self.workers):
                 submit_next()
             for future in finished:
-                index, result = pending.pop(future), future.result()
+                index, result = pending.pop(future), self.client.gather(future, direct=self._direct)
                 submit_next()
                 yield index, result
         finally:
@@ -148,3 +150,30 @@ class DaskExecutor(Executor):
         self._forget_shared()
         if self._own:
             self.client.close()
+
+
+def _direct(client: Any) -> bool | None:
+    """Whether to fetch each result from the worker that holds it (True) rather than through the
+    scheduler, which Dask does for a client outside the cluster (None: Dask's choice).
+
+    Through the scheduler every result is sent twice, and the scheduler's event loop handles every
+    byte: with the scheduler on this machine, as on a LocalCluster, that is processor time taken
+    from the workers (``benchmarks/bench_dask_worker.py`` shows the figures). Directly is chosen
+    only when every worker accepts a tcp connection from here within :data:`REACH_TIMEOUT`, and
+    never for a client that says itself (``direct_to_workers``); a result a worker cannot give is
+    still asked of the scheduler (``Client.gather``, distributed 2026.8).
+    """
+    from distributed.comm.addressing import parse_address, parse_host_port
+
+    if getattr(client, "direct_to_workers", None) is not None:
+        return None
+    addresses = list(client.scheduler_info().get("workers", {}))
+    for address in addresses:
+        try:
+            scheme, location = parse_address(address)
+            if scheme != "tcp":
+                return None
+            socket.create_connection(parse_host_port(location), timeout=REACH_TIMEOUT).close()
+        except (OSError, ValueError):
+            return None
+    return True if addresses else None
