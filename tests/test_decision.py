@@ -218,6 +218,22 @@ def test_quantiles_of_rows_are_numpys_to_the_last_bit(n, rng):
     values[3, n // 2] = np.nan  # a row with NaN is NaN, as numpy has it
     assert np.isnan(quantiles_of_rows(values, QUANTILES)[1][3])
 
+
+def test_the_cutoff_interval_adds_each_history_as_the_obvious_sum_does(rng):
+    # the bootstrap histories' costs, added season by season, against the obvious oracle (one
+    # gather of every history's seasons, summed): the same floats, so the same interval
+    from simulator.pricing.decision import N_HISTORIES, lowest, money_tolerance
+
+    cutoffs = np.round(np.linspace(0, 1, 41), 2)
+    model = rng.normal(5e4, 5e3, (300, 41)).cumsum(axis=1) / 20 + rng.normal(0, 900, (300, 1))
+    reference = model[:, 20] + rng.normal(300, 400, 300)
+    d = decide(model, reference, cutoffs, 7, np.random.default_rng(3))
+    picks = np.random.default_rng(3).integers(0, 300, size=(N_HISTORIES, 7))
+    tolerance = money_tolerance(model, reference)
+    chosen = cutoffs[lowest(model[picks].sum(axis=1), tolerance * 7)]
+    assert d.recommended_cutoff_interval == tuple(float(x) for x in np.quantile(chosen, [0.05, 0.95],
+                                                                               method="inverted_cdf"))
+
 # ------------------------------------------------------------------------------------------------
 # Thompson (1952) and Murphy (1977): the best cutoff for calibrated forecasts is the cost-loss ratio
 

@@ -230,7 +230,11 @@ def decide(model_cost: np.ndarray, reference_cost: np.ndarray, cutoffs: np.ndarr
     n_seasons = max(1, seasons_per_history)
     picks = rng.integers(0, n_rep, size=(N_HISTORIES, n_seasons))
     if objective == "mean":
-        history_cost = model_cost[picks].sum(axis=1)  # (N_HISTORIES, n_cutoffs)
+        # (N_HISTORIES, n_cutoffs): each history's seasons added one after the other, the same sums
+        # as model_cost[picks].sum(axis=1) without its (N_HISTORIES, n_seasons, n_cutoffs) copy
+        history_cost = model_cost[picks[:, 0]]
+        for j in range(1, n_seasons):
+            history_cost += model_cost[picks[:, j]]
         chosen = cutoffs[lowest(history_cost, tolerance * n_seasons)]
     else:  # the objective over each history's own seasons, a chunk of histories at a time
         chosen = np.concatenate([
