@@ -26,6 +26,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from ..notation.prose import cutoff_text, money, share
 from ..pricing.decision import cheaper, distribution, money_tolerance
 
 __all__ = ["Contest", "contest", "wins", "ROW_COLUMNS"]
@@ -40,8 +41,9 @@ class Contest:
     """Forecasts priced on the same replicate seasons, each at its own cutoff, and the winner.
 
     ``names``, ``cutoffs`` and ``costs`` are in the order listed: each forecast's name, the cutoff
-    it is priced at, and its season cost on every replicate, (n_replicates,). ``winner`` is None
-    when the two cheapest tie; ``runner_up`` is the second cheapest (by mean, then name).
+    it is priced at, and its season cost on every replicate, (n_replicates,). ``cheapest`` is the
+    one with the lowest mean (ties: the first by name) and ``runner_up`` the next; ``winner`` is
+    ``cheapest``, or None when the two tie.
     ``saving`` (n_replicates,) is the runner-up's season cost minus the cheapest one's, and
     ``prob_saving`` the share of replicates in which the cheapest is strictly cheaper (a tie within
     the money tolerance is no saving). Money per season.
@@ -51,6 +53,7 @@ class Contest:
     cutoffs: tuple[float, ...]
     costs: tuple[np.ndarray, ...] = field(repr=False)
     winner: str | None
+    cheapest: str
     runner_up: str
     saving: np.ndarray = field(repr=False)
     prob_saving: float
@@ -70,6 +73,16 @@ class Contest:
                 "saving_against_runner_up": self.saving_summary(),
                 "at_own_cutoff": {name: {"cutoff": cutoff, "season_cost": distribution(cost).as_dict()}
                          for name, cutoff, cost in zip(self.names, self.cutoffs, self.costs)}}
+
+    def sentence(self, currency: str) -> str:
+        """Which forecast wins, in one plain sentence for the stress headlines (money per season)."""
+        if self.winner is None:
+            return (f'"{self.cheapest}" and "{self.runner_up}" cost the same here, each at its own cutoff.')
+        at = dict(zip(self.names, self.cutoffs))
+        return (f'Of the forecasts, each at its own cutoff, "{self.winner}" (at {cutoff_text(at[self.winner])}) '
+                f"costs least here: {money(float(self.saving.mean()), currency)} a season less than "
+                f'"{self.runner_up}" (at {cutoff_text(at[self.runner_up])}) on average, and cheaper in '
+                f"{share(self.prob_saving)} of seasons.")
 
     def row(self) -> dict:
         """The columns :data:`ROW_COLUMNS` of a CSV row: the winner (empty on a tie), the
@@ -97,7 +110,7 @@ def contest(names: Sequence[str], cutoffs: Sequence[float], costs: Sequence[np.n
     tolerance = money_tolerance(costs[first], costs[second])
     winner = names[first] if cheaper(means[first], means[second], tolerance) else None
     return Contest(names=tuple(names), cutoffs=tuple(float(c) for c in cutoffs), costs=costs, winner=winner,
-                   runner_up=names[second], saving=costs[second] - costs[first],
+                   cheapest=names[first], runner_up=names[second], saving=costs[second] - costs[first],
                    prob_saving=float(cheaper(costs[first], costs[second], tolerance).mean()))
 
 
