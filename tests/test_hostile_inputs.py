@@ -380,6 +380,27 @@ def test_names_full_of_markup_and_escapes_print_as_plain_text_and_draw_as_plain_
     assert (out / "figures" / "stress.png").exists() and (out / "report.html").exists()
 
 
+
+def test_forecast_names_full_of_markup_name_stress_winners_as_plain_text(tmp_path):
+    # the names of [forecasts] reach the stress headlines (which forecast wins each case): printed
+    # as the characters they are in the terminal and escaped in the report
+    (tmp_path / "history.csv").write_text(HISTORY)
+    names = (r'"ours [/bold] \u001b[31m <b>x</b>"', r'"theirs $\\foo$ \u0007"')
+    text = scenario_text({("history", "probability_column"): None},
+                         stress(event_rate="1.5") + f"[forecasts]\n{names[0]} = \"probability\"\n"
+                         f"{names[1]} = \"probability\"\n")
+    (tmp_path / "s.toml").write_text(text)
+    out = tmp_path / "out"
+    result = runner.invoke(app, ["run", str(tmp_path / "s.toml"), "--out", str(out), "--workers", "1"],
+                           env={"COLUMNS": "200"})
+    assert result.exit_code == 0, result.output[-3000:]
+    assert "\x1b" not in result.output and "\x07" not in result.output
+    assert "cost the same here" in result.stdout  # one column under two names: no winner
+    assert "ours [/bold] \\x1b[31m <b>x</b>" in result.stdout
+    report = (out / "report.html").read_text()
+    assert "<b>x</b>" not in report and "&lt;b&gt;x&lt;/b&gt;" in report
+
+
 def test_a_python_warning_prints_as_one_line_without_a_source_path(tmp_path, monkeypatch):
     # issue 16 item 7: numpy's "RuntimeWarning: invalid value encountered in divide" reached the
     # terminal with the path and line of numpy's source, and the line of code itself
