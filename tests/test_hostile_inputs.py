@@ -361,6 +361,16 @@ NAMES = {
 }
 
 
+
+def _run_plain(tmp_path, text: str, out):
+    """``gonogo run`` of scenario ``text`` into ``out``: it succeeds and prints no control character."""
+    (tmp_path / "s.toml").write_text(text)
+    result = runner.invoke(app, ["run", str(tmp_path / "s.toml"), "--out", str(out), "--workers", "1"],
+                           env={"COLUMNS": "200"})
+    assert result.exit_code == 0, result.output[-3000:]
+    assert "\x1b" not in result.output and "\x07" not in result.output
+    return result
+
 def test_names_full_of_markup_and_escapes_print_as_plain_text_and_draw_as_plain_text(tmp_path):
     # before: "[/bold]" in a name or a stress case's name crashed the headline (rich's MarkupError),
     # escape sequences reached the terminal raw, and "$\foo$" stopped the figures (matplotlib's
@@ -368,12 +378,8 @@ def test_names_full_of_markup_and_escapes_print_as_plain_text_and_draw_as_plain_
     (tmp_path / "history.csv").write_text(HISTORY)
     changes = {**NAMES, ("simulation", "replicates"): "40"}
     text = scenario_text(changes, stress(name=r'"wet [/bold] $\\bar$ \u001b[5m"', event_rate="1.5"))
-    (tmp_path / "s.toml").write_text(text)
     out = tmp_path / "out"
-    result = runner.invoke(app, ["run", str(tmp_path / "s.toml"), "--out", str(out), "--workers", "1"],
-                           env={"COLUMNS": "200"})
-    assert result.exit_code == 0, result.output[-3000:]
-    assert "\x1b" not in result.output and "\x07" not in result.output
+    result = _run_plain(tmp_path, text, out)
     assert "Quillfen [/bold] \\x1b]0;retitled\\x07 [red]works" in result.stdout
     assert "wet [/bold] $\\bar$ \\x1b[5m" in result.stdout
     assert "dry $\\foo$ day [/bold]" in result.stdout
@@ -389,12 +395,8 @@ def test_forecast_names_full_of_markup_name_stress_winners_as_plain_text(tmp_pat
     text = scenario_text({("history", "probability_column"): None},
                          stress(event_rate="1.5") + f"[forecasts]\n{names[0]} = \"probability\"\n"
                          f"{names[1]} = \"probability\"\n")
-    (tmp_path / "s.toml").write_text(text)
     out = tmp_path / "out"
-    result = runner.invoke(app, ["run", str(tmp_path / "s.toml"), "--out", str(out), "--workers", "1"],
-                           env={"COLUMNS": "200"})
-    assert result.exit_code == 0, result.output[-3000:]
-    assert "\x1b" not in result.output and "\x07" not in result.output
+    result = _run_plain(tmp_path, text, out)
     assert "cost the same here" in result.stdout  # one column under two names: no winner
     assert "ours [/bold] \\x1b[31m <b>x</b>" in result.stdout
     report = (out / "report.html").read_text()
