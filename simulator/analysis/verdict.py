@@ -47,7 +47,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..pricing import scoring
+from ..pricing.contingency import count_at_cutoffs
 from ..notation.prose import money  # the one formatter of money in prose (as stress.py uses it)
 from ..pricing.costs import baseline_actions, occasion_costs, price
 from ..inputs.history import History
@@ -214,7 +214,7 @@ def season_costs(history: History, calendar: Calendar, cutoffs: np.ndarray, scen
                                   validation=np.zeros_like(evaluated)) for s in seasons]
     if scenario.operations is None:
         return _with_costs(history, cutoffs, scenario, seasons, learnt)
-    from ..rules.operations_fast import OperationsPricer
+    from ..rules.vectorised_model import OperationsPricer
     from ..inputs.scenario_types import BASELINES
     from .selection import _seasons_on_calendar  # each past season laid on the priced calendar
 
@@ -259,5 +259,5 @@ def _model_with_costs(history: History, cutoffs: np.ndarray, costs, seasons: np.
     evaluated = history.evaluated
     index = np.searchsorted(seasons, history.season[evaluated])  # each evaluated row's season
     p, event = history.p[evaluated], history.event[evaluated]
-    return np.stack([price(scoring.count_at_cutoffs(p[index == i], event[index == i], cutoffs), costs)
+    return np.stack([price(count_at_cutoffs(p[index == i], event[index == i], cutoffs), costs)
                      for i in range(seasons.size)])
