@@ -151,8 +151,8 @@ def forecast_findings(s: Mapping[str, Any], cut: Callable[[float], str], rule_wo
                     f"\u201c{s['scenario']['event']}\u201d is {cut(f[best]['recommended_cutoff'])} or more.")
     elif best != main:
         after = " after the prices" if priced else ""
-        text = (f"no clear case for switching from {_name(main)}: {_name(best)} is cheaper on average{after} but "
-                "saves money in fewer than 95% of seasons")
+        text = (f"{_name(main)}, the one in use: no clear case for switching; {_name(best)} is cheaper on "
+                f"average{after} but not in 95% of seasons")
         sentence = (f"{_name(best)} does not beat {_name(main)} with confidence: it is cheaper on average{after}, "
                     "but saves money in fewer than 95% of simulated seasons, so there is no clear case for switching.")
     else:
