@@ -19,7 +19,7 @@ from rich.console import Console
 from simulator import read_scenario, run
 from simulator.account.findings import account, season_name, seasons_text
 from simulator.notation.prose import money, share
-from simulator.cli import _headline
+from simulator.account.terminal import _headline
 from simulator.demo.generator import write_demo_files
 from simulator.account.outputs import render_files, summary
 

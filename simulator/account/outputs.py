@@ -25,7 +25,7 @@ from .datapackage import datapackage
 from .cautions import cautions
 from ..pricing.decision import distribution
 from .result_set import check_out_folder, write_files
-from ..run import RunResult
+from ..results import RunResult
 from ..analysis.selection import Calibration, Selection
 from ..analysis.stress import StressResult
 

@@ -49,7 +49,7 @@ from collections.abc import Mapping
 from pathlib import Path
 
 from ..inputs.errors import InputError
-from ..execution.parallel import process_running
+from ..execution.lifetime import process_running
 
 __all__ = ["check_out_folder", "write_files", "MANIFEST"]
 
