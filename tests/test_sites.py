@@ -340,7 +340,8 @@ def test_the_gritting_example_prices_five_depots_and_warns_of_the_missing_nights
 def test_report_has_a_sites_section_whose_numbers_are_those_of_summary_json(result):
     """The page and summary.json cannot disagree: the section is written from the summary, with the
     report's one formatter (report.money)."""
-    from simulator.account.report import money, render_report
+    from simulator.account.report import render_report
+    from simulator.notation.prose import money
 
     s = summary(result)
     html = render_report(result, s)["report.html"].decode()

@@ -1,10 +1,9 @@
 """Price replicate seasons for every strategy and every cutoff.
 
-This is the one place that turns classification counts into money (:func:`price`). The model at
-every cutoff is priced from per-occasion cutoff slots computed once for the history
-(:func:`~simulator.scoring.cutoff_slots`), so a replicate's costs at all cutoffs come from one
-bincount and one cumulative sum. The baselines are fixed per-occasion action rules priced on the
-same replicates (common random numbers).
+This is the one place that turns classification counts into money (:func:`price`). A replicate's
+counts at every cutoff and for every baseline come from :mod:`simulator.pricing.counts` (one
+bincount and one cumulative sum per block), and are priced here. The baselines are fixed
+per-occasion action rules priced on the same replicates (common random numbers).
 """
 
 from __future__ import annotations
@@ -16,7 +15,8 @@ import numpy as np
 from ..notation import decimals
 from ..inputs.history import History
 from ..inputs.scenario import BASELINES, Costs, break_even_probability
-from .scoring import Contingency, cutoff_slots
+from .counts import ReplicateCounts, SeasonCounter
+from .scoring import Contingency
 
 __all__ = ["price", "occasion_costs", "baseline_actions", "SeasonPricer", "PricedBlock"]
 
@@ -69,9 +69,6 @@ def baseline_actions(history: History, costs: Costs) -> dict[str, np.ndarray]:
     }
 
 
-_NEVER = BASELINES.index("never_act")
-
-
 @dataclass(frozen=True)
 class PricedBlock:
     """Season costs of one block of replicates: ``model`` (n_rep, n_cutoffs), ``baselines``
@@ -88,50 +85,28 @@ class PricedBlock:
 class SeasonPricer:
     """Prices replicate seasons given as history row indices (n_rep, n_occasions).
 
-    A season's cost at cutoff k is its cost when never acting plus, for every occasion whose
-    probability reaches the cutoff, the difference acting makes on that occasion
-    (``occasion_costs(act=True) - occasion_costs(act=False)``). Each history row is given its slot
-    (how many cutoffs it reaches) once, so one weighted bincount per block of replicates and a
-    reversed cumulative sum over slots give every cutoff at once.
+    The counts of each replicate at every cutoff and for every baseline come from a
+    :class:`~simulator.pricing.counts.SeasonCounter` (:meth:`counts`); their season costs from
+    :func:`price`. With whole-number costs the costs are exact; with fractional costs each is the
+    sum of four products, each correctly rounded.
     """
 
     def __init__(self, history: History, cutoffs: np.ndarray, costs: Costs):
         self.costs = costs
         self.n_cutoffs = int(cutoffs.size)
-        self._slots = cutoff_slots(history.p, cutoffs)
-        self._event = history.event
-        n = history.n_rows
-        self._acting_difference = (occasion_costs(np.ones(n, bool), history.event, costs)
-                                   - occasion_costs(np.zeros(n, bool), history.event, costs))
-        actions = baseline_actions(history, costs)
-        # every history row has one of a few patterns of (event, what each baseline does); a
-        # replicate's baseline counts follow from how often it holds each pattern
-        columns = [history.event] + [actions[name] for name in BASELINES]
-        code = sum(column.astype(np.int64) << bit for bit, column in enumerate(columns))  # one int a row
-        codes, pattern = np.unique(code, return_inverse=True)
-        patterns = ((codes[:, None] >> np.arange(len(columns))) & 1).astype(bool)  # a column a bit
-        self._pattern = pattern.ravel().astype(np.int64)
-        self._n_patterns = patterns.shape[0]
-        event, acts = patterns[:, :1], patterns[:, 1:]
-        self._pattern_event = patterns[:, 0].astype(np.int64)
-        self._pattern_cells = [(acts & event).astype(np.int64), (acts & ~event).astype(np.int64),
-                               (~acts & event).astype(np.int64), (~acts & ~event).astype(np.int64)]
+        self._counter = SeasonCounter(history.p, history.event, cutoffs, baseline_actions(history, costs),
+                                      BASELINES)
+
+    def counts(self, rows: np.ndarray) -> ReplicateCounts:
+        """Each replicate's classification counts at every cutoff and for every baseline."""
+        return self._counter(rows)
 
     def __call__(self, rows: np.ndarray) -> PricedBlock:
-        n_rep = rows.shape[0]
-        code = self._pattern[rows] + (np.arange(n_rep, dtype=np.int64) * self._n_patterns)[:, None]
-        held = np.bincount(code.ravel(), minlength=n_rep * self._n_patterns).reshape(n_rep, -1)
-        baselines = price(Contingency(*(held @ cells for cells in self._pattern_cells)), self.costs)
-        return PricedBlock(model=self.model_cost(rows, baselines), baselines=baselines,
-                           n_events=held @ self._pattern_event)
+        counts = self._counter(rows)
+        return PricedBlock(model=price(counts.model, self.costs), baselines=price(counts.baselines, self.costs),
+                           n_events=counts.n_events)
 
-    def model_cost(self, rows: np.ndarray, baselines: np.ndarray) -> np.ndarray:
+    def model_cost(self, rows: np.ndarray, baselines: np.ndarray | None = None) -> np.ndarray:
         """Season costs (n_rep, n_cutoffs) of acting on this pricer's probabilities at every
-        cutoff, given the baselines' costs on the same rows (n_rep, n_baselines), which depend on
-        the outcomes and costs only: so another forecast of the same history reuses them."""
-        n_rep, width = rows.shape[0], self.n_cutoffs + 1
-        code = self._slots[rows] + (np.arange(n_rep, dtype=np.int64) * width)[:, None]
-        tally = np.bincount(code.ravel(), weights=self._acting_difference[rows].ravel(),
-                            minlength=n_rep * width).reshape(n_rep, width)
-        acting = np.cumsum(tally[:, ::-1], axis=1)[:, -2::-1]  # [r, k]: occasions with slot > k
-        return baselines[:, _NEVER, None] + acting
+        cutoff (``baselines`` is not needed: the counts hold the never-acting cost)."""
+        return price(self._counter.model(rows), self.costs)

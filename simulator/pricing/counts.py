@@ -1,0 +1,82 @@
+"""Classification counts of replicate seasons: every cutoff and every baseline, per replicate.
+
+A replicate season is given as history row indices (n_rep, n_occasions). Its counts (hits, false
+alarms, misses, correct negatives) do not depend on the costs, so they are made here once and
+priced by :func:`simulator.pricing.costs.price`, the one place counts become money, with fixed
+costs or with costs drawn per replicate (costs known only as a range).
+
+- The model at every cutoff: each history row gets its slot once (how many cutoffs its
+  probability reaches, :func:`~simulator.pricing.scoring.cutoff_slots`), so one bincount over a
+  block's rows split by event and a reversed cumulative sum over slots give every cutoff at once
+  (:func:`~simulator.pricing.scoring.counts_from_slots`).
+- The baselines: every history row has one of a few patterns of (event, what each baseline does);
+  a replicate's counts follow from how often it holds each pattern (one bincount and a product).
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping, Sequence
+from dataclasses import dataclass
+
+import numpy as np
+
+from .scoring import Contingency, counts_from_slots, cutoff_slots
+
+__all__ = ["ReplicateCounts", "SeasonCounter"]
+
+
+@dataclass(frozen=True)
+class ReplicateCounts:
+    """Counts of one block of replicates.
+
+    ``model``: a :class:`Contingency` with fields (n_rep, n_cutoffs); ``baselines``: one with fields
+    (n_rep, n_baselines) in the order the counter was given them; ``n_events``: (n_rep,). All int64.
+    """
+
+    model: Contingency
+    baselines: Contingency
+    n_events: np.ndarray
+
+
+class SeasonCounter:
+    """Counts replicate seasons at every cutoff of one forecast and for the given baselines.
+
+    Parameters
+    ----------
+    p, event : (n_rows,) the history's probabilities and whether the event happened.
+    cutoffs : (n_cutoffs,) ascending.
+    actions : name -> bool (n_rows,), whether each baseline acts on each history row; ``order``
+        gives the order of the baselines' columns.
+    """
+
+    def __init__(self, p: np.ndarray, event: np.ndarray, cutoffs: np.ndarray,
+                 actions: Mapping[str, np.ndarray], order: Sequence[str]):
+        event = np.asarray(event, dtype=bool)
+        self.n_cutoffs = int(np.asarray(cutoffs).size)
+        self._slots, self._event = cutoff_slots(p, cutoffs), event
+        columns = [event] + [np.asarray(actions[name], dtype=bool) for name in order]
+        code = sum(column.astype(np.int64) << bit for bit, column in enumerate(columns))  # one int a row
+        codes, pattern = np.unique(code, return_inverse=True)
+        patterns = ((codes[:, None] >> np.arange(len(columns))) & 1).astype(bool)  # a column a bit
+        self._pattern = pattern.ravel().astype(np.int64)
+        self._n_patterns = patterns.shape[0]
+        happened, acts = patterns[:, :1], patterns[:, 1:]
+        self._pattern_event = patterns[:, 0].astype(np.int64)
+        self._pattern_cells = [(acts & happened).astype(np.int64), (acts & ~happened).astype(np.int64),
+                               (~acts & happened).astype(np.int64), (~acts & ~happened).astype(np.int64)]
+
+    def __call__(self, rows: np.ndarray) -> ReplicateCounts:
+        held = self._held(rows)
+        return ReplicateCounts(model=self.model(rows),
+                               baselines=Contingency(*(held @ cells for cells in self._pattern_cells)),
+                               n_events=held @ self._pattern_event)
+
+    def model(self, rows: np.ndarray) -> Contingency:
+        """Counts (n_rep, n_cutoffs) of acting when the probability reaches each cutoff."""
+        return counts_from_slots(self._slots[rows], self._event[rows], self.n_cutoffs)
+
+    def _held(self, rows: np.ndarray) -> np.ndarray:
+        """How many occasions of each replicate hold each pattern, (n_rep, n_patterns)."""
+        n_rep = rows.shape[0]
+        code = self._pattern[rows] + (np.arange(n_rep, dtype=np.int64) * self._n_patterns)[:, None]
+        return np.bincount(code.ravel(), minlength=n_rep * self._n_patterns).reshape(n_rep, -1)
