@@ -143,9 +143,11 @@ def forecast_findings(s: Mapping[str, Any], cut: Callable[[float], str], rule_wo
         sentence = (f"None of the {len(f)} forecasts is worth using: none clearly beat the best rule without a "
                     f"forecast ({rule}) on seasons its cutoff was not chosen on{prices}.")
     elif best != main and (confident or not _verdict_advises(f[main])):
-        why = ("the only one of the two worth using" if not _verdict_advises(f[main]) and len(f) == 2
-               else f"it beats {_name(main)} in {share(gain['prob'])} of seasons" if gain["prob"] is not None
-               else f"it beats {_name(main)}")
+        if not _verdict_advises(f[main]):
+            why = f"{_name(main)} is not worth using" + ("" if _worth_words(f[main]) == "no" else " at its price")
+        else:
+            why = (f"it saves money against {_name(main)} in at least 95% of seasons"
+                   + (" after the prices" if priced else ""))
         text = f"{_name(best)} at its own cutoff {cut(f[best]['recommended_cutoff'])} ({why})"
         sentence = (f"Use {_name(best)} rather than {_name(main)}, acting when its probability of "
                     f"\u201c{s['scenario']['event']}\u201d is {cut(f[best]['recommended_cutoff'])} or more.")

@@ -14,8 +14,8 @@ from typing import Any
 import numpy as np
 
 from ..notation.prose import cutoff_decimals, cutoff_text
-from .figures import Words
-from .figures_forecasts import forecasts_value_chart
+from .figure_style import Words
+from .quality_figures import forecasts_value_chart
 from .findings import account
 from .forecast_choice import SECTION_KEYS, forecast_rows
 
