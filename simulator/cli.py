@@ -42,7 +42,8 @@ from .account.result_set import write_files
 from .execution.dask_cluster import CLUSTER_ENV
 from .results import RunResult
 from .run import run
-from .inputs.scenario import Costs, Scenario, read_scenario
+from .inputs.scenario import Scenario, read_scenario
+from .inputs.scenario_costs import Costs
 
 app = typer.Typer(add_completion=False, no_args_is_help=True, pretty_exceptions_enable=False,
                   rich_markup_mode=None,

@@ -16,7 +16,8 @@ import pytest
 from realdata import seattle_rain, sp500_up
 
 from simulator.inputs.errors import InputError
-from simulator.inputs.history import history_frequency, history_from_frame
+from simulator.inputs.history import history_from_frame
+from simulator.inputs.history_calendar import history_frequency
 from simulator.replay.resample import season_calendar
 from simulator.run import choose_mean_block, run_history
 

@@ -19,7 +19,7 @@ from typer.testing import CliRunner
 
 from simulator import InputError, history_from_frame, run, run_history, scenario_from_text
 from simulator.cli import app
-from simulator.inputs.history import MISSING_DATE_RULE
+from simulator.inputs.history_gaps import MISSING_DATE_RULE
 from simulator.account.outputs import render_files, summary
 from simulator.replay.resample import Resampler, season_calendar
 

@@ -17,7 +17,7 @@ import numpy as np
 from .findings import account
 from ..notation.prose import cutoff_text, format_value, money, ranges_text, share, signed_money
 from .figure_style import Chart
-from ..inputs.scenario import BASELINES
+from ..inputs.scenario_types import BASELINES
 
 __all__ = ["headline_numbers", "recommendation", "FIELD_FORMATS", "RULES_FIELD_FORMATS", "PORTFOLIO_ROWS"]
 

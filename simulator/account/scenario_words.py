@@ -9,7 +9,7 @@ from collections.abc import Mapping
 from typing import Any
 
 from ..notation.prose import money_exact
-from ..inputs.scenario import WEEKDAYS
+from ..inputs.scenario_types import WEEKDAYS
 
 __all__ = ["MONEY_KEYS"]
 
