@@ -13,7 +13,8 @@ import numpy as np
 import pandas as pd
 
 from .analysis.forecasts import Comparison
-from .analysis.selection import Calibration, Selection
+from .analysis.calibration import Calibration
+from .analysis.selection import Selection
 from .analysis.stress import StressResult
 from .analysis.verdict import SeasonCosts, Verdict
 from .inputs.history import History

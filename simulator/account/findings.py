@@ -21,7 +21,7 @@ from ..pricing.decision import OBJECTIVE_NAMES
 from .finding import Finding
 from .forecast_choice import SECTION_KEYS, forecast_findings
 from ..inputs.history_calendar import season_start_month
-from ..notation.prose import cutoff_decimals, cutoff_text, format_value, money, money_exact, money_range, ranges_text, share
+from ..notation.prose import cutoff_decimals, cutoff_text, format_value, money, money_range, ranges_text, share
 
 __all__ = ["Finding", "Account", "account", "season_name", "seasons_text", "strategy_label",
            "short_label", "bad_season", "OBJECTIVE_WORDS"]
