@@ -121,7 +121,7 @@ def summary(result: RunResult) -> dict[str, Any]:
     if result.verdict is not None:  # whether to act on the forecast at all (simulator.verdict)
         out["verdict"] = result.verdict.as_dict(scenario.currency)
     if result.comparison is not None:  # two or more [forecasts]: "forecasts" and "forecast_pairs"
-        out.update(result.comparison.summary(scenario.currency))
+        out.update(result.comparison.summary(scenario.currency, scenario.forecast_prices))
     out = _clean(out)
     out["account"] = [finding.as_dict() for finding in account(out).findings]
     return out

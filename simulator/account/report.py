@@ -38,6 +38,7 @@ from .report_sections import (_completion_by_day, _explorer_rows, _matrix, _oper
                               _stress_cases, _zoomed, headline_numbers, recommendation)
 from .scenario_words import _months, _occasion_days, _rules_read_back
 from .file_names import table_names
+from .report_forecasts import forecasts_section
 from .whatif import whatif_context
 
 __all__ = ["render_report", "CAUTION", "FILE_NOTES"]
@@ -117,6 +118,8 @@ def render_report(result, summary: Mapping[str, Any]) -> dict[str, bytes]:
     if by_day is not None:
         draw["completion"] = partial(completion_chart, *by_day, operations["deadline"], words,
                                      reference_label=short_label(result.reference, action, occasion))
+    forecasts, forecast_charts = forecasts_section(result, summary, words)  # two or more [forecasts]
+    draw.update(forecast_charts)
     charts = {name: chart() for name, chart in draw.items()}
     phone = {name: chart(narrow=True) for name, chart in draw.items()}
 
@@ -169,7 +172,7 @@ def render_report(result, summary: Mapping[str, Any]) -> dict[str, bytes]:
         "forward": (summary.get("selection") or {}).get("walk_forward"),
         "calibration": summary.get("calibration"),
         "portfolio": _portfolio(summary, currency, decimals),
-        "risk": risk,
+        "risk": risk, "forecasts": forecasts,
         "whatif": whatif_context(result, action, event, occasion, decimals),
     }
     html = _with_content_policy(_ENV.get_template("report.html.j2").render(context))
