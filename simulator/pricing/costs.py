@@ -15,7 +15,7 @@ import numpy as np
 from ..notation import decimals
 from ..inputs.history import History
 from ..inputs.scenario import BASELINES, Costs, break_even_probability
-from .counts import ReplicateCounts, SeasonCounter
+from .counts import ReplicateCounts, SeasonCounter, as_extras
 from .scoring import Contingency
 
 __all__ = ["price", "occasion_costs", "baseline_actions", "SeasonPricer", "PricedBlock"]
@@ -88,11 +88,14 @@ class SeasonPricer:
     The counts of each replicate at every cutoff and for every baseline come from a
     :class:`~simulator.pricing.counts.SeasonCounter` (:meth:`counts`); their season costs from
     :func:`price`. With whole-number costs the costs are exact; with fractional costs each is the
-    sum of four products, each correctly rounded.
+    sum of four products, each correctly rounded. With ``keep_counts`` each priced block also
+    carries its counts in its extras (:func:`~simulator.pricing.counts.as_extras`), for a run to
+    keep (``RunResult.replicate_counts``).
     """
 
-    def __init__(self, history: History, cutoffs: np.ndarray, costs: Costs):
+    def __init__(self, history: History, cutoffs: np.ndarray, costs: Costs, keep_counts: bool = False):
         self.costs = costs
+        self.keep_counts = keep_counts
         self.n_cutoffs = int(cutoffs.size)
         self._counter = SeasonCounter(history.p, history.event, cutoffs, baseline_actions(history, costs),
                                       BASELINES)
@@ -104,7 +107,7 @@ class SeasonPricer:
     def __call__(self, rows: np.ndarray) -> PricedBlock:
         counts = self._counter(rows)
         return PricedBlock(model=price(counts.model, self.costs), baselines=price(counts.baselines, self.costs),
-                           n_events=counts.n_events)
+                           n_events=counts.n_events, extras=as_extras(counts) if self.keep_counts else {})
 
     def model_cost(self, rows: np.ndarray, baselines: np.ndarray | None = None) -> np.ndarray:
         """Season costs (n_rep, n_cutoffs) of acting on this pricer's probabilities at every
