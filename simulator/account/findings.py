@@ -19,6 +19,7 @@ from typing import Any
 
 from ..pricing.decision import OBJECTIVE_NAMES
 from ..inputs.history import season_start_month
+from .sensitivity_view import sensitivity_sentence
 from ..notation.prose import cutoff_decimals, cutoff_text, format_value, money, money_exact, money_range, ranges_text, share
 
 __all__ = ["Finding", "Account", "account", "season_name", "seasons_text", "strategy_label",
@@ -95,7 +96,7 @@ class Finding:
     ``key`` names it (``verdict``, ``cutoff``, ``season_cost``, ``saving``, ``beats_reference``,
     ``events_without_action``,
     ``deadline``, ``completion``, ``safety_stop``, ``sites``, ``season``, ``baseline:<name>``,
-    ``history``); ``label`` is what it is, ``text`` the finding with its units as a table row
+    ``history``, ``sensitivity``); ``label`` is what it is, ``text`` the finding with its units as a table row
     shows it, ``sentence`` the same in prose, ``basis`` what it is per and at which cutoff.
     ``first`` marks the findings of the recommendation (the headline and the report's first screen).
     """
@@ -255,6 +256,11 @@ def account(summary: Mapping[str, Any]) -> Account:
             f"Played on the history itself ({n:,} in-season {unit}s over {seasons} seasons), cutoff {at} would "
             f"have cost {money(rec['historical_cost'], cur)} in all: {money(rec['historical_cost'] / n, cur)} a {unit}.",
             f"total over the history at cutoff {at} (recommended.historical_cost)", first=False))
+    sensitivity = s.get("sensitivity")
+    if sensitivity:  # which cost estimate matters (analysis/sensitivity.py), or why a run has none
+        said = sensitivity_sentence(sensitivity, cur, decimals, unit)
+        out.append(Finding("sensitivity", "Which cost estimate matters", said, said,
+                           "per season against the reference, each cost moved alone (sensitivity.csv)", first=False))
     title = (f"{sc['name']}: {action} when the probability of \u201c{event}\u201d is at least the cutoff")
     return Account(title=title, findings=tuple(out))
 

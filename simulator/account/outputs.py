@@ -25,6 +25,7 @@ from .datapackage import datapackage
 from .cautions import cautions
 from ..pricing.decision import distribution
 from .result_set import check_out_folder, write_files
+from .sensitivity_view import sensitivity_entry, sensitivity_frame
 from ..results import RunResult
 from ..analysis.selection import Calibration, Selection
 from ..analysis.stress import StressResult
@@ -120,6 +121,8 @@ def summary(result: RunResult) -> dict[str, Any]:
         out["verdict"] = result.verdict.as_dict(scenario.currency)
     if result.comparison is not None:  # two or more [forecasts]: "forecasts" and "forecast_pairs"
         out.update(result.comparison.summary(scenario.currency))
+    if result.sensitivity is not None:  # which cost estimate matters (or why a run has no such table)
+        out["sensitivity"] = sensitivity_entry(result.sensitivity)
     out = _clean(out)
     out["account"] = [finding.as_dict() for finding in account(out).findings]
     return out
@@ -160,6 +163,7 @@ def render_files(result: RunResult) -> dict[str, bytes]:
         "selection.csv": lambda: _csv(_selection_frame(result.selection)),
         "sites.csv": lambda: _csv(result.portfolio.table),
         "forecasts.csv": lambda: _csv(result.comparison.table()),
+        "sensitivity.csv": lambda: _csv(sensitivity_frame(contents["sensitivity"])),
     }
     scenario = result.scenario
     render["datapackage.json"] = lambda: datapackage(files, scenario.slug, scenario.name, scenario.currency)
@@ -184,6 +188,8 @@ def table_names(result: RunResult) -> list[str]:
         names.append("sites.csv")
     if result.comparison is not None:
         names.append("forecasts.csv")
+    if result.sensitivity is not None and result.sensitivity.costs:
+        names.append("sensitivity.csv")
     names.append("datapackage.json")  # describes the CSV files above, so it comes after them
     return names
 
