@@ -36,6 +36,8 @@ from .cautions import GENERAL
 from ..pricing.decision import OBJECTIVE_NAMES
 from ..analysis.verdict import RULE_WORDS
 from .figures import Words
+from .sensitivity_view import report_section
+from .tornado import tornado_chart
 from ..inputs.scenario import BASELINES
 from ..inputs.scenario import WEEKDAYS
 
@@ -58,6 +60,7 @@ FILE_NOTES = {"summary.json": " (every headline number, full precision)", "cutof
               "stress.csv": " (every stress case)", "sites.csv": " (each site at its own cutoff)",
               "calibration.csv": " (the recalibration curve)",
               "forecasts.csv": " (each forecast at every cutoff, on the same replicate seasons)",
+              "sensitivity.csv": " (each cost moved alone: its ends and switching values)",
               "datapackage.json": " (what every column of the CSV files means, with its unit)"}
 
 _ENV = jinja2.Environment(loader=jinja2.PackageLoader("simulator.account", "templates"),
@@ -493,6 +496,10 @@ def render_report(result, summary: Mapping[str, Any]) -> dict[str, bytes]:
         draw["stress"] = partial(figures.stress_chart, [c["name"] for c in stress], [c["mean"] for c in stress],
                                  [c["p05"] for c in stress], [c["p95"] for c in stress],
                                  [c["best_mean"] for c in stress], [c["reference_mean"] for c in stress], words)
+    sensitivity = report_section(summary.get("sensitivity"), currency, decimals, occasion)
+    if sensitivity and sensitivity["rows"]:
+        draw["tornado"] = partial(tornado_chart, sensitivity["labels"], sensitivity["change_low"],
+                                  sensitivity["change_high"], words)
     operations = _operations(summary, currency, getattr(scenario, "operations", None))
     if operations and operations["values"]:
         draw["operations_costs"] = partial(figures.components_chart, operations["names"], operations["values"],
@@ -553,7 +560,7 @@ def render_report(result, summary: Mapping[str, Any]) -> dict[str, bytes]:
         "forward": (summary.get("selection") or {}).get("walk_forward"),
         "calibration": summary.get("calibration"),
         "portfolio": _portfolio(summary, currency, decimals),
-        "risk": risk,
+        "risk": risk, "sensitivity": sensitivity,
     }
     html = _with_content_policy(_ENV.get_template("report.html.j2").render(context))
     files = {"report.html": html.encode("utf-8")}
