@@ -52,8 +52,8 @@ __all__ = ["VARY", "REACH", "End", "Switch", "CostSensitivity", "Sensitivity", "
 
 VARY = 0.25  # a cost without a range is moved by this share down and up (the issue's plus and minus 25%)
 REACH = 10.0  # switching values are looked for from 0 to this many times the cost (see search_span)
-_GRID = 10  # points tried on each side of today's cost before bisecting (our own choice)
-_STEPS = 24  # bisection steps: to within the span / 10 / 2^24, a 168-millionth of the span
+_GRID = 8  # points tried on each side of today's cost before bisecting (our own choice)
+_STEPS = 18  # bisection steps: to within the span / 8 / 2^18, two millionths of the span
 
 
 NOTES = {
