@@ -45,7 +45,7 @@ from ..pricing.scoring import Contingency
 from ..pricing.decision import (OBJECTIVE_COLUMN, cheaper, lowest, money_tolerance, objective_cost,
                                 season_cost_columns)
 from ..replay.resample import Calendar
-from .verdict import judge, season_costs
+from .verdict import judge, season_pricer
 
 __all__ = ["VARY", "REACH", "End", "Switch", "CostSensitivity", "Sensitivity", "search_span", "choose",
            "cost_ends", "switching_value", "verdict_at", "sensitivity", "of_run", "NOTES"]
@@ -154,7 +154,9 @@ def choose(counts: ReplicateCounts, costs: Costs, reference: str, objective: str
     model = price(counts.model, costs)
     reference_cost = price(counts.baselines, costs)[:, BASELINES.index(reference)]
     tolerance = money_tolerance(model, reference_cost)
-    best = int(lowest(season_cost_columns(model)[OBJECTIVE_COLUMN[objective]], tolerance))
+    # the mean is decide's own column (season_cost_columns' mean_cost) without the quantiles' cost
+    score = model.mean(axis=0) if objective == "mean" else season_cost_columns(model)[OBJECTIVE_COLUMN[objective]]
+    best = int(lowest(score, tolerance))
     savings = reference_cost - model[:, best]
     return best, float(savings.mean()), float(cheaper(model[:, best], reference_cost, tolerance).mean())
 
@@ -253,14 +255,15 @@ def sensitivity(counts: ReplicateCounts, costs: Costs, *, reference: str, object
                        base_saving=base_saving, band=band, use_forecast=base_verdict)
 
 
-def verdict_at(history: History, calendar: Calendar, cutoffs: np.ndarray, scenario: Scenario, rule: str
-               ) -> Callable[[Costs], bool]:
+def verdict_at(history: History, calendar: Calendar, cutoffs: np.ndarray, rule: str) -> Callable[[Costs], bool]:
     """The verdict as a function of the costs: whether acting on the forecast beats the best rule
     without it on the held-out seasons (:func:`~simulator.analysis.verdict.judge`), each past season
-    priced at the given costs (:func:`~simulator.analysis.verdict.season_costs`)."""
+    priced at the given costs (:func:`~simulator.analysis.verdict.season_pricer`, as the run's own
+    verdict prices them)."""
+    priced = season_pricer(history, cutoffs)
+
     def use_forecast(costs: Costs) -> bool:
-        moved = scenario.model_copy(update={"costs": costs})
-        return judge(season_costs(history, calendar, cutoffs, moved), calendar.n_occasions, rule).use_forecast
+        return judge(priced(costs), calendar.n_occasions, rule).use_forecast
     return use_forecast
 
 
@@ -272,7 +275,7 @@ def of_run(scenario: Scenario, history: History, calendar: Calendar, counts: Rep
     if why_not is not None or counts is None:
         return Sensitivity(costs=(), note=NOTES[why_not or "calibrated"])
     ranges = scenario.cost_ranges() if hasattr(scenario, "cost_ranges") else None  # costs as ranges (issue 14.2)
-    verdict = None if rule is None else verdict_at(history, calendar, scenario.cutoffs, scenario, rule)
+    verdict = None if rule is None else verdict_at(history, calendar, scenario.cutoffs, rule)
     return sensitivity(counts, scenario.costs, reference=scenario.simulation.reference,
                        objective=scenario.decision.objective, cutoffs=scenario.cutoffs, band=band,
                        use_forecast=verdict, ranges=ranges)

@@ -18,7 +18,8 @@ from ..inputs.scenario import BASELINES, Costs, break_even_probability
 from .counts import ReplicateCounts, SeasonCounter, as_extras
 from .scoring import Contingency
 
-__all__ = ["price", "occasion_costs", "baseline_actions", "SeasonPricer", "PricedBlock"]
+__all__ = ["price", "occasion_costs", "baseline_actions", "monthly_event_rate", "seasonal_actions", "SeasonPricer",
+           "PricedBlock"]
 
 
 def price(counts: Contingency, costs: Costs) -> np.ndarray:
@@ -48,25 +49,35 @@ def baseline_actions(history: History, costs: Costs) -> dict[str, np.ndarray]:
     - ``perfect``: act exactly when the event happens (the floor no forecast can beat).
     """
     n = history.n_rows
-    p_star = break_even_probability(costs)
+    month, rate = monthly_event_rate(history)
+    return {
+        "never_act": np.zeros(n, dtype=bool),
+        "always_act": np.ones(n, dtype=bool),
+        "persistence": history.prev_event.copy(),
+        "seasonal_rate": seasonal_actions(month, rate, costs),
+        "perfect": history.event.copy(),
+    }
+
+
+def monthly_event_rate(history: History) -> tuple[np.ndarray, np.ndarray]:
+    """Each history row's calendar month (0-11, (n_rows,)) and each month's event rate over the
+    training period ((12,); a month without training rows gets the overall rate): what the
+    seasonal-rate rule learns. It does not depend on the costs."""
     month = (history.dates.astype("datetime64[M]").astype(np.int64) % 12)
     train = history.training
     months_seen = np.bincount(month[train], minlength=12)
     events_seen = np.bincount(month[train], weights=history.event[train], minlength=12)
     overall = history.event[train].mean()
-    rate = np.where(months_seen > 0, events_seen / np.maximum(months_seen, 1), overall)
+    return month, np.where(months_seen > 0, events_seen / np.maximum(months_seen, 1), overall)
+
+
+def seasonal_actions(month: np.ndarray, rate: np.ndarray, costs: Costs) -> np.ndarray:
+    """Whether the seasonal-rate rule acts on rows of these months (bool, as ``month``): where the
+    month's rate reaches the break-even probability of ``costs``."""
+    p_star = break_even_probability(costs)
     if np.isnan(p_star):  # one action is always best: the climatological rule takes it
-        acts_anyway = costs.false_alarm - costs.correct_negative <= 0
-        seasonal = np.full(n, acts_anyway)
-    else:
-        seasonal = decimals.reaches(rate[month], p_star)
-    return {
-        "never_act": np.zeros(n, dtype=bool),
-        "always_act": np.ones(n, dtype=bool),
-        "persistence": history.prev_event.copy(),
-        "seasonal_rate": seasonal,
-        "perfect": history.event.copy(),
-    }
+        return np.full(month.shape, costs.false_alarm - costs.correct_negative <= 0)
+    return decimals.reaches(rate[month], p_star)
 
 
 @dataclass(frozen=True)
