@@ -36,11 +36,14 @@ from .account.terminal import (_calibration_lines, _headline, _plain, _selection
 from .inputs.dates import human_format
 from .inputs.errors import InputError
 from .inputs.history import read_history
-from .account.outputs import check_out_folder, render_files, summary, write_files
+from .account.outputs import render_files, summary
+from .account.out_folder import check_out_folder
+from .account.result_set import write_files
 from .execution.dask_cluster import CLUSTER_ENV
 from .results import RunResult
 from .run import run
-from .inputs.scenario import Costs, Scenario, read_scenario
+from .inputs.scenario import Scenario, read_scenario
+from .inputs.scenario_costs import Costs
 
 app = typer.Typer(add_completion=False, no_args_is_help=True, pretty_exceptions_enable=False,
                   rich_markup_mode=None,
@@ -82,7 +85,7 @@ def _stops(unfinished: str = "the run did not finish and the output folder is as
     Both arrive as an exception in the main thread (SIGTERM as ``gonogo_command.Stopped``), so every
     ``finally`` on the way out runs: the executor kills its workers and frees its shared memory
     (:func:`simulator.parallel.open_executor`), and a result set being written is taken away whole
-    (:func:`simulator.result_set.write_files`). Click would otherwise print "Aborted!" with status 1.
+    (:func:`simulator.account.result_set.write_files`). Click would otherwise print "Aborted!" with status 1.
     """
     # only in the main thread, and never where SIGTERM was ignored from the start (nohup and the like)
     own = (threading.current_thread() is threading.main_thread()

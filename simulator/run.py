@@ -33,8 +33,9 @@ from .analysis.verdict import RULES, Verdict, best_rule, judge, season_costs, to
 from .execution.pool import prepare
 from .inputs.errors import InputError
 from .inputs.history import History, read_history
-from .inputs.scenario import (BASELINES, Scenario, break_even_probability, check_workload, cost_warnings,
-                              read_scenario)
+from .inputs.scenario import Scenario, check_workload, read_scenario
+from .inputs.scenario_costs import break_even_probability, cost_warnings
+from .inputs.scenario_types import BASELINES
 from .notation import decimals
 from .pricing.costs import PricedBlock, occasion_costs
 from .pricing.counts import from_extras

@@ -18,7 +18,7 @@ from dataclasses import asdict, dataclass
 from typing import Any
 
 from ..pricing.decision import OBJECTIVE_NAMES
-from ..inputs.history import season_start_month
+from ..inputs.history_calendar import season_start_month
 from .sensitivity_view import sensitivity_sentence
 from ..notation.prose import cutoff_decimals, cutoff_text, format_value, money, money_exact, money_range, ranges_text, share
 

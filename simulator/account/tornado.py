@@ -1,6 +1,6 @@
 """The tornado chart: how far the saving moves when each cost estimate moves alone.
 
-Drawn as the other figures are (:mod:`simulator.account.figures`: matplotlib's Agg canvas, the
+Drawn as the other figures are (:mod:`simulator.account.figure_style`: matplotlib's Agg canvas, the
 Okabe and Ito colours, a wide and a narrow layout, no metadata, user text plain). One bar per cost,
 the widest at the top: from the change of the mean saving per season at the cost's low end to its
 change at the high end, against today's saving (the line at 0). One-way sensitivity shown as a
@@ -14,7 +14,7 @@ from collections.abc import Sequence
 import matplotlib as mpl
 import numpy as np
 
-from .figures import _STYLE, OKABE_ITO, Chart, Words, _figure, _layout, _money_axis, _png, _title, _wrap, user_text
+from .figure_style import _STYLE, OKABE_ITO, Chart, Words, _figure, _layout, _money_axis, _png, _title, _wrap, user_text
 
 __all__ = ["tornado_chart"]
 

@@ -38,7 +38,9 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..inputs.history import History
-from ..inputs.scenario import BASELINES, COST_KEYS, Costs, Scenario
+from ..inputs.scenario import Scenario
+from ..inputs.scenario_costs import COST_KEYS, Costs
+from ..inputs.scenario_types import BASELINES
 from ..pricing.costs import price
 from ..pricing.counts import ReplicateCounts
 from ..pricing.scoring import Contingency

@@ -53,7 +53,8 @@ from ..notation.prose import money  # the one formatter of money in prose (as st
 from ..pricing.costs import baseline_actions, monthly_event_rate, occasion_costs, price, seasonal_actions
 from ..inputs.history import History
 from ..replay.resample import Calendar
-from ..inputs.scenario import Costs, Scenario
+from ..inputs.scenario import Scenario
+from ..inputs.scenario_costs import Costs
 
 __all__ = ["RULES", "RULE_WORDS", "CONFIDENCE", "SeasonCosts", "Verdict", "season_costs", "season_pricer", "judge", "best_rule",
            "together"]
@@ -205,7 +206,7 @@ def season_costs(history: History, calendar: Calendar, cutoffs: np.ndarray, scen
     k = seasons.size
     learnt = _learnt(history)
     from ..rules.operations_fast import OperationsPricer
-    from ..inputs.scenario import BASELINES
+    from ..inputs.scenario_types import BASELINES
     from .selection import _seasons_on_calendar  # each past season laid on the priced calendar
 
     rows = _seasons_on_calendar(history, evaluated, calendar)  # (k, n_occasions), seasons ascending

@@ -17,7 +17,8 @@ from ..analysis.selection import Selection, select_honestly
 from ..analysis.stress import StressResult, run_stress
 from ..analysis.verdict import best_rule, judge, season_costs
 from ..execution.executor import Executor
-from ..inputs.scenario import BASELINES, break_even_probability, cost_warnings
+from ..inputs.scenario_costs import break_even_probability, cost_warnings
+from ..inputs.scenario_types import BASELINES
 from ..pricing.costs import PricedBlock
 from ..pricing.decision import Decision, decide
 from ..pricing.tables import cutoff_table, forecast_scores
