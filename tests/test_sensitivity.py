@@ -30,7 +30,8 @@ from realdata import seattle_rain
 from simulator.analysis.sensitivity import REACH, VARY, cost_ends, search_span, switching_value
 from simulator.demo.generator import write_demo_files
 from simulator.inputs.history import history_from_frame, read_history
-from simulator.inputs.scenario import BASELINES, read_scenario, scenario_from_text
+from simulator.inputs.scenario import read_scenario, scenario_from_text
+from simulator.inputs.scenario_types import BASELINES
 from simulator.pricing.costs import price
 from simulator.run import run_history
 

@@ -36,7 +36,7 @@ def tornado_chart(labels: Sequence[str], change_low: Sequence[float], change_hig
         ax.set_yticks(y, [_wrap(user_text(name), 22 if narrow else 30) for name in labels])
         ax.grid(axis="y", visible=False)
         ax.set_ylim(-0.6, len(labels) - 0.4)
-        ax.set_xlabel(f"Change of the saving against the reference ({words.currency} per season)")
+        ax.set_xlabel(f"Change of the saving ({words.currency} per season)")
         _money_axis(ax.xaxis, few=narrow)
         _title(ax, "Each cost moved alone: the saving's change", narrow)
         fig.legend(loc="outside lower center", ncol=ncol)
