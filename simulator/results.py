@@ -13,7 +13,8 @@ import numpy as np
 import pandas as pd
 
 from .analysis.forecasts import Comparison
-from .analysis.selection import Calibration, Selection
+from .analysis.calibration import Calibration
+from .analysis.selection import Selection
 from .analysis.sensitivity import Sensitivity
 from .analysis.stress import StressResult
 from .analysis.verdict import SeasonCosts, Verdict
@@ -22,7 +23,7 @@ from .inputs.scenario import Scenario
 from .pricing.counts import ReplicateCounts
 from .pricing.decision import Decision, Distribution, distribution
 from .replay.resample import Calendar
-from .rules.operations import OperationsResult
+from .rules.operations_result import OperationsResult
 
 __all__ = ["RunResult", "SiteResult", "Portfolio"]
 

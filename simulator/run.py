@@ -26,7 +26,8 @@ import numpy as np
 import pandas as pd
 
 from .analysis.forecasts import compare_forecasts
-from .analysis.selection import calibrate, select_honestly
+from .analysis.calibration import calibrate
+from .analysis.selection import select_honestly
 from .analysis.sensitivity import NOTES, Sensitivity, of_run
 from .analysis.stress import run_stress
 from .analysis.verdict import RULES, Verdict, best_rule, judge, season_costs, together
@@ -40,12 +41,14 @@ from .notation import decimals
 from .pricing.costs import PricedBlock, occasion_costs
 from .pricing.counts import from_extras
 from .pricing.decision import decide
-from .pricing.scoring import relative_value_from_costs
 from .pricing.tables import cutoff_table, forecast_quality, history_table, with_replicates
+from .pricing.value import relative_value_from_costs
 from .replay.blocklength import optimal_block_length
 from .replay.resample import Calendar, Resampler, block_rng, calendar_warnings, season_calendar
 from .results import Portfolio, RunResult, SiteResult
-from .rules.operations import OperationsResult, UserProcess, make_rules
+from .rules.operating_rules import make_rules
+from .rules.operations_result import OperationsResult
+from .rules.simpy_model import UserProcess
 from .tasks.plan import _alongside, _executor, _forecast_costs, _price_all
 from .tasks.sites import _checked_sites, _sites_table, _Totals
 from .tasks.work import _INTERVAL_STREAM, Progress, _events_without_action, _forget, _pricer, _Work

@@ -27,7 +27,8 @@ from .cautions import cautions
 from ..pricing.decision import distribution
 from .sensitivity_view import sensitivity_entry, sensitivity_frame
 from ..results import RunResult
-from ..analysis.selection import Calibration, Selection
+from ..analysis.calibration import Calibration
+from ..analysis.selection import Selection
 from ..analysis.stress import StressResult
 
 __all__ = ["summary", "render_files", "SCHEMA"]

@@ -43,7 +43,7 @@ from ..inputs.scenario_costs import COST_KEYS, Costs
 from ..inputs.scenario_types import BASELINES
 from ..pricing.costs import price
 from ..pricing.counts import ReplicateCounts
-from ..pricing.scoring import Contingency
+from ..pricing.contingency import Contingency
 from ..pricing.decision import (OBJECTIVE_COLUMN, cheaper, lowest, money_tolerance, objective_cost,
                                 season_cost_columns)
 from ..replay.resample import Calendar

@@ -48,7 +48,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..pricing import scoring
+from ..pricing.contingency import Contingency, count_at_cutoffs
 from ..notation.prose import money  # the one formatter of money in prose (as stress.py uses it)
 from ..pricing.costs import baseline_actions, monthly_event_rate, occasion_costs, price, seasonal_actions
 from ..inputs.history import History
@@ -205,7 +205,7 @@ def season_costs(history: History, calendar: Calendar, cutoffs: np.ndarray, scen
     evaluated = history.evaluated
     k = seasons.size
     learnt = _learnt(history)
-    from ..rules.operations_fast import OperationsPricer
+    from ..rules.vectorised_model import OperationsPricer
     from ..inputs.scenario_types import BASELINES
     from .selection import _seasons_on_calendar  # each past season laid on the priced calendar
 
@@ -234,8 +234,8 @@ def season_pricer(history: History, cutoffs: np.ndarray) -> Callable[[Costs], Se
     k = seasons.size
     index = np.searchsorted(seasons, history.season[evaluated])  # each evaluated row's season
     p, event = history.p[evaluated], history.event[evaluated]
-    per_season = [scoring.count_at_cutoffs(p[index == i], event[index == i], cutoffs) for i in range(k)]
-    model_counts = scoring.Contingency(*(np.stack([getattr(c, cell) for c in per_season]) for cell in _CELLS))
+    per_season = [count_at_cutoffs(p[index == i], event[index == i], cutoffs) for i in range(k)]
+    model_counts = Contingency(*(np.stack([getattr(c, cell) for c in per_season]) for cell in _CELLS))
     fixed = {"never_act": np.zeros(event.size, dtype=bool), "always_act": np.ones(event.size, dtype=bool),
              "persistence": history.prev_event[evaluated]}
     month = monthly_event_rate(history)[0][evaluated]

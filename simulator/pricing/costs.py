@@ -16,8 +16,8 @@ from ..notation import decimals
 from ..inputs.history import History
 from ..inputs.scenario_costs import Costs, break_even_probability
 from ..inputs.scenario_types import BASELINES
+from .contingency import Contingency
 from .counts import ReplicateCounts, SeasonCounter, as_extras
-from .scoring import Contingency
 
 __all__ = ["price", "occasion_costs", "baseline_actions", "monthly_event_rate", "seasonal_actions", "SeasonPricer",
            "PricedBlock"]
