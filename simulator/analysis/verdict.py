@@ -192,18 +192,28 @@ def together(parts: list[SeasonCosts]) -> SeasonCosts | None:
                        cutoffs=first.cutoffs)
 
 
-def season_costs(history: History, calendar: Calendar, cutoffs: np.ndarray, scenario: Scenario) -> SeasonCosts:
+def season_costs(history: History, calendar: Calendar, cutoffs: np.ndarray, scenario: Scenario,
+                 rules_of: SeasonCosts | None = None) -> SeasonCosts:
     """Each evaluated season's cost at every cutoff and under each rule of :data:`RULES`.
 
     Without ``[operations]``: the season's historical occasions priced with ``[costs]``. With them:
     the season laid on ``calendar`` and played under the rules
     (:class:`~simulator.operations_fast.OperationsPricer`).
+
+    ``rules_of``: the season costs of another forecast of the same history (the same rows,
+    outcomes, seasons and costs; ``History.with_forecast``). The rules ignore the forecast, so
+    their costs and the occasions are taken from it, and only the model is priced here.
     """
-    if scenario.operations is None:
-        return season_pricer(history, cutoffs)(scenario.costs)
     seasons = history.seasons
     evaluated = history.evaluated
     k = seasons.size
+    if rules_of is not None and not np.array_equal(rules_of.seasons, seasons):
+        raise ValueError("rules_of must come from the same history's seasons")
+    if rules_of is not None and scenario.operations is None:
+        return dataclasses.replace(rules_of, model=_model_with_costs(history, cutoffs, scenario.costs, seasons),
+                                   cutoffs=cutoffs)
+    if scenario.operations is None:
+        return season_pricer(history, cutoffs)(scenario.costs)
     learnt = _learnt(history)
     from ..rules.vectorised_model import OperationsPricer
     from ..inputs.scenario_types import BASELINES
@@ -213,6 +223,8 @@ def season_costs(history: History, calendar: Calendar, cutoffs: np.ndarray, scen
     columns = [BASELINES.index(name) for name in RULES]
     everything = dataclasses.replace(history, validation=np.zeros_like(evaluated))
     block = OperationsPricer(everything, calendar, cutoffs, scenario)(rows)  # the forecast learns nothing
+    if rules_of is not None:
+        return dataclasses.replace(rules_of, model=block.model, cutoffs=cutoffs)
     rules = np.broadcast_to(block.baselines[:, columns], (k, k, len(RULES))).copy()
     # only the seasonal rate learns: a fold whose months come out otherwise without its season
     # plays the seasons again under its own rules (beside one cutoff, the cheapest to carry)
@@ -264,3 +276,13 @@ def _learnt(history: History) -> list[History]:
     evaluated = history.evaluated
     return [dataclasses.replace(history, evaluated=evaluated & (history.season != s),
                                 validation=np.zeros_like(evaluated)) for s in history.seasons]
+
+
+def _model_with_costs(history: History, cutoffs: np.ndarray, costs, seasons: np.ndarray) -> np.ndarray:
+    """Each season's cost acting on the forecast at every cutoff, (n_seasons, n_cutoffs), priced
+    on its historical occasions with the ``[costs]`` matrix."""
+    evaluated = history.evaluated
+    index = np.searchsorted(seasons, history.season[evaluated])  # each evaluated row's season
+    p, event = history.p[evaluated], history.event[evaluated]
+    return np.stack([price(count_at_cutoffs(p[index == i], event[index == i], cutoffs), costs)
+                     for i in range(seasons.size)])
