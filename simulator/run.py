@@ -32,7 +32,9 @@ import pandas as pd
 
 from .notation import decimals
 from .replay.blocklength import optimal_block_length
-from .pricing.costs import PricedBlock, SeasonPricer, occasion_costs
+from .pricing.costs import MODEL_AT_MEANS, PricedBlock, SeasonPricer, occasion_costs
+from .pricing.draws import CostDrawer
+from .analysis.cost_spread import CostSpread, cost_spread
 from .pricing.decision import Decision, Distribution, decide, distribution
 from .inputs.errors import InputError
 from .analysis.forecasts import Comparison, compare_forecasts
@@ -185,6 +187,9 @@ class RunResult:
     events_without_action: np.ndarray | None = None
     # with two or more [forecasts]: each priced on the same replicates, and every pair compared
     comparison: Comparison | None = None
+    # with costs given as ranges (one site): the spread of the recommended cutoff's season cost
+    # split into the weather's part and the cost ranges' part
+    cost_spread: CostSpread | None = None
 
     @property
     def reference(self) -> str:
@@ -278,6 +283,7 @@ def run_history(scenario: Scenario, history: History, *, replicates: int | None 
     finally:
         _forget(work)
     block, forecast_costs = _forecast_costs(priced[0], n_forecasts)
+    at_means = block.extras.pop(MODEL_AT_MEANS, None)  # costs drawn per replicate: the model at the means
     model_cost = block.model
     baseline_cost = {name: block.baselines[:, i] for i, name in enumerate(BASELINES)}
     operations = None
@@ -288,6 +294,8 @@ def run_history(scenario: Scenario, history: History, *, replicates: int | None 
     seasons_per_history = max(1, round(history.n_evaluated / calendar.n_occasions))
     decision = decide(model_cost, baseline_cost[sim.reference], cutoffs, seasons_per_history,
                       block_rng(seed, 0, _INTERVAL_STREAM), scenario.decision.objective)
+    spread = (None if at_means is None else
+              cost_spread(model_cost[:, decision.recommended_index], at_means[:, decision.recommended_index]))
     table = cutoff_table([(history, costs)], cutoffs, p_star, model_cost, baseline_cost[sim.reference])
     if operations is not None:
         table = _priced_by_rules(pd.concat([table, pd.DataFrame(operations.per_cutoff())], axis=1), baseline_cost)
@@ -346,7 +354,7 @@ def run_history(scenario: Scenario, history: History, *, replicates: int | None 
                      value_curve=value_curve, reliability=reliability, warnings=warnings,
                      operations=operations, stress=stress, calibration=calibration,
                      selection=selection, comparison=comparison, verdict=verdict,
-                     events_without_action=unprotected)
+                     events_without_action=unprotected, cost_spread=spread)
 
 
 _FORECAST_KEY = "forecast_model_cost_"  # extras of a priced block: a later forecast's model costs
@@ -703,14 +711,15 @@ def _pricer(work: _Work, k: int, forecast: int = 0):
     if pricer is None:
         history = work.resampler.history.for_site(k).with_forecast(forecast)
         scenario = work.scenarios[k]
+        drawer = CostDrawer(scenario.costs, scenario.cost_ranges(), work.seed)  # costs given as ranges
         if work.outcome_probability is not None:  # outcomes drawn afresh from recalibrated probabilities
             pricer = ReplicatePricer(history, work.cutoffs, scenario.costs, seed=work.seed,
-                                     outcome_probability=work.outcome_probability)
+                                     outcome_probability=work.outcome_probability, drawer=drawer)
         elif scenario.operations is not None:  # the rules played day by day
             pricer = OperationsPricer(history, work.resampler.calendar, work.cutoffs, scenario,
                                       work.processes)
         else:
-            pricer = SeasonPricer(history, work.cutoffs, scenario.costs)
+            pricer = SeasonPricer(history, work.cutoffs, scenario.costs, drawer)
         if len(_PRICERS) >= _MAX_PRICERS:
             _PRICERS.clear()
         _PRICERS[key] = pricer
@@ -738,7 +747,6 @@ def _price_task(work: _Work, first_site: int, last_site: int, chunk: int | None)
     chunks = work.chunks if chunk is None else [work.chunks[chunk]]
     blocks = [b for first, count in chunks for b in range(first, first + count)]
     sites = range(first_site, last_site)
-    calibrated = work.outcome_probability is not None
 
     def drawn(b: int) -> np.ndarray:
         return work.resampler.draw_block(work.seed, b)[: min(BLOCK, work.replicates - b * BLOCK)]
@@ -756,10 +764,11 @@ def _price_task(work: _Work, first_site: int, last_site: int, chunk: int | None)
         priced = []
         for i, b in enumerate(blocks):
             own = work.resampler.site_rows(drawn(b) if rows is None else rows[i], k)
-            block = pricer(own, b) if calibrated else pricer(own)
+            # the block's number seeds its drawn outcomes and costs; the operating rules draw none
+            block = pricer(own) if work.scenarios[k].operations is not None else pricer(own, b)
             if others:  # every later forecast on the same rows: common random numbers
                 block = dataclasses.replace(block, extras={
-                    **block.extras, **{f"{_FORECAST_KEY}{j}": _later_forecast(other, own, block)
+                    **block.extras, **{f"{_FORECAST_KEY}{j}": _later_forecast(other, own, b)
                                        for j, other in others}})
             priced.append(block)
         block = _join(priced)
@@ -780,11 +789,12 @@ def _price_task(work: _Work, first_site: int, last_site: int, chunk: int | None)
     return out
 
 
-def _later_forecast(pricer, rows: np.ndarray, main: PricedBlock) -> np.ndarray:
-    """A later forecast's season costs at every cutoff on the rows the main forecast's ``main``
-    block was priced on: the baselines' costs are the main's (they do not depend on the forecast)."""
+def _later_forecast(pricer, rows: np.ndarray, block: int) -> np.ndarray:
+    """A later forecast's season costs at every cutoff on the rows (of seeded block ``block``) the
+    main forecast was priced on, with the same drawn costs: the baselines' costs are the main's
+    (they do not depend on the forecast)."""
     if isinstance(pricer, SeasonPricer):
-        return pricer.model_cost(rows, main.baselines)
+        return pricer.model_cost(rows, block)
     return pricer(rows).model  # the operating rules: every lane played again
 
 

@@ -18,6 +18,7 @@ from dataclasses import asdict, dataclass
 from typing import Any
 
 from ..pricing.decision import OBJECTIVE_NAMES
+from .cost_doubt import cost_doubt
 from ..inputs.history import season_start_month
 from ..notation.prose import cutoff_decimals, cutoff_text, format_value, money, money_exact, money_range, ranges_text, share
 
@@ -93,7 +94,7 @@ class Finding:
     """One finding of a run.
 
     ``key`` names it (``verdict``, ``cutoff``, ``season_cost``, ``saving``, ``beats_reference``,
-    ``events_without_action``,
+    ``events_without_action``, ``cost_doubt``,
     ``deadline``, ``completion``, ``safety_stop``, ``sites``, ``season``, ``baseline:<name>``,
     ``history``); ``label`` is what it is, ``text`` the finding with its units as a table row
     shows it, ``sentence`` the same in prose, ``basis`` what it is per and at which cutoff.
@@ -198,6 +199,10 @@ def account(summary: Mapping[str, Any]) -> Account:
     beats = _beats(s, grid, decimals)
     if beats is not None:
         out.append(beats)
+
+    doubt = cost_doubt(s, cut, unit, Finding)  # costs given as ranges
+    if doubt is not None:
+        out.append(doubt)
 
     missed = s.get("events_without_action")
     if missed:  # a hazard: the event occasions the cutoff leaves without action

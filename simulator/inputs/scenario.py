@@ -30,12 +30,14 @@ from pydantic import (BaseModel, ConfigDict, Field, ValidationError, create_mode
 
 from ..notation import decimals
 from .errors import InputError, did_you_mean, excerpt, printable, quoted, read_input_file
+from .ranges import CostRange, site_ranges, split_ranges
 
 __all__ = ["Scenario", "Costs", "read_scenario", "scenario_from_text", "cutoff_grid",
            "break_even_probability", "cost_warnings", "WEEKDAYS", "BASELINES", "COST_KEYS", "COST_PLACEHOLDER",
            "OperationsSection", "StressCase", "CostChanges", "OperationsChanges", "STRESS_CHANGES",
            "SiteSection", "SiteOperations", "CostFactors", "OperationsFactors", "MAX_MONEY",
-           "MAX_FACTOR", "MAX_TEXT", "MAX_SCENARIO_BYTES", "YEARS", "MAX_SEASON_COSTS", "check_workload"]
+           "MAX_FACTOR", "MAX_TEXT", "MAX_SCENARIO_BYTES", "YEARS", "MAX_SEASON_COSTS", "check_workload",
+           "CostRange"]
 
 WEEKDAYS = ("mon", "tue", "wed", "thu", "fri", "sat", "sun")
 COST_KEYS = ("hit", "false_alarm", "miss", "correct_negative")
@@ -491,6 +493,14 @@ class Scenario(_Section):
     # where the file was read from (not a user key): history paths are relative to it
     source: Path | None = Field(default=None, exclude=True)
     sha256: str = Field(default="", exclude=True)
+    # the costs written as ranges, by dotted key (not a user key: read by inputs/ranges.py, which
+    # puts each range's PERT mean in the cost's place)
+    ranges: dict[str, CostRange] = Field(default={}, exclude=True)
+
+    def cost_ranges(self) -> dict[str, CostRange]:
+        """The costs written as ranges, by dotted key: ``costs.miss``, ``sites.<site>.costs.miss``
+        (a site's own scenario, :meth:`for_site`, has its ranges as ``costs.*``)."""
+        return dict(self.ranges)
 
     @property
     def cutoffs(self) -> np.ndarray:
@@ -554,7 +564,8 @@ class Scenario(_Section):
         override = self.sites.get(name)
         if override is None:
             return self
-        update: dict[str, Any] = {"sites": {}}
+        update: dict[str, Any] = {"sites": {}, "ranges": site_ranges(
+            self.ranges, name, set(override.costs.given()) if override.costs is not None else set())}
         if override.costs is not None:
             update["costs"] = Costs(**{**self.costs.model_dump(), **override.costs.given()})
         if override.operations is not None:
@@ -654,10 +665,13 @@ def scenario_from_text(text: str, label: str = "scenario") -> Scenario:
                          "near that line") from None
     except RecursionError:
         raise InputError(f"{label}: not valid TOML (nested too deeply); check the file") from None
+    data, ranges = split_ranges(data, label, MAX_MONEY)
     try:
         scenario = Scenario.model_validate(data)
     except ValidationError as exc:
         raise InputError(_first_problem(exc, label)) from None
+    if ranges:
+        scenario = scenario.model_copy(update={"ranges": ranges})
     _check_sites(scenario, label)
     check_workload(scenario.simulation.replicates, len(scenario.cutoffs), f"{label} [simulation] replicates",
                    len(scenario.forecasts))
@@ -697,7 +711,7 @@ def _first_problem(exc: ValidationError, label: str) -> str:
         where = f"[{_table(loc[:-1])}]" if len(loc) > 1 else "top level"
         if loc[0] == "stress" and len(loc) > 2:
             where = f"[[stress]] table {int(loc[1]) + 1}" + (f" {'.'.join(loc[2:-1])}" if len(loc) > 3 else "")
-        valid = [k for k in model.model_fields if k not in ("source", "sha256")]
+        valid = [k for k in model.model_fields if k not in ("source", "sha256", "ranges")]
         return f"{label} {where}: unknown key {quoted(key)}{did_you_mean(key, valid)}"
     field, depth = _field_at(Scenario, loc)
     inside = len(loc) > depth  # the problem is inside the key's value (a list entry, a dict's key)
