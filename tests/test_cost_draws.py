@@ -113,3 +113,10 @@ def test_ranges_beside_operating_rules_are_refused_in_one_line():
             "operations": {"day_rate": 5}}
     with pytest.raises(InputError, match=r"\[costs\] miss: with \[operations\] the rules price the seasons"):
         split_ranges(data, "s.toml", 1e12)
+
+
+def test_a_range_in_a_stress_case_is_refused_in_one_line():
+    data = {"costs": {"hit": 1, "false_alarm": 2, "miss": 3},
+            "stress": [{"name": "x", "costs": {"miss": {"low": 1, "likely": 2, "high": 3}}}]}
+    with pytest.raises(InputError, match=r"^s\.toml \[\[stress\]\] table 1 costs\.miss: a stress case takes one number"):
+        split_ranges(data, "s.toml", 1e12)

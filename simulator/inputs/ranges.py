@@ -83,7 +83,7 @@ def _read_range(value: dict, where: str, money: float) -> CostRange:
         numbers[key] = float(v)
     if not numbers["low"] <= numbers["likely"] <= numbers["high"]:
         raise InputError(f"{where}: a range needs low <= likely <= high (got low {numbers['low']:g}, likely "
-                         f"{numbers['likely']:g}, high {numbers['high']:g}); reorder the three numbers")
+                         f"{numbers['likely']:g}, high {numbers['high']:g}); make low the smallest and high the largest")
     return CostRange(**numbers)
 
 
@@ -116,6 +116,14 @@ def split_ranges(data: dict[str, Any], label: str, money: float) -> tuple[dict[s
         raise InputError(f"{label} top level: unknown key \"ranges\"; write a cost as a range in its own "
                          "place, for example miss = {low = 2000, likely = 2500, high = 4000} under [costs]")
     refuse_in_operations(data.get("operations"), "operations")
+    cases = data.get("stress") if isinstance(data.get("stress"), list) else []
+    for i, case in enumerate(cases):
+        for table in ("costs", "operations"):
+            given = case.get(table) if isinstance(case, dict) else None
+            ranged = [k for k, v in given.items() if isinstance(v, dict)] if isinstance(given, dict) else []
+            if ranged:
+                raise InputError(f"{label} [[stress]] table {i + 1} {table}.{ranged[0]}: a stress case takes one "
+                                 "number, not a range; give the changed value")
     if "costs" in data:
         out["costs"] = costs_table(data["costs"], "costs.", "costs")
     sites = data.get("sites")
