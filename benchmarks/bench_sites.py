@@ -45,7 +45,7 @@ import numpy as np
 import pandas as pd
 
 from simulator import history_from_frame, run_history, scenario_from_text
-from simulator.execution.parallel import prepare
+from simulator.execution.pool import prepare
 from simulator.replay.resample import season_calendar
 
 FIXED = """

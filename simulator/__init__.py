@@ -9,9 +9,11 @@ pandas DataFrames: :class:`RunResult`, and with a site column :class:`Portfolio`
 __version__ = "0.1.0"
 
 from .inputs.errors import InputError  # noqa: E402
-from .inputs.scenario import Costs, Scenario, read_scenario, scenario_from_text  # noqa: E402
+from .inputs.scenario import Scenario, read_scenario, scenario_from_text  # noqa: E402
+from .inputs.scenario_costs import Costs  # noqa: E402
 from .inputs.history import History, history_from_frame, read_history  # noqa: E402
-from .run import Portfolio, RunResult, SiteResult, run, run_history  # noqa: E402
+from .results import Portfolio, RunResult, SiteResult  # noqa: E402
+from .run import run, run_history  # noqa: E402
 
 __all__ = ["__version__", "InputError", "Scenario", "Costs", "read_scenario", "scenario_from_text",
            "History", "read_history", "history_from_frame", "RunResult", "SiteResult", "Portfolio",

@@ -19,7 +19,7 @@ from rich.console import Console
 from simulator import read_scenario, run
 from simulator.account.findings import account, season_name, seasons_text
 from simulator.notation.prose import money, share
-from simulator.cli import _headline
+from simulator.account.terminal import _headline
 from simulator.demo.generator import write_demo_files
 from simulator.account.outputs import render_files, summary
 
@@ -174,7 +174,7 @@ def test_lateness_is_on_the_headline_the_first_screen_and_the_slider(rules):
 
 
 def test_completion_curve_by_day_reads_the_share_on_time_at_the_deadline(rules):
-    from simulator.account.report import _completion_by_day
+    from simulator.account.report_sections import _completion_by_day
 
     dates, shares, reference = _completion_by_day(rules)
     deadline = summary(rules)["operations"]["deadline"]
@@ -188,7 +188,7 @@ def test_completion_curve_by_day_reads_the_share_on_time_at_the_deadline(rules):
 
 
 def test_settings_are_read_back_in_words_and_a_rate_is_not_money(rules):
-    from simulator.account.report import _rules_read_back
+    from simulator.account.scenario_words import _rules_read_back
 
     scenario = rules.scenario.model_copy(update={"stress": ()})
     pairs = dict(_rules_read_back(scenario)[0][1])

@@ -26,7 +26,8 @@ import pytest
 from typer.testing import CliRunner
 
 from simulator.cli import app
-from simulator.account.report import FIELD_FORMATS, format_value
+from simulator.account.report_sections import FIELD_FORMATS
+from simulator.notation.prose import format_value
 
 CHROMIUM = shutil.which("chromium") or ("/usr/bin/chromium" if Path("/usr/bin/chromium").exists() else None)
 FLAGS = ["--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",

@@ -16,7 +16,8 @@ import pytest
 from realdata import seattle_rain, sp500_up
 
 from simulator.inputs.errors import InputError
-from simulator.inputs.history import history_frequency, history_from_frame
+from simulator.inputs.history import history_from_frame
+from simulator.inputs.history_calendar import history_frequency
 from simulator.replay.resample import season_calendar
 from simulator.run import choose_mean_block, run_history
 
@@ -231,7 +232,7 @@ def test_a_gap_of_many_days_is_not_taken_for_holidays(every_day, make_scenario):
 def test_the_report_names_the_days_priced_and_the_holidays_skipped(trading_days, make_scenario):
     from types import SimpleNamespace
 
-    from simulator.account.report import _occasion_days
+    from simulator.account.scenario_words import _occasion_days
 
     # 2019-01-01 (a Tuesday) and 2019-01-21 (a Monday) are occasions of a Monday-Tuesday season;
     # 2019-07-04 (a Thursday) is not, so it takes nothing out

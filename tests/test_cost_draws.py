@@ -21,7 +21,7 @@ from scipy import stats
 
 from simulator.inputs.errors import InputError
 from simulator.inputs.ranges import CostRange, site_ranges, split_ranges
-from simulator.inputs.scenario import Costs
+from simulator.inputs.scenario_costs import Costs
 from simulator.pricing.draws import CostDrawer, pert
 from simulator.replay.resample import BLOCK
 
@@ -78,7 +78,7 @@ def test_split_ranges_puts_the_mean_in_place_and_keeps_the_range():
     data = {"name": "x", "costs": {"hit": 300, "false_alarm": 1800,
                                    "miss": {"low": 2000, "likely": 2500, "high": 4000}},
             "sites": {"North": {"costs": {"hit": {"low": 100, "likely": 200, "high": 300}}}}}
-    out, ranges = split_ranges(data, "s.toml", 1e12)
+    out, ranges = split_ranges(data, "s.toml")
     assert out["costs"]["miss"] == pytest.approx(16000 / 6)
     assert out["sites"]["North"]["costs"]["hit"] == 200
     assert set(ranges) == {"costs.miss", "sites.North.costs.hit"}
@@ -99,7 +99,7 @@ def test_split_ranges_puts_the_mean_in_place_and_keeps_the_range():
 def test_a_wrong_range_is_one_line_naming_its_key(written, words):
     data = {"costs": {"hit": 1, "false_alarm": 2, "miss": written}}
     with pytest.raises(InputError) as caught:
-        split_ranges(data, "s.toml", 1e12)
+        split_ranges(data, "s.toml")
     message = str(caught.value)
     assert message.startswith("s.toml ") and words in message and "\n" not in message
 
@@ -108,15 +108,15 @@ def test_ranges_beside_operating_rules_are_refused_in_one_line():
     data = {"costs": {"hit": 1, "false_alarm": 2, "miss": 3},
             "operations": {"day_rate": {"low": 1, "likely": 2, "high": 3}}}
     with pytest.raises(InputError, match=r"\[operations\] day_rate: prices of the operating rules cannot be"):
-        split_ranges(data, "s.toml", 1e12)
+        split_ranges(data, "s.toml")
     data = {"costs": {"hit": 1, "false_alarm": 2, "miss": {"low": 1, "likely": 2, "high": 3}},
             "operations": {"day_rate": 5}}
     with pytest.raises(InputError, match=r"\[costs\] miss: with \[operations\] the rules price the seasons"):
-        split_ranges(data, "s.toml", 1e12)
+        split_ranges(data, "s.toml")
 
 
 def test_a_range_in_a_stress_case_is_refused_in_one_line():
     data = {"costs": {"hit": 1, "false_alarm": 2, "miss": 3},
             "stress": [{"name": "x", "costs": {"miss": {"low": 1, "likely": 2, "high": 3}}}]}
     with pytest.raises(InputError, match=r"^s\.toml \[\[stress\]\] table 1 costs\.miss: a stress case takes one number"):
-        split_ranges(data, "s.toml", 1e12)
+        split_ranges(data, "s.toml")

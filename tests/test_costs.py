@@ -17,7 +17,8 @@ from sklearn.metrics import confusion_matrix
 from simulator.pricing.costs import SeasonPricer, price
 from simulator.inputs.history import history_from_frame
 from simulator.replay.resample import Resampler, season_calendar
-from simulator.inputs.scenario import BASELINES, break_even_probability
+from simulator.inputs.scenario_costs import break_even_probability
+from simulator.inputs.scenario_types import BASELINES
 from simulator.pricing.scoring import Contingency
 
 N_PER_BLOCK = 8  # replicates taken from each seeded block: enough for the oracle, quick to loop

@@ -16,7 +16,7 @@ from sklearn.metrics import confusion_matrix
 
 from realdata import seattle_rain
 from simulator.inputs.history import history_from_frame
-from simulator.inputs.scenario import BASELINES
+from simulator.inputs.scenario_types import BASELINES
 from simulator.pricing.costs import SeasonPricer, baseline_actions
 from simulator.replay.resample import Resampler, season_calendar
 

@@ -14,7 +14,7 @@ import pytest
 from simulator.pricing.decision import CONFIDENT, NEAR_OPTIMAL, cutoff_ranges, decide, distribution, per_cutoff
 from simulator.inputs.history import history_from_frame
 from simulator.run import run, run_history
-from simulator.inputs.scenario import break_even_probability
+from simulator.inputs.scenario_costs import break_even_probability
 
 CUTOFFS = np.array([0.1, 0.2, 0.3, 0.4, 0.5, 0.6, 0.7])
 

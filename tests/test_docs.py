@@ -35,7 +35,8 @@ def test_the_python_examples_run_as_written(monkeypatch):
 
 
 def test_the_readme_rows_name_keys_the_schema_knows():
-    from simulator.inputs.scenario import HistorySection, SiteSection
+    from simulator.inputs.scenario_changes import SiteSection
+    from simulator.inputs.scenario_tables import HistorySection
 
     text = (REPO / "README.md").read_text()
     assert "`site_column`" in text and "site_column" in HistorySection.model_fields

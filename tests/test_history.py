@@ -11,7 +11,8 @@ import pandas as pd
 import pytest
 
 from simulator.inputs.errors import InputError
-from simulator.inputs.history import MIN_CLASS_COUNT, read_history, season_start_month
+from simulator.inputs.history import MIN_CLASS_COUNT, read_history
+from simulator.inputs.history_calendar import season_start_month
 
 
 def _frame(n=40, start="2021-03-01", **columns):

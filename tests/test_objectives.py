@@ -228,7 +228,7 @@ def test_an_unknown_objective_is_one_line_naming_the_key(toml_text):
 def _printed_headline(result) -> str:
     from rich.console import Console
 
-    from simulator.cli import _headline
+    from simulator.account.terminal import _headline
 
     console = Console(width=200, record=True, file=open("/dev/null", "w"))
     console.print(_headline(result))

@@ -30,7 +30,7 @@ from simulator.account.outputs import summary
 from simulator.replay.resample import Resampler, season_calendar
 from simulator.run import run_history
 from simulator.inputs.history import history_from_frame
-from simulator.inputs.scenario import OperationsSection
+from simulator.inputs.scenario_tables import OperationsSection
 
 REPO = Path(__file__).resolve().parent.parent
 RULES_DEMO = REPO / "scenarios" / "line_marking_rules.toml"

@@ -28,7 +28,8 @@ from typer.testing import CliRunner
 from simulator.account import result_set
 from simulator.cli import app
 from simulator.inputs.errors import InputError
-from simulator.account.result_set import MANIFEST, STAGING_PREFIX, check_out_folder, write_files
+from simulator.account.out_folder import STAGING_PREFIX, check_out_folder
+from simulator.account.result_set import MANIFEST, write_files
 
 runner = CliRunner()
 ROOT = Path(__file__).resolve().parents[1]

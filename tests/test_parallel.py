@@ -27,8 +27,11 @@ from simulator.account.outputs import render_files
 
 from test_sites import SITES_TOML, correlated_sites
 
-run_module = importlib.import_module("simulator.run")
-parallel = importlib.import_module("simulator.execution.parallel")
+run_module = importlib.import_module("simulator.tasks.plan")
+pool = importlib.import_module("simulator.execution.pool")
+shared_memory = importlib.import_module("simulator.execution.shared_memory")
+dask_cluster = importlib.import_module("simulator.execution.dask_cluster")
+choose = importlib.import_module("simulator.execution.choose")
 report = importlib.import_module("simulator.account.report")
 
 COMPARED = ("summary.json", "cutoffs.csv", "sites.csv", "stress.csv")
@@ -62,10 +65,10 @@ def test_one_worker_two_workers_and_a_dask_cluster_write_the_same_bytes(scenario
     scenario = read_scenario(scenario_path)
     one = _files(run(scenario, workers=1))
     monkeypatch.setattr(run_module, "INLINE_BELOW", 0)  # share out even this small run
-    monkeypatch.setattr(parallel, "OUT_OF_BAND_BYTES", 1)  # every array through shared memory
+    monkeypatch.setattr(shared_memory, "OUT_OF_BAND_BYTES", 1)  # every array through shared memory
     used = []
-    monkeypatch.setattr(parallel.PoolExecutor, "close",
-                        lambda self, close=parallel.PoolExecutor.close: (used.append(self.workers), close(self)))
+    monkeypatch.setattr(pool.PoolExecutor, "close",
+                        lambda self, close=pool.PoolExecutor.close: (used.append(self.workers), close(self)))
     two = _files(run(scenario, workers=2))
     assert used == [2]
     with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=False,
@@ -78,7 +81,7 @@ def test_one_worker_two_workers_and_a_dask_cluster_write_the_same_bytes(scenario
 def test_shared_inputs_reach_local_workers_through_shared_memory_read_only(monkeypatch):
     shared = {"p": np.linspace(0.0, 1.0, 20_000), "dates": np.arange(20_000).astype("datetime64[D]"),
               "small": np.arange(3), "name": "North"}
-    shipped = parallel._InSharedMemory.make(shared)
+    shipped = shared_memory._InSharedMemory.make(shared)
     assert len(shipped.pickled) < 2_000  # the large arrays travel out of band
     loaded = pickle.loads(pickle.dumps(shipped)).load()  # as a worker gets and installs it
     for key in ("p", "dates", "small"):
@@ -88,8 +91,8 @@ def test_shared_inputs_reach_local_workers_through_shared_memory_read_only(monke
     shipped.release()
     with pytest.raises(FileNotFoundError):
         SharedMemory(name=shipped.name)
-    monkeypatch.setattr(parallel, "_room_for", lambda size: False)  # a full /dev/shm: sent as they are
-    assert parallel._InSharedMemory.make(shared) is None
+    monkeypatch.setattr(shared_memory, "_room_for", lambda size: False)  # a full /dev/shm: sent as they are
+    assert shared_memory._InSharedMemory.make(shared) is None
 
 
 def test_progress_counts_every_site_replicate_season_once(scenario_path):
@@ -113,7 +116,7 @@ def test_a_cluster_that_does_not_answer_is_refused_quickly_and_nothing_is_writte
     start = time.monotonic()
     result = CliRunner().invoke(app, ["run", str(scenario_path), "--out", str(out),
                                       "--cluster", f"tcp://127.0.0.1:{_closed_port()}"])
-    assert time.monotonic() - start < parallel.CONNECT_TIMEOUT + 3
+    assert time.monotonic() - start < dask_cluster.CONNECT_TIMEOUT + 3
     assert result.exit_code == 2, result.output
     message = result.stderr.strip()
     assert len(message.splitlines()) == 1 and "Traceback" not in result.output
@@ -176,7 +179,7 @@ def test_a_server_that_is_not_dask_is_refused_in_one_line_without_waiting(scenar
 def test_the_cluster_address_may_come_from_the_environment(scenario_path, tmp_path):
     out = tmp_path / "out"
     result = CliRunner().invoke(app, ["run", str(scenario_path), "--out", str(out)],
-                                env={parallel.CLUSTER_ENV: "tcp://127.0.0.1:notaport"})
+                                env={dask_cluster.CLUSTER_ENV: "tcp://127.0.0.1:notaport"})
     assert result.exit_code == 2
     assert "error: cluster tcp://127.0.0.1:notaport" in result.stderr
     assert not out.exists()
@@ -192,13 +195,13 @@ def test_without_dask_the_message_says_how_to_install_it(monkeypatch):
 
     monkeypatch.setattr(builtins, "__import__", no_dask)
     with pytest.raises(InputError, match=r'pip install "dask\[distributed\]"'):
-        with parallel.open_executor(cluster="tcp://127.0.0.1:8786"):
+        with choose.open_executor(cluster="tcp://127.0.0.1:8786"):
             pass
 
 
 def test_workers_below_one_are_refused():
     with pytest.raises(InputError, match="workers must be at least 1"):
-        with parallel.open_executor(workers=0):
+        with choose.open_executor(workers=0):
             pass
 
 

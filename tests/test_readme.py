@@ -13,7 +13,7 @@ import pytest
 from rich.console import Console
 
 from simulator import read_scenario, run
-from simulator.cli import _headline
+from simulator.account.terminal import _headline
 from simulator.demo.generator import write_demo_files
 
 ROOT = Path(__file__).resolve().parents[1]

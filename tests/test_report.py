@@ -23,9 +23,11 @@ from typer.testing import CliRunner
 
 from simulator import read_scenario, run
 from simulator.cli import app
-from simulator.account.outputs import render_files, summary, write_files
-from simulator.account.report import (CAUTION, FIELD_FORMATS, format_value, headline_numbers, money,
-                              render_report, share)
+from simulator.account.outputs import render_files, summary
+from simulator.account.result_set import write_files
+from simulator.account.report import CAUTION, render_report
+from simulator.account.report_sections import FIELD_FORMATS, headline_numbers
+from simulator.notation.prose import format_value, money, share
 
 PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"  # PNG specification (W3C/ISO 15948), section 5.2
 CORE_FIGURES = ("season_cost", "savings", "reliability", "roc", "relative_value", "risk")
@@ -192,7 +194,7 @@ def test_content_security_policy_allows_only_the_pages_own_script_by_its_hash(ou
 def test_json_for_the_page_escapes_what_could_end_or_bend_a_script_element(text):
     # WHATWG HTML, "Restrictions for contents of script elements": "<!--", "<script" and "</script"
     # must not appear in a script's text; JSON's \\u escapes read back as the same characters
-    from simulator.account.report import script_json
+    from simulator.account.report_page import script_json
 
     encoded = script_json({"name": text, "values": [1.5, float("nan")]})
     assert not re.search("[<>&\u2028\u2029]", encoded)

@@ -8,14 +8,8 @@ import numpy as np
 import pytest
 
 from simulator.inputs.errors import InputError
-from simulator.inputs.scenario import (
-    Costs,
-    break_even_probability,
-    cost_warnings,
-    cutoff_grid,
-    read_scenario,
-    scenario_from_text,
-)
+from simulator.inputs.scenario import cutoff_grid, read_scenario, scenario_from_text
+from simulator.inputs.scenario_costs import Costs, break_even_probability, cost_warnings
 
 # ------------------------------------------------------------------------------------------------
 # break-even probability (theoretical_cutoff)
@@ -215,7 +209,8 @@ def test_a_cost_that_is_not_finite_or_absurd_is_refused_saying_what_is_allowed(v
 
 def test_every_number_key_of_the_schema_has_a_range():
     # a number key without bounds would let NaN's cousins (1e308) through: walk the whole schema
-    from simulator.inputs import scenario as schema
+    from simulator.inputs import scenario_words as schema
+    from simulator.inputs.scenario import Scenario
 
     unbounded = []
 
@@ -231,7 +226,7 @@ def test_every_number_key_of_the_schema_has_a_range():
                   and "three numbers" not in described):
                 unbounded.append(f"{prefix}{key}: {described}")
 
-    walk(schema.Scenario, "")
+    walk(Scenario, "")
     assert unbounded == []
 
 
@@ -250,7 +245,7 @@ def test_a_word_that_only_starts_like_a_weekday_is_not_one(word, toml_text):
 
 
 def test_a_scenario_file_over_the_size_limit_is_refused_before_it_is_read(tmp_path):
-    from simulator.inputs.scenario import MAX_SCENARIO_BYTES
+    from simulator.inputs.scenario_types import MAX_SCENARIO_BYTES
 
     path = tmp_path / "big.toml"
     path.write_text('name = "x"\n' + "#" * MAX_SCENARIO_BYTES)

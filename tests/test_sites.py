@@ -19,7 +19,7 @@ from typer.testing import CliRunner
 
 from simulator import InputError, history_from_frame, run, run_history, scenario_from_text
 from simulator.cli import app
-from simulator.inputs.history import MISSING_DATE_RULE
+from simulator.inputs.history_gaps import MISSING_DATE_RULE
 from simulator.account.outputs import render_files, summary
 from simulator.replay.resample import Resampler, season_calendar
 
@@ -340,7 +340,8 @@ def test_the_gritting_example_prices_five_depots_and_warns_of_the_missing_nights
 def test_report_has_a_sites_section_whose_numbers_are_those_of_summary_json(result):
     """The page and summary.json cannot disagree: the section is written from the summary, with the
     report's one formatter (report.money)."""
-    from simulator.account.report import money, render_report
+    from simulator.account.report import render_report
+    from simulator.notation.prose import money
 
     s = summary(result)
     html = render_report(result, s)["report.html"].decode()

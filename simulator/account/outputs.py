@@ -2,7 +2,7 @@
 site column).
 
 Everything is rendered in memory first (:func:`render_files`), then written as one whole result
-set by :func:`simulator.result_set.write_files`: staged beside the output folder and swapped in, so
+set by :func:`simulator.account.result_set.write_files`: staged beside the output folder and swapped in, so
 a reader sees the previous set or the new one, never a mix; a folder that already holds files is
 only written into with ``force``.
 """
@@ -22,14 +22,14 @@ import pandas as pd
 from .. import __version__
 from .findings import account
 from .datapackage import datapackage
+from .file_names import table_names
 from .cautions import cautions
 from ..pricing.decision import distribution
-from .result_set import check_out_folder, write_files
-from ..run import RunResult
+from ..results import RunResult
 from ..analysis.selection import Calibration, Selection
 from ..analysis.stress import StressResult
 
-__all__ = ["summary", "render_files", "write_files", "check_out_folder", "SCHEMA"]
+__all__ = ["summary", "render_files", "SCHEMA"]
 
 SCHEMA = 1
 
@@ -186,24 +186,6 @@ def render_files(result: RunResult) -> dict[str, bytes]:
         files[name] = render[name]()
     files.update(render_report(result, contents))
     return files
-
-
-def table_names(result: RunResult) -> list[str]:
-    """The files written beside the report (and its figures), in the order they are written."""
-    names = ["summary.json", "cutoffs.csv", "value_curve.csv", "reliability.csv"]
-    if result.stress is not None or (result.portfolio is not None
-                                     and any(site.stress is not None for site in result.portfolio.sites)):
-        names.append("stress.csv")
-    if result.calibration is not None:
-        names.append("calibration.csv")
-    if result.selection is not None:
-        names.append("selection.csv")
-    if result.portfolio is not None:
-        names.append("sites.csv")
-    if result.comparison is not None:
-        names.append("forecasts.csv")
-    names.append("datapackage.json")  # describes the CSV files above, so it comes after them
-    return names
 
 
 # ------------------------------------------------------------------------------------------------

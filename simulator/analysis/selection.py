@@ -44,7 +44,9 @@ from ..inputs.errors import InputError
 from ..inputs.history import History
 from ..rules.operations_fast import OperationsPricer
 from ..replay.resample import Calendar, Resampler, nearest_position
-from ..inputs.scenario import BASELINES, Costs, Scenario
+from ..inputs.scenario import Scenario
+from ..inputs.scenario_costs import Costs
+from ..inputs.scenario_types import BASELINES
 
 __all__ = ["Recalibration", "fit_recalibration", "Calibration", "calibrate", "PeriodRecord",
            "ValidationCheck", "WalkForwardStep", "WalkForward", "Selection", "select_honestly",

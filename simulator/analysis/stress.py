@@ -46,7 +46,10 @@ from ..inputs.errors import InputError
 from ..inputs.history import History
 from ..rules.operations_fast import OperationsPricer
 from ..replay.resample import Calendar, Resampler, block_rng
-from ..inputs.scenario import BASELINES, Costs, Scenario, StressCase, break_even_probability
+from ..inputs.scenario import Scenario
+from ..inputs.scenario_changes import StressCase
+from ..inputs.scenario_costs import Costs, break_even_probability
+from ..inputs.scenario_types import BASELINES
 from ..pricing.scoring import Contingency, counts_from_slots, cutoff_slots
 
 __all__ = ["prior_shift", "degrade", "log_odds_noise", "run_event_share", "Tilt", "tilt_to_rate",

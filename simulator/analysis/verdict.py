@@ -205,7 +205,7 @@ def season_costs(history: History, calendar: Calendar, cutoffs: np.ndarray, scen
     if scenario.operations is None:
         return _with_costs(history, cutoffs, scenario, seasons, learnt)
     from ..rules.operations_fast import OperationsPricer
-    from ..inputs.scenario import BASELINES
+    from ..inputs.scenario_types import BASELINES
     from .selection import _seasons_on_calendar  # each past season laid on the priced calendar
 
     rows = _seasons_on_calendar(history, evaluated, calendar)  # (k, n_occasions), seasons ascending

@@ -1,7 +1,10 @@
-"""Where the work runs: tasks, their planning and the executors (inline, a local pool, Dask).
+"""Where the work runs: the executors (this process, local worker processes, a Dask cluster).
 
-``parallel`` splits a run into tasks of replicate blocks or sites and runs them on the chosen
-executor, with stops (Ctrl-C, SIGTERM) that leave no worker behind.
+``executor`` holds the interface every executor keeps and the one that runs tasks in this process;
+``pool`` runs them in local worker processes, whose shared inputs travel through ``shared_memory``
+and whose start and end (Ctrl-C and SIGTERM held back, ending with the run's process) are
+``lifetime``'s; ``dask_cluster`` sends them to a Dask scheduler; ``choose`` opens the executor a run
+asks for. Every executor gives the same results, whatever the order in which tasks finish.
 
 May import: ``inputs``, ``notation``.
 """

@@ -23,26 +23,23 @@ from __future__ import annotations
 import math
 from typing import Any
 
-from pydantic import BaseModel, ConfigDict
-
 from .errors import InputError, did_you_mean, excerpt, quoted
+from .scenario_costs import COST_KEYS
+from .scenario_types import MAX_MONEY, Money, _Section
 
 __all__ = ["CostRange", "split_ranges", "RANGE_KEYS", "site_ranges"]
 
 RANGE_KEYS = ("low", "likely", "high")
-_COST_KEYS = ("hit", "false_alarm", "miss", "correct_negative")  # as scenario.COST_KEYS (no import: no cycle)
 _OPERATIONS_PRICES = ("day_rate", "standby_rate", "spoilage_cost", "damages_per_day_late", "unfinished_cost")
 
 
-class CostRange(BaseModel):
-    """A cost known only as a range: lowest, most likely and highest value, per occasion (or per
-    unit of the operating rule it prices) in the scenario's currency."""
+class CostRange(_Section):
+    """A cost known only as a range: lowest, most likely and highest value, per occasion in the
+    scenario's currency (frozen; checked as read by :func:`split_ranges`)."""
 
-    model_config = ConfigDict(frozen=True, extra="forbid", allow_inf_nan=False)
-
-    low: float
-    likely: float
-    high: float
+    low: Money
+    likely: Money
+    high: Money
 
     @property
     def mean(self) -> float:
@@ -87,7 +84,8 @@ def _read_range(value: dict, where: str, money: float) -> CostRange:
     return CostRange(**numbers)
 
 
-def split_ranges(data: dict[str, Any], label: str, money: float) -> tuple[dict[str, Any], dict[str, CostRange]]:
+def split_ranges(data: dict[str, Any], label: str, money: float = MAX_MONEY
+                 ) -> tuple[dict[str, Any], dict[str, CostRange]]:
     """The scenario's raw TOML data with every cost range replaced by its PERT mean, and the ranges
     by dotted key. ``data`` is not changed. Ranges under ``[operations]``, or in ``[costs]`` when
     there are ``[operations]``, are refused (:class:`InputError`, one line)."""
@@ -97,7 +95,7 @@ def split_ranges(data: dict[str, Any], label: str, money: float) -> tuple[dict[s
         if not isinstance(table, dict):
             return table  # the schema says what it wanted
         out = dict(table)
-        for key in _COST_KEYS:
+        for key in COST_KEYS:
             if isinstance(table.get(key), dict):
                 r = _read_range(table[key], f"{label} [{where}] {key}", money)
                 ranges[f"{prefix}{key}"] = r

@@ -1,476 +1,35 @@
 """The scenario file: TOML read with the standard library, validated with pydantic.
 
-One schema, :class:`Scenario`, is the single source of truth for every key a user can write. Unknown
-keys are errors that name the key and the closest valid one; a cost matrix under which one action is
-always best produces a warning (returned, never printed: ``cli.py`` prints).
-
-Every number key has a range and every string a length limit in the schema, and NaN and infinity are
-refused everywhere, so that nonsense is refused in one line before any work starts. A message says
-what values are allowed; it is made from the schema itself (:func:`_allowed`), so the schema stays the
-one place that says it. The limits are the project's own choice (no published source): wide enough
-that a practitioner never meets them in earnest (money within 1e12 per occasion, factors up to 1000,
-years 1900 to 2200), and listed in the README's key table.
+One schema, :class:`Scenario`, is the single source of truth for every key a user can write; its
+tables are in ``scenario_tables``, ``scenario_costs`` and ``scenario_changes``, their limits and
+types in ``scenario_types``. Unknown keys are errors that name the key and the closest valid one;
+every problem is one line naming the file and the key, with what values are allowed
+(``scenario_words``). A run too large to hold is refused here too, before any work
+(:func:`check_workload`).
 """
 
 from __future__ import annotations
 
-import codecs
 import hashlib
-import re
 import tomllib
-import types
-import typing
-from datetime import date, datetime, time
 from pathlib import Path
-from typing import Annotated, Any, Literal
+from typing import Annotated, Any
 
 import numpy as np
-from pydantic import (BaseModel, ConfigDict, Field, ValidationError, create_model, field_validator,
-                      model_validator)
+from pydantic import BaseModel, Field, ValidationError, field_validator, model_validator
 
 from ..notation import decimals
 from .errors import InputError, did_you_mean, excerpt, printable, quoted, read_input_file
 from .ranges import CostRange, site_ranges, split_ranges
-
-__all__ = ["Scenario", "Costs", "read_scenario", "scenario_from_text", "cutoff_grid",
-           "break_even_probability", "cost_warnings", "WEEKDAYS", "BASELINES", "COST_KEYS", "COST_PLACEHOLDER",
-           "OperationsSection", "StressCase", "CostChanges", "OperationsChanges", "STRESS_CHANGES",
-           "SiteSection", "SiteOperations", "CostFactors", "OperationsFactors", "MAX_MONEY",
-           "MAX_FACTOR", "MAX_TEXT", "MAX_SCENARIO_BYTES", "YEARS", "MAX_SEASON_COSTS", "check_workload",
-           "CostRange"]
-
-WEEKDAYS = ("mon", "tue", "wed", "thu", "fri", "sat", "sun")
-COST_KEYS = ("hit", "false_alarm", "miss", "correct_negative")
-COST_PLACEHOLDER = "fill in"
-"""What ``gonogo init`` writes for each cost: text, so that the schema refuses it until replaced."""
-_WEEKDAY_NAMES = ("monday", "tuesday", "wednesday", "thursday", "friday", "saturday", "sunday")
-BASELINES = ("never_act", "always_act", "persistence", "seasonal_rate", "perfect")
-
-# limits of the schema (see the module's docstring and the README's key table)
-MAX_MONEY = 1e12  # any amount of money, in the scenario's currency
-MAX_FACTOR = 1000.0  # a multiplier of a cost, an operating-rule price or the event rate
-MAX_TEXT = 200  # characters of a name, a label or a column's name
-MAX_PATH = 4096  # characters of a file's path (Linux's PATH_MAX)
-MAX_CURRENCY = 40  # characters of the currency's name
-MAX_SCENARIO_BYTES = 1_000_000  # bytes of a scenario file
-MAX_WORK = 1e7  # crew-days of work in a season (counted in thousandths, well inside int64)
-MAX_SEASON_DAYS = 366  # a run length, a streak: at most a year of days
-MAX_SEASON_COSTS = 100_000_000  # replicates x cutoffs: the season costs held at once (800 MB as float64)
-YEARS = (1900, 2200)  # seasons a calendar may price
-MAX_HOLIDAYS = 10_000  # dates in a list of holidays
-MAX_FORECASTS = 20  # forecasts compared in one run ([forecasts])
-
-Money = Annotated[float, Field(ge=-MAX_MONEY, le=MAX_MONEY)]  # negative = income
-Price = Annotated[float, Field(ge=0, le=MAX_MONEY)]
-Factor = Annotated[float, Field(ge=0, le=MAX_FACTOR)]
-Name = Annotated[str, Field(max_length=MAX_TEXT)]
-Days = Annotated[float, Field(ge=1, le=MAX_SEASON_DAYS)]
-Work = Annotated[float, Field(gt=0, le=MAX_WORK)]
-Holidays = Annotated[tuple[date, ...], Field(max_length=MAX_HOLIDAYS)]
-WeekdayList = Annotated[tuple[str, ...], Field(max_length=7, description='a list of weekdays written '
-                                              '"mon" to "sun" or in full ("monday")')]
-
-
-class _Section(BaseModel):
-    model_config = ConfigDict(extra="forbid", frozen=True, allow_inf_nan=False)
-
-
-def _weekdays(value: tuple[str, ...]) -> tuple[str, ...]:
-    """Weekday names as the three-letter keys of :data:`WEEKDAYS`: "mon", "Monday" and "tues" are
-    read; "monkey" is not (a name must be the start, three letters at least, of a weekday's)."""
-    out = []
-    for v in value:
-        word = str(v).strip().lower()
-        day = next((d for d, full in zip(WEEKDAYS, _WEEKDAY_NAMES) if len(word) >= 3 and full.startswith(word)),
-                   None)
-        if day is None:
-            raise ValueError(f"{quoted(str(v))} is not a weekday{did_you_mean(word[:20], WEEKDAYS)}")
-        out.append(day)
-    if len(set(out)) != len(out):
-        raise ValueError("a weekday is listed twice")
-    return tuple(out)
-
-
-class HistorySection(_Section):
-    path: Annotated[str, Field(max_length=MAX_PATH)] | None = None
-    date_column: Name = "date"
-    site_column: Name | None = None  # a column naming each row's site; None: one site
-    probability_column: Name = "probability"
-    outcome_column: Name | None = None
-    value_column: Name | None = None
-    threshold: Money | None = None
-    side: Literal["above", "below"] | None = None
-    direction: Literal["up", "down"] | None = None
-    validation_from: date | None = None
-    # how the file is written; each found from the file when not given (simulator.sheets)
-    sheet: Name | None = None  # an .xlsx workbook's sheet; default the first
-    separator: Literal[",", ";", "\t"] | None = None
-    decimal: Literal[".", ","] | None = None
-    encoding: Annotated[str, Field(max_length=40)] | None = None
-    date_format: Annotated[str, Field(max_length=40)] | None = None  # strftime codes, e.g. "%d.%m.%Y"; default ISO or found
-
-    @field_validator("separator", mode="before")
-    @classmethod
-    def _tab_by_name(cls, value):
-        return "\t" if isinstance(value, str) and value.lower() in ("tab", "\\t") else value
-
-    @field_validator("encoding")
-    @classmethod
-    def _known_encoding(cls, value):
-        if value is None:
-            return value
-        try:
-            codecs.lookup(value)
-        except LookupError:
-            raise ValueError(f'{quoted(value)} is not an encoding Python knows; use for example "utf-8" or '
-                             '"cp1252"') from None
-        return value
-
-    @field_validator("date_format")
-    @classmethod
-    def _strftime_codes(cls, value):
-        if value is None:
-            return value
-        codes = set(re.findall(r"%(.)", value))
-        if not codes & {"d", "j"} or not codes & {"Y", "y"} or not codes & {"m", "b", "B", "j"}:
-            raise ValueError(f'{quoted(value)} needs codes for the day, month and year, for example "%d.%m.%Y" '
-                             'or "%m/%d/%Y"')
-        return value
-
-    @model_validator(mode="after")
-    def _distinct_columns(self):
-        roles = [("date_column", self.date_column), ("probability_column", self.probability_column),
-                 ("value_column" if self.value_column else "outcome_column", self.outcome_source),
-                 ("site_column", self.site_column)]
-        seen: dict[str, str] = {}
-        for key, column in roles:
-            if column is None:
-                continue
-            if column in seen:
-                raise ValueError(f'{seen[column]} and {key} both name column "{column}"; the outcome must '
-                                 "come from a column of its own (a forecast judged against itself looks perfect)"
-                                 if "probability_column" in (seen[column], key) else
-                                 f'{seen[column]} and {key} both name column "{column}"; give each its own column')
-            seen[column] = key
-        return self
-    # a row where one of the [forecasts] has no probability: refuse the file, or leave the row out
-    # of the evaluation for every forecast (they are compared on the same occasions)
-    missing_forecast: Literal["refuse", "drop_row"] = "refuse"
-
-    @model_validator(mode="after")
-    def _one_way_to_the_outcome(self):
-        numeric = self.value_column is not None
-        if self.outcome_column is not None and numeric:
-            raise ValueError("give either outcome_column or value_column, not both")
-        if numeric:
-            by_threshold = self.threshold is not None or self.side is not None
-            if by_threshold and self.direction is not None:
-                raise ValueError("value_column takes either threshold and side, or direction, not both")
-            if by_threshold and (self.threshold is None or self.side is None):
-                raise ValueError('value_column with a threshold needs both threshold and side ("above" or "below")')
-            if not by_threshold and self.direction is None:
-                raise ValueError('value_column needs threshold and side, or direction ("up" or "down")')
-        elif self.threshold is not None or self.side is not None or self.direction is not None:
-            raise ValueError("threshold, side and direction go with value_column; add value_column")
-        return self
-
-    @property
-    def outcome_source(self) -> str:
-        """Column the outcome comes from (the default "outcome" when nothing is said)."""
-        return self.value_column or self.outcome_column or "outcome"
-
-
-class EventSection(_Section):
-    name: Name = "event"
-    flip: bool = False
-    hazard: bool = False
-
-
-class DecisionSection(_Section):
-    action: Name = "act"
-    cutoffs: Annotated[tuple[float, float, float], Field(
-        description="three numbers [from, to, step]: 0 <= from < to <= 1 and a step that divides the "
-                    "range into whole steps, e.g. [0.0, 1.0, 0.01]")] = (0.0, 1.0, 0.01)
-    # what the cutoff is chosen by: the lowest mean season cost, the lowest 95th percentile, or the
-    # lowest mean of the worst 10% of seasons (decision.OBJECTIVES, decision.decide)
-    objective: Literal["mean", "p95", "shortfall10"] = "mean"
-
-    @field_validator("cutoffs")
-    @classmethod
-    def _grid(cls, value):
-        lo, hi, step = value
-        if not (0.0 <= lo < hi <= 1.0):
-            raise ValueError(f"from and to must satisfy 0 <= from < to <= 1, got {lo} and {hi}")
-        if step <= 0:
-            raise ValueError(f"the step must be positive, got {step}")
-        if step > hi - lo:
-            raise ValueError(f"the step {step} is wider than the range {lo} to {hi}; use a step of at most "
-                             f"{hi - lo:g}, e.g. 0.01")
-        n = decimals.whole_steps(lo, hi, step)
-        if n is None:
-            raise ValueError(f"the step {step} does not divide {lo} to {hi} into whole steps")
-        if n + 1 > 10001:
-            raise ValueError(f"{n + 1} cutoffs is too many; use a step of at least 0.0001")
-        return value
-
-
-class Costs(_Section):
-    """Per-occasion cost of each cell of the classification matrix, in the scenario's currency."""
-
-    hit: Money
-    false_alarm: Money
-    miss: Money
-    correct_negative: Money = 0.0
-
-    @model_validator(mode="before")
-    @classmethod
-    def _filled_in(cls, data):
-        if isinstance(data, dict) and COST_PLACEHOLDER in data.values():
-            blank = [k for k, v in data.items() if v == COST_PLACEHOLDER]
-            raise ValueError(f"fill in the four costs ({', '.join(COST_KEYS)}: money per occasion in the "
-                             f"scenario's currency, negative for income); {', '.join(blank)} "
-                             f"{'is' if len(blank) == 1 else 'are'} not a number yet")
-        return data
-
-    def as_array(self) -> np.ndarray:
-        """(hit, false_alarm, miss, correct_negative) as float64."""
-        return np.array([self.hit, self.false_alarm, self.miss, self.correct_negative], dtype=float)
-
-
-def _date_list(value: Any) -> Any:
-    """A list of dates as ``[season] holidays`` and ``[operations] holidays`` take them: TOML dates
-    or "YYYY-MM-DD" text; anything else is one plain error naming the item."""
-    if isinstance(value, str | date):
-        raise ValueError("list the dates in brackets, e.g. holidays = [2027-05-03, 2027-08-30]")
-    if not isinstance(value, list | tuple):
-        return value  # pydantic says what it wanted
-    out = []
-    for i, item in enumerate(value, 1):
-        if isinstance(item, datetime):
-            item = item.date() if item.time() == time() else item
-        if isinstance(item, str):
-            try:
-                item = date.fromisoformat(item.strip())
-            except ValueError:
-                pass
-        if type(item) is not date:
-            raise ValueError(f"item {i}, {excerpt(item)}, is not a date; write dates as YYYY-MM-DD, "
-                             "e.g. holidays = [2027-05-03, 2027-08-30]")
-        out.append(item)
-    return tuple(out)
-
-
-class SeasonSection(_Section):
-    """The occasions that make a season: dates of the history's own calendar in ``months``, on
-    ``weekdays`` (daily data only) and not among ``holidays`` (dates that are not occasions, such
-    as market holidays or closed days; the operating rules then have no working day on them)."""
-
-    months: Annotated[tuple[Annotated[int, Field(ge=1, le=12)], ...], Field(
-        max_length=12, description="a list of months, each a whole number from 1 to 12")] = tuple(range(1, 13))
-    weekdays: WeekdayList = WEEKDAYS
-    holidays: Holidays = ()
-    year: Annotated[int, Field(ge=YEARS[0], le=YEARS[1])] | None = None
-
-    @field_validator("months")
-    @classmethod
-    def _months(cls, value):
-        if not value:
-            raise ValueError("list at least one month")
-        if len(set(value)) != len(value):
-            raise ValueError("a month is listed twice")
-        return value
-
-    _holidays = field_validator("holidays", mode="before")(_date_list)
-
-    @field_validator("weekdays")
-    @classmethod
-    def _weekdays(cls, value):
-        if not value:
-            raise ValueError("list at least one weekday")
-        return _weekdays(value)
-
-    @property
-    def weekday_numbers(self) -> tuple[int, ...]:
-        return tuple(WEEKDAYS.index(w) for w in self.weekdays)
-
-
-class SimulationSection(_Section):
-    replicates: Annotated[int, Field(ge=20, le=10_000_000)] = 5000
-    seed: Annotated[int, Field(ge=0, le=2**63 - 1)] = 2027
-    block_days: Literal["auto"] | Days = "auto"
-    reference: Literal["never_act", "always_act", "persistence", "seasonal_rate"] = "never_act"
-    window_days: Annotated[int, Field(ge=0, le=60)] = 10
-    mode: Literal["replay", "calibrated"] = "replay"
-    walk_forward: bool = False
-
-
-class OperationsSection(_Section):
-    """Operating rules: crews, the work and its deadline, overtime, retention, a safety stop.
-
-    Money is in the scenario's currency; a crew-day is one crew's work for one day. Every key is
-    described in ``scenarios/line_marking_rules.toml``; the rules are played by
-    :mod:`simulator.operations` (the event-level statement) and :mod:`simulator.operations_fast`.
-    """
-
-    crews: Annotated[int, Field(ge=1, le=1000)] = 1
-    crews_out_on: Literal["acting", "not_acting"]
-    spoiled_on: Literal["event", "no_event"]
-    day_rate: Price
-    standby_rate: Price | None = None
-    spoilage_cost: Price = 0.0
-    work_lost_when_spoiled: Annotated[float, Field(ge=0, le=1)] = 1.0
-    work: Work | None = None
-    deadline: date | None = None
-    damages_per_day_late: Price = 0.0
-    unfinished_cost: Price = 0.0
-    workdays: WeekdayList | None = None
-    holidays: Holidays = ()
-    overtime_weekdays: WeekdayList = ()
-    overtime_multiple: Annotated[float, Field(ge=1, le=100)] = 1.5
-    max_overtime_days_per_week: Annotated[int, Field(ge=1, le=7)] = 1
-    max_standby_days: Annotated[int, Field(ge=1, le=MAX_SEASON_DAYS)] | None = None
-    safety_stop_at: Annotated[float, Field(gt=0, le=1)] | None = None
-    safety_probability: Literal["as_in_file", "of_event"] = "as_in_file"
-
-    _holidays = field_validator("holidays", mode="before")(_date_list)
-
-    @field_validator("workdays", "overtime_weekdays")
-    @classmethod
-    def _weekday_names(cls, value):
-        return value if value is None else _weekdays(value)
-
-    @model_validator(mode="after")
-    def _rules_fit_together(self):
-        if self.workdays is not None and not self.workdays:
-            raise ValueError("workdays lists no weekday; list at least one, or leave it out")
-        both = set(self.workdays or ()) & set(self.overtime_weekdays)
-        if both:
-            raise ValueError(f'"{sorted(both)[0]}" is both a workday and an overtime weekday; keep it in one list')
-        if self.work is None:
-            needs = [key for key, given in (("deadline", self.deadline is not None),
-                                            ("overtime_weekdays", bool(self.overtime_weekdays)),
-                                            ("unfinished_cost", self.unfinished_cost > 0)) if given]
-            if needs:
-                raise ValueError(f"{needs[0]} needs the amount of work; add work = <crew-days>")
-        if self.damages_per_day_late > 0 and self.deadline is None:
-            raise ValueError("damages_per_day_late needs a deadline; add deadline = YYYY-MM-DD")
-        return self
-
-    @property
-    def standby_day_rate(self) -> float:
-        """Rate per crew on a standby day: ``standby_rate``, else the full ``day_rate``."""
-        return self.day_rate if self.standby_rate is None else self.standby_rate
-
-
-class _Changes(_Section):
-    def given(self) -> dict[str, float]:
-        """The keys given, with their values."""
-        return {k: v for k, v in self.model_dump().items() if v is not None}
-
-
-class CostChanges(_Changes):
-    """Cost keys a stress case replaces; unset keys stay as in [costs]."""
-
-    hit: Money | None = None
-    false_alarm: Money | None = None
-    miss: Money | None = None
-    correct_negative: Money | None = None
-
-
-class OperationsChanges(_Changes):
-    """Operating-rule prices (and the amount of work) a stress case replaces."""
-
-    day_rate: Price | None = None
-    standby_rate: Price | None = None
-    spoilage_cost: Price | None = None
-    damages_per_day_late: Price | None = None
-    unfinished_cost: Price | None = None
-    overtime_multiple: Annotated[float, Field(ge=1, le=100)] | None = None
-    work: Work | None = None
-
-
-def _factors(changes: type[_Changes]) -> type[_Changes]:
-    """The multipliers of the keys of ``changes``: each a factor from 0 to :data:`MAX_FACTOR`."""
-    name = changes.__name__.replace("Changes", "Factors")
-    return create_model(name, __base__=_Changes, __doc__=f"Factors for the keys of {changes.__name__}.",
-                        **{key: (Factor | None, None) for key in changes.model_fields})
-
-
-CostFactors = _factors(CostChanges)
-OperationsFactors = _factors(OperationsChanges)
-
-
-STRESS_CHANGES = ("event_rate", "costs", "cost_multipliers", "operations", "operations_multipliers",
-                  "skill", "noise", "block_days", "worst_seasons")
-
-
-class StressCase(_Section):
-    """One ``[[stress]]`` table: a named change to the world the season is priced in."""
-
-    name: Name
-    event_rate: Annotated[float, Field(gt=0, le=MAX_FACTOR)] | None = None
-    costs: CostChanges | None = None
-    cost_multipliers: CostFactors | None = None  # type: ignore[valid-type]
-    operations: OperationsChanges | None = None
-    operations_multipliers: OperationsFactors | None = None  # type: ignore[valid-type]
-    skill: Annotated[float, Field(ge=0, le=1)] | None = None
-    noise: Annotated[float, Field(ge=0, le=10)] | None = None  # sd on the log-odds scale
-    block_days: Days | None = None
-    worst_seasons: Annotated[int, Field(ge=1, le=1000)] | None = None
-
-    @model_validator(mode="after")
-    def _changes_something(self):
-        if all(getattr(self, key) is None for key in STRESS_CHANGES):
-            raise ValueError("a stress case needs at least one change: " + ", ".join(STRESS_CHANGES))
-        new = self.costs.given() if self.costs else {}
-        factors = self.cost_multipliers.given() if self.cost_multipliers else {}
-        both = sorted(set(new) & set(factors))
-        if both:
-            raise ValueError(f'"{both[0]}" has both a new value (costs) and a multiplier '
-                             "(cost_multipliers); keep one")
-        new = self.operations.given() if self.operations else {}
-        factors = self.operations_multipliers.given() if self.operations_multipliers else {}
-        both = sorted(set(new) & set(factors))
-        if both:
-            raise ValueError(f'"{both[0]}" has both a new value (operations) and a multiplier '
-                             "(operations_multipliers); keep one")
-        return self
-
-    def changed_operations(self, base: "OperationsSection") -> "OperationsSection":
-        """``base`` with this case's new operating-rule prices and multipliers applied."""
-        values = {}
-        values.update(self.operations.given() if self.operations else {})
-        for key, factor in (self.operations_multipliers.given() if self.operations_multipliers else {}).items():
-            current = getattr(base, key)
-            if current is None and key == "standby_rate":
-                current = base.day_rate
-            if current is not None:
-                values[key] = current * factor
-        return base.model_copy(update=values)
-
-    def changed_costs(self, base: Costs) -> Costs:
-        """``base`` with this case's new values and multipliers applied."""
-        values = base.model_dump()
-        values.update(self.costs.given() if self.costs else {})
-        for key, factor in (self.cost_multipliers.given() if self.cost_multipliers else {}).items():
-            values[key] = values[key] * factor
-        return Costs.model_construct(**values)  # a factor may take a cost past MAX_MONEY: still finite
-
-
-SiteOperations = create_model(
-    "SiteOperations", __base__=_Section, __doc__="Keys of [operations] a site replaces; unset keys "
-    "stay as in the scenario's [operations] (the merged rules are checked as a whole).",
-    **{key: (typing.Optional[field.rebuild_annotation()], None)
-       for key, field in OperationsSection.model_fields.items()})
-
-
-class SiteSection(_Section):
-    """One ``[sites."<name>"]`` table: the costs and operating rules of one site that differ from
-    the scenario's. Each given key replaces the scenario's value for that site only; the merged
-    section is checked as a whole (:meth:`Scenario.for_site`)."""
-
-    costs: CostChanges | None = None
-    operations: SiteOperations | None = None  # type: ignore[valid-type]
+from .scenario_changes import SiteSection, StressCase
+from .scenario_costs import Costs
+from .scenario_tables import (DecisionSection, EventSection, HistorySection, OperationsSection, SeasonSection,
+                              SimulationSection)
+from .scenario_types import (MAX_CURRENCY, MAX_FORECASTS, MAX_SCENARIO_BYTES, MAX_SEASON_COSTS, MAX_TEXT, Name,
+                             _Section)
+from .scenario_words import _allowed, _submodel
+
+__all__ = ["Scenario", "read_scenario", "scenario_from_text", "cutoff_grid", "check_workload", "CostRange"]
 
 
 class Scenario(_Section):
@@ -603,36 +162,6 @@ def check_workload(replicates: int, n_cutoffs: int, where: str, n_forecasts: int
                          "cutoff step")
 
 
-def break_even_probability(costs: Costs) -> float:
-    """Probability at which acting and not acting have the same expected cost.
-
-    p* = (false_alarm - correct_negative) / ((false_alarm - correct_negative) + (miss - hit)): the
-    cost-loss ratio C/L of Thompson (1952) and Murphy (1977) for a general 2x2 matrix (Elkan 2001,
-    "The foundations of cost-sensitive learning", IJCAI). NaN when one action is always best.
-    """
-    c_prime = costs.false_alarm - costs.correct_negative
-    d_prime = costs.miss - costs.hit
-    if c_prime <= 0 or d_prime <= 0:
-        return float("nan")
-    return c_prime / (c_prime + d_prime)
-
-
-def cost_warnings(costs: Costs, action: str) -> list[str]:
-    """Warnings for a cost matrix under which one action is best whatever happens (Elkan 2001)."""
-    c_prime = costs.false_alarm - costs.correct_negative
-    d_prime = costs.miss - costs.hit
-    if c_prime <= 0 and d_prime <= 0:
-        return ["[costs]: acting costs no more than not acting when the event fails to happen, and not "
-                "acting costs no more when it happens; check the signs of the costs"]
-    if c_prime <= 0:
-        return [f'[costs]: "{action}" is always at least as cheap (false_alarm <= correct_negative and '
-                "hit <= miss), so every cutoff below the lowest forecast is best; check the costs"]
-    if d_prime <= 0:
-        return ["[costs]: not acting is always at least as cheap (miss <= hit and correct_negative <= "
-                "false_alarm), so the best rule never acts; check the costs"]
-    return []
-
-
 # ------------------------------------------------------------------------------------------------
 # reading
 
@@ -665,7 +194,7 @@ def scenario_from_text(text: str, label: str = "scenario") -> Scenario:
                          "near that line") from None
     except RecursionError:
         raise InputError(f"{label}: not valid TOML (nested too deeply); check the file") from None
-    data, ranges = split_ranges(data, label, MAX_MONEY)
+    data, ranges = split_ranges(data, label)  # costs written as ranges: their PERT means in place
     try:
         scenario = Scenario.model_validate(data)
     except ValidationError as exc:
@@ -758,14 +287,6 @@ def _table(loc: list[str]) -> str:
     return ".".join(quoted(part) if i == 1 and loc[0] == "sites" else part for i, part in enumerate(loc))
 
 
-def _submodel(annotation: Any) -> type[BaseModel] | None:
-    """The model an annotation holds: the model itself, X | None, list[X] or dict[str, X]."""
-    for member in (annotation, *typing.get_args(annotation)):
-        if isinstance(member, type) and issubclass(member, BaseModel):
-            return member
-    return None
-
-
 def _model_at(loc: list[str]) -> type[BaseModel]:
     model: Any = Scenario
     for i, part in enumerate(loc):
@@ -796,61 +317,3 @@ def _field_at(root: type[BaseModel], loc: list[str]) -> tuple[Any, int]:
         found, depth = field, i + 1
         model = _submodel(field.annotation)
     return found, depth
-
-
-def _allowed(field: Any) -> str | None:
-    """What values a schema field allows, in words, from its type and constraints (or its
-    ``description``, for fields whose rule is more than a type and a range)."""
-    if field.description:
-        return field.description
-    return _describe(field.annotation, field.metadata)
-
-
-def _describe(annotation: Any, metadata: list) -> str | None:
-    origin = typing.get_origin(annotation)
-    if origin is Annotated:
-        base, *extras = typing.get_args(annotation)
-        said = next((extra.description for extra in extras if getattr(extra, "description", None)), None)
-        if said:
-            return said
-        inner = [m for extra in extras for m in getattr(extra, "metadata", [extra])]
-        return _describe(base, [*metadata, *inner])
-    if origin in (typing.Union, types.UnionType):
-        parts = [_describe(member, metadata) for member in typing.get_args(annotation) if member is not type(None)]
-        return " or ".join(p for p in parts if p) or None
-    if origin is Literal:
-        values = [f'"{v}"' for v in typing.get_args(annotation)]
-        return values[0] if len(values) == 1 else "one of " + ", ".join(values)
-    if annotation is bool:
-        return "true or false"
-    if annotation is date:
-        return "a date written YYYY-MM-DD"
-    if annotation is str:
-        longest = next((m.max_length for m in metadata if getattr(m, "max_length", None)), None)
-        return "text" + (f" of at most {longest:,} characters" if longest else "")
-    if annotation in (int, float):
-        what = "a whole number" if annotation is int else "a number"
-        bound = {k: getattr(m, k) for m in metadata for k in ("ge", "gt", "le", "lt") if getattr(m, k, None) is not None}
-        low = (f"from {_number(bound['ge'])}" if "ge" in bound else
-               f"above {_number(bound['gt'])}" if "gt" in bound else "")
-        high = (f"to {_number(bound['le'])}" if "le" in bound else
-                f"below {_number(bound['lt'])}" if "lt" in bound else "")
-        if low and high:
-            return f"{what} {low} {high}" if low.startswith("from") else f"{what} {low}, at most {high[3:]}"
-        return " ".join(part for part in (what, low or ("up " + high if high else "")) if part)
-    if origin in (tuple, list):
-        item = _describe(typing.get_args(annotation)[0], [])
-        longest = next((m.max_length for m in metadata if getattr(m, "max_length", None)), None)
-        return ("a list" + (f" of at most {longest:,} entries" if longest else "")
-                + (f", each {item}" if item else ""))
-    return None
-
-
-def _number(value: float) -> str:
-    """A limit as a person writes it: 366, 0.5, -1e12."""
-    if value == int(value) and abs(value) < 1e10:
-        return f"{int(value):,}"
-    if abs(value) >= 1e6:
-        mantissa, exponent = f"{value:.3g}".split("e")
-        return f"{mantissa}e{int(exponent)}"
-    return f"{value:g}"

@@ -21,10 +21,11 @@ import pandas as pd
 
 from .dates import ISO, DateProblem, find_date_format, human_format, parse_dates
 from .errors import InputError
-from .history import history_frequency
-from .history import FALSE_WORDS as _FALSE
-from .history import TRUE_WORDS as _TRUE
-from .scenario import COST_KEYS, COST_PLACEHOLDER, WEEKDAYS
+from .history_calendar import history_frequency
+from .history_checks import FALSE_WORDS as _FALSE
+from .history_checks import TRUE_WORDS as _TRUE
+from .scenario_costs import COST_KEYS, COST_PLACEHOLDER
+from .scenario_types import WEEKDAYS
 from .sheets import SEPARATORS, Dialect, read_table
 
 __all__ = ["Layout", "find_layout", "starter_scenario", "write_scenario"]

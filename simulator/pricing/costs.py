@@ -14,7 +14,8 @@ import numpy as np
 
 from ..notation import decimals
 from ..inputs.history import History
-from ..inputs.scenario import BASELINES, Costs, break_even_probability
+from ..inputs.scenario_costs import Costs, break_even_probability
+from ..inputs.scenario_types import BASELINES
 from .counts import ReplicateCounts, SeasonCounter
 from .draws import CostDrawer, DrawnCosts
 from .scoring import Contingency

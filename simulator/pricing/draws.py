@@ -20,7 +20,7 @@ import numpy as np
 from scipy import stats
 
 from ..inputs.ranges import CostRange
-from ..inputs.scenario import COST_KEYS, Costs
+from ..inputs.scenario_costs import COST_KEYS, Costs
 from ..replay.resample import BLOCK, block_rng
 
 __all__ = ["COST_STREAM", "pert", "DrawnCosts", "CostDrawer"]

@@ -18,7 +18,7 @@ from . import scoring
 from .costs import price
 from .decision import per_cutoff
 from ..inputs.history import History
-from ..inputs.scenario import Costs
+from ..inputs.scenario_costs import Costs
 from .scoring import Contingency
 
 __all__ = ["cutoff_table", "history_table", "with_replicates", "forecast_scores", "forecast_quality",

@@ -34,8 +34,9 @@ from datetime import date
 
 import numpy as np
 
-from ..inputs.history import History, nearest_position, season_mask, season_start_month
-from ..inputs.scenario import SeasonSection
+from ..inputs.history import History
+from ..inputs.history_calendar import nearest_position, season_mask, season_start_month
+from ..inputs.scenario_tables import SeasonSection
 
 __all__ = ["BLOCK", "Calendar", "Resampler", "season_calendar", "calendar_warnings", "block_rng", "n_blocks", "nearest_position"]
 

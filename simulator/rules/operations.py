@@ -59,7 +59,9 @@ from ..pricing.costs import PricedBlock, baseline_actions
 from ..inputs.errors import InputError
 from ..inputs.history import History
 from ..replay.resample import Calendar
-from ..inputs.scenario import BASELINES, WEEKDAYS, OperationsSection, Scenario
+from ..inputs.scenario import Scenario
+from ..inputs.scenario_tables import OperationsSection
+from ..inputs.scenario_types import BASELINES, WEEKDAYS
 from ..pricing.scoring import cutoff_slots
 
 __all__ = ["COMPONENTS", "COUNTS", "OFF", "REGULAR", "OVERTIME", "WORK_UNIT", "Rules", "make_rules",

@@ -1,0 +1,132 @@
+"""The tables of the scenario schema that change other tables: ``[[stress]]`` and ``[sites."<name>"]``.
+
+A stress case replaces or multiplies costs and operating-rule prices (or changes the event rate,
+the skill, the noise, the block length); a site's table replaces the scenario's costs and operating
+rules for that site only. Both name keys of :class:`~simulator.inputs.scenario_costs.Costs` and
+:class:`~simulator.inputs.scenario_tables.OperationsSection`, so the keys are said once, there.
+"""
+
+from __future__ import annotations
+
+import typing
+from typing import Annotated
+
+from pydantic import Field, create_model, model_validator
+
+from .scenario_costs import Costs
+from .scenario_tables import OperationsSection
+from .scenario_types import MAX_FACTOR, Days, Factor, Money, Name, Price, Work, _Section
+
+__all__ = ["CostChanges", "OperationsChanges", "CostFactors", "OperationsFactors", "STRESS_CHANGES",
+           "StressCase", "SiteOperations", "SiteSection"]
+
+
+class _Changes(_Section):
+    def given(self) -> dict[str, float]:
+        """The keys given, with their values."""
+        return {k: v for k, v in self.model_dump().items() if v is not None}
+
+
+class CostChanges(_Changes):
+    """Cost keys a stress case replaces; unset keys stay as in [costs]."""
+
+    hit: Money | None = None
+    false_alarm: Money | None = None
+    miss: Money | None = None
+    correct_negative: Money | None = None
+
+
+class OperationsChanges(_Changes):
+    """Operating-rule prices (and the amount of work) a stress case replaces."""
+
+    day_rate: Price | None = None
+    standby_rate: Price | None = None
+    spoilage_cost: Price | None = None
+    damages_per_day_late: Price | None = None
+    unfinished_cost: Price | None = None
+    overtime_multiple: Annotated[float, Field(ge=1, le=100)] | None = None
+    work: Work | None = None
+
+
+def _factors(changes: type[_Changes]) -> type[_Changes]:
+    """The multipliers of the keys of ``changes``: each a factor from 0 to :data:`MAX_FACTOR`."""
+    name = changes.__name__.replace("Changes", "Factors")
+    return create_model(name, __base__=_Changes, __doc__=f"Factors for the keys of {changes.__name__}.",
+                        **{key: (Factor | None, None) for key in changes.model_fields})
+
+
+CostFactors = _factors(CostChanges)
+OperationsFactors = _factors(OperationsChanges)
+
+
+STRESS_CHANGES = ("event_rate", "costs", "cost_multipliers", "operations", "operations_multipliers",
+                  "skill", "noise", "block_days", "worst_seasons")
+
+
+class StressCase(_Section):
+    """One ``[[stress]]`` table: a named change to the world the season is priced in."""
+
+    name: Name
+    event_rate: Annotated[float, Field(gt=0, le=MAX_FACTOR)] | None = None
+    costs: CostChanges | None = None
+    cost_multipliers: CostFactors | None = None  # type: ignore[valid-type]
+    operations: OperationsChanges | None = None
+    operations_multipliers: OperationsFactors | None = None  # type: ignore[valid-type]
+    skill: Annotated[float, Field(ge=0, le=1)] | None = None
+    noise: Annotated[float, Field(ge=0, le=10)] | None = None  # sd on the log-odds scale
+    block_days: Days | None = None
+    worst_seasons: Annotated[int, Field(ge=1, le=1000)] | None = None
+
+    @model_validator(mode="after")
+    def _changes_something(self):
+        if all(getattr(self, key) is None for key in STRESS_CHANGES):
+            raise ValueError("a stress case needs at least one change: " + ", ".join(STRESS_CHANGES))
+        new = self.costs.given() if self.costs else {}
+        factors = self.cost_multipliers.given() if self.cost_multipliers else {}
+        both = sorted(set(new) & set(factors))
+        if both:
+            raise ValueError(f'"{both[0]}" has both a new value (costs) and a multiplier '
+                             "(cost_multipliers); keep one")
+        new = self.operations.given() if self.operations else {}
+        factors = self.operations_multipliers.given() if self.operations_multipliers else {}
+        both = sorted(set(new) & set(factors))
+        if both:
+            raise ValueError(f'"{both[0]}" has both a new value (operations) and a multiplier '
+                             "(operations_multipliers); keep one")
+        return self
+
+    def changed_operations(self, base: "OperationsSection") -> "OperationsSection":
+        """``base`` with this case's new operating-rule prices and multipliers applied."""
+        values = {}
+        values.update(self.operations.given() if self.operations else {})
+        for key, factor in (self.operations_multipliers.given() if self.operations_multipliers else {}).items():
+            current = getattr(base, key)
+            if current is None and key == "standby_rate":
+                current = base.day_rate
+            if current is not None:
+                values[key] = current * factor
+        return base.model_copy(update=values)
+
+    def changed_costs(self, base: Costs) -> Costs:
+        """``base`` with this case's new values and multipliers applied."""
+        values = base.model_dump()
+        values.update(self.costs.given() if self.costs else {})
+        for key, factor in (self.cost_multipliers.given() if self.cost_multipliers else {}).items():
+            values[key] = values[key] * factor
+        return Costs.model_construct(**values)  # a factor may take a cost past MAX_MONEY: still finite
+
+
+SiteOperations = create_model(
+    "SiteOperations", __base__=_Section, __doc__="Keys of [operations] a site replaces; unset keys "
+    "stay as in the scenario's [operations] (the merged rules are checked as a whole).",
+    **{key: (typing.Optional[field.rebuild_annotation()], None)
+       for key, field in OperationsSection.model_fields.items()})
+
+
+class SiteSection(_Section):
+    """One ``[sites."<name>"]`` table: the costs and operating rules of one site that differ from
+    the scenario's. Each given key replaces the scenario's value for that site only; the merged
+    section is checked as a whole (:meth:`Scenario.for_site`)."""
+
+    costs: CostChanges | None = None
+    operations: SiteOperations | None = None  # type: ignore[valid-type]
