@@ -32,7 +32,7 @@ def cost_doubt(s: Mapping[str, Any], cut: Callable[[float], str], unit: str, fin
     cur = s["currency"]
     listed = "; ".join(range_words(k, r, cur, unit) for k, r in ranges.items())
     spread = s.get("cost_spread")
-    means = "their PERT means (low + 4 x likely + high) / 6 stand in wherever one figure is needed"
+    means = "figures that need one cost use each range's PERT mean, (low + 4 x likely + high) / 6"
     if not spread or spread.get("share_from_costs") is None:
         wide = any(r["high"] > r["low"] for r in ranges.values())
         drawn = ("the season cost does not vary" if spread else
@@ -50,10 +50,9 @@ def cost_doubt(s: Mapping[str, Any], cut: Callable[[float], str], unit: str, fin
         "cost_doubt", f"Spread of the season cost at {at}",
         f"{weather} from the weather, {costs} from the cost ranges  (standard deviation {sd} a season; "
         f"{listed})",
-        f"Each simulated season draws the costs given as ranges ({listed}), so its cost holds both the "
-        f"weather and the doubt about those costs: at {at}, {weather} of the variance of the season cost "
-        f"(standard deviation {sd} a season) comes from the weather (which past days the season "
-        f"replays) and {costs} from the cost ranges; "
-        f"{means}.",
+        f"Each simulated season draws its own costs where they are given as ranges ({listed}). At {at}, "
+        f"{weather} of the variance of the season cost (standard deviation {sd} a season) comes from the "
+        f"weather and {costs} from the doubt about those costs. Figures that need one cost, such as the "
+        "break-even probability, use each range's PERT mean, (low + 4 x likely + high) / 6.",
         f"variance of the season cost, at cutoff {at}, over {n} simulated seasons (costs fixed at their "
         "means against drawn)")
