@@ -4,12 +4,12 @@ The rules demo (scenarios/line_marking_rules.toml: 3 crews, 150 working days and
 the season, 2,000 replicates, cutoffs 0 to 1 by 0.01, the 5 baselines) is priced two ways:
 
   (a) the straightforward way: every cutoff and every baseline of every replicate season played by
-      the simpy model (simulator.rules.operations.SimpyPricer), one season at a time, in one process. Too
-      slow to run whole here (about half an hour), it is timed on a random sample of replicate
-      seasons, each under all 106 lanes, and scaled up to 2,000 x 106 seasons; ``--full`` plays
-      them all;
+      the simpy model (simulator.rules.simpy_model.SimpyPricer), one season at a time, in one
+      process. Too slow to run whole here (about half an hour), it is timed on a random sample of
+      replicate seasons, each under all 106 lanes, and scaled up to 2,000 x 106 seasons; ``--full``
+      plays them all;
   (b) ours: ``run_history`` end to end (bootstrap draws, the vectorised twin of
-      simulator.rules.operations_fast for all replicates and cutoffs at once, decision, tables).
+      simulator.rules.vectorised_model for all replicates and cutoffs at once, decision, tables).
 
 Both price the same replicate seasons. On the sampled replicates the benchmark checks that the two
 give identical costs and the same recommended cutoff and break-even points. It prints both times
@@ -30,8 +30,8 @@ import numpy as np
 
 from simulator import read_history, read_scenario
 from simulator.pricing.decision import decide
-from simulator.rules.operations import SimpyPricer
-from simulator.rules.operations_fast import OperationsPricer
+from simulator.rules.simpy_model import SimpyPricer
+from simulator.rules.vectorised_model import OperationsPricer
 from simulator.replay.resample import Resampler, season_calendar
 from simulator.run import choose_mean_block, run_history
 

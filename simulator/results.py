@@ -21,7 +21,7 @@ from .inputs.history import History
 from .inputs.scenario import Scenario
 from .pricing.decision import Decision, Distribution, distribution
 from .replay.resample import Calendar
-from .rules.operations import OperationsResult
+from .rules.operations_result import OperationsResult
 
 __all__ = ["RunResult", "SiteResult", "Portfolio"]
 

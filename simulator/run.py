@@ -39,12 +39,14 @@ from .notation import decimals
 from .analysis.cost_spread import cost_spread
 from .pricing.costs import MODEL_AT_MEANS, PricedBlock, occasion_costs
 from .pricing.decision import decide
-from .pricing.scoring import relative_value_from_costs
 from .pricing.tables import cutoff_table, forecast_quality, history_table, with_replicates
+from .pricing.value import relative_value_from_costs
 from .replay.blocklength import optimal_block_length
 from .replay.resample import Calendar, Resampler, block_rng, calendar_warnings, season_calendar
 from .results import Portfolio, RunResult, SiteResult
-from .rules.operations import OperationsResult, UserProcess, make_rules
+from .rules.operating_rules import make_rules
+from .rules.operations_result import OperationsResult
+from .rules.simpy_model import UserProcess
 from .tasks.plan import _alongside, _executor, _forecast_costs, _price_all
 from .tasks.sites import _checked_sites, _sites_table, _Totals
 from .tasks.work import _INTERVAL_STREAM, Progress, _events_without_action, _forget, _pricer, _Work

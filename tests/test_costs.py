@@ -19,7 +19,7 @@ from simulator.inputs.history import history_from_frame
 from simulator.replay.resample import Resampler, season_calendar
 from simulator.inputs.scenario_costs import break_even_probability
 from simulator.inputs.scenario_types import BASELINES
-from simulator.pricing.scoring import Contingency
+from simulator.pricing.contingency import Contingency
 
 N_PER_BLOCK = 8  # replicates taken from each seeded block: enough for the oracle, quick to loop
 BLOCKS = (0, 1, 3)

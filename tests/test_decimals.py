@@ -20,11 +20,12 @@ from realdata import seattle_rain
 from simulator.notation import decimals
 from simulator.pricing.costs import SeasonPricer, baseline_actions
 from simulator.inputs.history import read_history
-from simulator.rules.operations import safety_stops
+from simulator.rules.operating_rules import safety_stops
 from simulator.run import run_history
 from simulator.inputs.scenario import cutoff_grid, read_scenario
 from simulator.inputs.scenario_costs import Costs
-from simulator.pricing.scoring import cutoff_slots, reliability_table
+from simulator.pricing.contingency import cutoff_slots
+from simulator.pricing.scoring import reliability_table
 
 GRID = [Decimal(k) / 100 for k in range(101)]  # the default [decision] cutoffs, as written
 

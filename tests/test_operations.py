@@ -24,8 +24,9 @@ from hypothesis import strategies as st
 from simulator import read_history, read_scenario
 from simulator.pricing.costs import SeasonPricer
 from simulator.inputs.errors import InputError
-from simulator.rules.operations import (COMPONENTS, REGULAR, SimpyPricer, make_rules, play_season)
-from simulator.rules.operations_fast import OperationsPricer, play_seasons
+from simulator.rules.operating_rules import COMPONENTS, REGULAR, make_rules
+from simulator.rules.simpy_model import SimpyPricer, play_season
+from simulator.rules.vectorised_model import OperationsPricer, play_seasons
 from simulator.account.outputs import summary
 from simulator.replay.resample import Resampler, season_calendar
 from simulator.run import run_history

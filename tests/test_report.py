@@ -370,7 +370,7 @@ def test_run_length_of_the_replay_is_explained_where_it_is_given(demo_out):
 
 
 def test_every_day_count_of_the_operating_rules_says_what_it_counts(tmp_path):
-    from simulator.rules.operations import COUNTS
+    from simulator.rules.operating_rules import COUNTS
 
     text = OPERATIONS_TOML.replace("damages_per_day_late = 40", "damages_per_day_late = 40\nmax_standby_days = 2")
     s, files = _run_variant(tmp_path / "retention", text)

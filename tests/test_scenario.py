@@ -209,7 +209,7 @@ def test_a_cost_that_is_not_finite_or_absurd_is_refused_saying_what_is_allowed(v
 
 def test_every_number_key_of_the_schema_has_a_range():
     # a number key without bounds would let NaN's cousins (1e308) through: walk the whole schema
-    from simulator.inputs import scenario_words as schema
+    from simulator.inputs import allowed_values as schema
     from simulator.inputs.scenario import Scenario
 
     unbounded = []

@@ -1,5 +1,6 @@
-"""Scores and values of simulator.pricing.scoring, checked against published tables, identities and
-reference libraries (scikit-learn, scipy) on random data and on an open daily weather record."""
+"""Counts, rates, scores and values of simulator.pricing (contingency, rates, scoring, value), checked
+against published tables, identities and reference libraries (scikit-learn, scipy) on random data and
+on an open daily weather record."""
 
 import numpy as np
 import pytest
@@ -8,24 +9,22 @@ from sklearn.calibration import calibration_curve
 from sklearn.linear_model import LogisticRegression
 from sklearn.metrics import brier_score_loss, confusion_matrix, roc_auc_score, roc_curve
 
+from simulator.pricing.contingency import Contingency, count_at_cutoffs
+from simulator.pricing.rates import false_alarm_rate, hit_rate, peirce_score, rates
 from simulator.pricing.scoring import (
-    Contingency,
     brier_decomposition,
     brier_score,
     brier_skill_score,
-    count_at_cutoffs,
-    false_alarm_rate,
-    hit_rate,
     mid_ranks,
-    net_benefit,
-    net_benefit_treat_all,
-    peirce_score,
-    rates,
-    relative_value,
-    relative_value_from_costs,
     reliability_table,
     roc_auc,
     roc_points,
+)
+from simulator.pricing.value import (
+    net_benefit,
+    net_benefit_treat_all,
+    relative_value,
+    relative_value_from_costs,
     value_curve,
 )
 

@@ -20,7 +20,7 @@ from simulator.replay.resample import Resampler, season_calendar
 from simulator.run import run, run_history
 from simulator.inputs.scenario import read_scenario, scenario_from_text
 from simulator.inputs.history import history_from_frame
-from simulator.analysis.stress import degrade, prior_shift, shift_odds
+from simulator.analysis.probability_changes import degrade, prior_shift, shift_odds
 
 REPLICATES = 120  # small: these tests check identities and wiring, not precision
 

@@ -19,7 +19,7 @@ from scipy import stats
 
 from realdata import seattle_rain, sp500_up, wti_big_move, with_noise_forecast
 from simulator.inputs.history import history_from_frame
-from simulator.rules.operations import SimpyPricer
+from simulator.rules.simpy_model import SimpyPricer
 from simulator.replay.resample import season_calendar
 from simulator.run import run, run_history
 from simulator.inputs.scenario import read_scenario, scenario_from_text

@@ -7,7 +7,7 @@ same words. A cost-optimal cutoff is a budget figure; where the event is a hazar
 
 from __future__ import annotations
 
-from ..rules.operations import CAUTION as RULES_CAUTION
+from ..rules.operations_result import CAUTION as RULES_CAUTION
 from ..inputs.scenario import Scenario
 
 __all__ = ["GENERAL", "hazard_caution", "cautions"]

@@ -1,9 +1,11 @@
 """Questions asked of the priced replicates: stress cases, the honest check, the verdict, forecasts.
 
-``stress`` reprices rarer-event and costlier years; ``selection`` chooses the cutoff on training
-seasons and prices it on validation ones (and calibrates); ``verdict`` holds each past season out
-in turn to say whether the forecast beats the best rule that ignores it; ``forecasts`` compares
-several forecasts on the same replicate seasons.
+``stress`` reprices rarer-event and costlier years, with ``tilt`` (moving the replicates' event
+rate), ``probability_changes`` (the forecast moved to a new rate, stripped of skill or blurred) and
+``replicate_pricer`` (replicate seasons priced with those changes); ``selection`` chooses the
+cutoff on training seasons and prices it on validation ones (and calibrates); ``verdict`` holds
+each past season out in turn to say whether the forecast beats the best rule that ignores it;
+``forecasts`` compares several forecasts on the same replicate seasons.
 
 May import: ``rules``, ``pricing``, ``replay``, ``inputs``, ``notation``.
 """

@@ -37,12 +37,12 @@ import numpy as np
 import pandas as pd
 
 from ..notation import decimals
-from ..pricing import scoring
+from ..pricing import contingency, rates, scoring
 from ..pricing.costs import SeasonPricer, baseline_actions, occasion_costs, price
 from ..pricing.decision import OBJECTIVE_COLUMN, lowest, season_cost_columns
 from ..inputs.errors import InputError
 from ..inputs.history import History
-from ..rules.operations_fast import OperationsPricer
+from ..rules.vectorised_model import OperationsPricer
 from ..replay.resample import Calendar, Resampler, nearest_position
 from ..inputs.scenario import Scenario
 from ..inputs.scenario_costs import Costs
@@ -383,7 +383,7 @@ def _period_costs(c: _Context, mask: np.ndarray, known: np.ndarray) -> tuple[np.
     h = c.history
     learnt = dataclasses.replace(h, evaluated=known, validation=np.zeros_like(known))
     if c.rules is None:
-        counts = scoring.count_at_cutoffs(h.p[mask], h.event[mask], c.cutoffs)
+        counts = contingency.count_at_cutoffs(h.p[mask], h.event[mask], c.cutoffs)
         actions = baseline_actions(learnt, c.costs)[c.reference]
         reference = float(occasion_costs(actions[mask], h.event[mask], c.costs).sum())
         return price(counts, c.costs), reference, int(mask.sum())
@@ -406,8 +406,8 @@ def _seasons_on_calendar(history: History, mask: np.ndarray, calendar: Calendar)
 def _record(c: _Context, period: str, mask: np.ndarray, known: np.ndarray, index: int) -> PeriodRecord:
     """The period's classification matrix and rates at the chosen cutoff, and what it cost."""
     history, cutoff = c.history, float(c.cutoffs[index])
-    counts = scoring.count_at_cutoffs(history.p[mask], history.event[mask], np.array([cutoff]))[0]
-    r = scoring.rates(counts)
+    counts = contingency.count_at_cutoffs(history.p[mask], history.event[mask], np.array([cutoff]))[0]
+    r = rates.rates(counts)
     costs, _, n_priced = _period_costs(c, mask, known)
     cost = float(costs[index])
     n = int(mask.sum())

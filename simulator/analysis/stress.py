@@ -5,15 +5,17 @@ for every strategy and cutoff:
 
 - ``event_rate``: the event happens that many times as often. The replay is tilted towards (or
   away from) runs of history that contain events, so replicates stay real stretches of history
-  (:func:`tilt_to_rate`); selecting runs by their outcomes leaves the forecast's distribution given
-  the outcome as it was, a pure change of base rate. In the calibrated mode the base replicates are
-  kept and their outcomes drawn with the odds rescaled (:func:`odds_shift_to_rate`), the same kind
-  of change. Two views are priced: the forecast's probabilities as issued (it keeps its
-  discrimination but is no longer calibrated, as when the world changes under a model), and the
-  probabilities adapted to the new rate by Bayes' rule (:func:`prior_shift`).
+  (:func:`~simulator.analysis.tilt.tilt_to_rate`); selecting runs by their outcomes leaves the
+  forecast's distribution given the outcome as it was, a pure change of base rate. In the
+  calibrated mode the base replicates are kept and their outcomes drawn with the odds rescaled
+  (:func:`~simulator.analysis.tilt.odds_shift_to_rate`), the same kind of change. Two views are
+  priced: the forecast's probabilities as issued (it keeps its discrimination but is no longer
+  calibrated, as when the world changes under a model), and the probabilities adapted to the new
+  rate by Bayes' rule (:func:`~simulator.analysis.probability_changes.prior_shift`).
 - ``costs`` / ``cost_multipliers``: new values or factors for cost keys.
-- ``skill``: probabilities pulled towards the base rate (:func:`degrade`); ``noise``: normal noise
-  of that standard deviation added on the log-odds scale, fresh for every replicate occasion.
+- ``skill``: probabilities pulled towards the base rate
+  (:func:`~simulator.analysis.probability_changes.degrade`); ``noise``: normal noise of that
+  standard deviation added on the log-odds scale, fresh for every replicate occasion.
 - ``block_days``: a longer mean run of consecutive occasions (more persistent weather).
 - ``worst_seasons``: replicates built only from the k historical seasons with the highest cost per
   occasion at the base case's recommended cutoff.
@@ -23,9 +25,6 @@ changes only costs or the forecast is priced on exactly the base replicates (its
 the base are paired), and ``event_rate = 1`` reproduces the base case exactly. Cases that change how
 replicates are built (tilt, block length, seasons) reuse the same random numbers, which keeps them
 close to the base without making them identical.
-
-scipy is imported inside the functions that use it: its modules take about a second to import, at
-every start of the command and of every worker, and most runs need none of them.
 """
 
 from __future__ import annotations
@@ -39,261 +38,23 @@ import numpy as np
 
 from ..notation import decimals
 from ..notation.prose import money
-from ..pricing.costs import MODEL_AT_MEANS, PricedBlock, SeasonPricer, baseline_actions, occasion_costs, price
-from ..pricing.draws import CostDrawer
+from ..pricing.costs import PricedBlock, occasion_costs
 from ..pricing.decision import OBJECTIVE_NAMES, Decision, Distribution, cheaper, decide, distribution, objective_cost
 from ..inputs.errors import InputError
 from ..inputs.history import History
-from ..rules.operations_fast import OperationsPricer
-from ..replay.resample import Calendar, Resampler, block_rng
+from ..rules.vectorised_model import OperationsPricer
+from ..replay.resample import Calendar, Resampler
 from ..inputs.scenario import Scenario
 from ..inputs.scenario_changes import StressCase
 from ..inputs.scenario_costs import Costs, break_even_probability
 from ..inputs.scenario_types import BASELINES
-from ..pricing.scoring import Contingency, counts_from_slots, cutoff_slots
+from .probability_changes import degrade, prior_shift, shift_odds
+from .replicate_pricer import ReplicatePricer
+from .tilt import Tilt, odds_shift_to_rate, tilt_to_rate
 
-__all__ = ["prior_shift", "degrade", "log_odds_noise", "run_event_share", "Tilt", "tilt_to_rate",
-           "shift_odds", "odds_shift_to_rate",
-           "ReplicatePricer", "EventRateCheck", "StressView", "StressResult", "run_stress",
-           "OUTCOME_STREAM", "PILOT_REPLICATES"]
+__all__ = ["EventRateCheck", "StressView", "StressResult", "run_stress"]
 
-# seed streams (spawn_key prefixes); run.py uses 1, selection.py 45
-TILT_STREAM = 41  # pilot replicates that set the tilt
-NOISE_STREAM = 42  # log-odds noise, with a key made from the case's name
-OUTCOME_STREAM = 43  # outcomes drawn in the calibrated mode (shared by the base and every case)
-PILOT_REPLICATES = 1000
-TILT_LIMIT = 200.0  # |theta| searched; weights exp(theta * (share - 0.5)) stay finite and positive
 REACHED_SE = 3.0  # a target counts as reached within this many standard errors
-
-
-# ------------------------------------------------------------------------------------------------
-# changing the forecast
-
-def prior_shift(p: np.ndarray, base_rate: float, new_rate: float) -> np.ndarray:
-    """Probabilities calibrated at ``base_rate`` moved to a world whose event rate is ``new_rate``.
-
-    p' = b'(p - p b) / (b - p b + b' p - b b'), which is Bayes' rule with the prior odds rescaled
-    by [b'/(1-b')] / [b/(1-b)], assuming the class-conditional distributions of the forecast stay
-    as they were (Elkan 2001, Theorem 2; Saerens, Latinne and Decaestecker
-    2002, section 2; equation numbers from memory, check).
-    Returns ``p`` itself when the rates are equal.
-
-    References
-    ----------
-    Elkan, C. (2001). The foundations of cost-sensitive learning. IJCAI 2001, 973-978.
-    Saerens, M., Latinne, P. and Decaestecker, C. (2002). Adjusting the outputs of a classifier to
-    new a priori probabilities: a simple procedure. Neural Computation 14(1), 21-41.
-    """
-    p = np.asarray(p, dtype=float)
-    b, b2 = float(base_rate), float(new_rate)
-    if not (0 < b < 1 and 0 < b2 < 1):
-        raise ValueError(f"base rates must lie strictly between 0 and 1, got {b} and {b2}")
-    if b == b2:
-        return p
-    return b2 * (p - p * b) / (b - p * b + b2 * p - b * b2)
-
-
-def degrade(p: np.ndarray, base_rate: float, skill: float) -> np.ndarray:
-    """Probabilities keeping ``skill`` of their distance from the base rate: b + skill (p - b).
-
-    ``skill = 1`` leaves them as they are, ``skill = 0`` turns them into the base rate (a
-    climatological forecast with no discrimination). A linear shrinkage towards climatology;
-    common practice, no single source.
-    """
-    p = np.asarray(p, dtype=float)
-    if skill == 1:
-        return p
-    return base_rate + skill * (p - base_rate)
-
-
-def log_odds_noise(p: np.ndarray, sd: float, rng: np.random.Generator) -> np.ndarray:
-    """``p`` with independent normal noise of standard deviation ``sd`` added to its log-odds.
-
-    Probabilities of exactly 0 or 1 are first moved to 0.001 or 0.999, so noise can reach them.
-    """
-    from scipy.special import expit, logit  # imported here: see the module docstring
-
-    p = np.clip(np.asarray(p, dtype=float), 1e-3, 1 - 1e-3)
-    return expit(logit(p) + sd * rng.standard_normal(p.shape))
-
-
-# ------------------------------------------------------------------------------------------------
-# tilting the replay towards a target event rate
-
-def run_event_share(expected_event: np.ndarray, history: History, mean_block: float) -> np.ndarray:
-    """Expected share of events in a run that starts at each history row, (n_rows,) in [0, 1].
-
-    With run lengths geometric of mean m (stopping at the season's end), a run from row r covers
-    r + j with probability (1 - 1/m)^j, so the share is sum_j a^j e_{r+j} / sum_j a^j, a = 1 - 1/m,
-    over the evaluated rows of r's season. Rows outside the evaluated history get 0.
-    """
-    from scipy.signal import lfilter  # imported here: see the module docstring
-
-    out = np.zeros(history.n_rows)
-    rows = np.flatnonzero(history.evaluated)
-    a = 1.0 - 1.0 / mean_block
-    season = history.season[rows]
-    cuts = np.flatnonzero(np.diff(season)) + 1
-    for part in np.split(rows, cuts):
-        # backward recursion s_r = e_r + a s_{r+1}: a first-order filter run on the reversed season
-        ahead = lfilter([1.0], [1.0, -a], np.asarray(expected_event, dtype=float)[part][::-1])[::-1]
-        length = lfilter([1.0], [1.0, -a], np.ones(part.size))[::-1]
-        out[part] = ahead / length
-    return out
-
-
-@dataclass(frozen=True)
-class Tilt:
-    """Start weights that bring the replicates' event rate to ``target`` (when it can be reached).
-
-    ``lowest`` and ``highest`` are the event rates the pilot replicates reach at the strongest tilt
-    either way; ``rate`` and ``standard_error`` the pilot's rate at the chosen tilt.
-    """
-
-    theta: float
-    weights: np.ndarray | None
-    target: float
-    lowest: float
-    highest: float
-    reachable: bool
-    rate: float
-    standard_error: float
-
-
-def tilt_to_rate(resampler: Resampler, expected_event: np.ndarray, target: float, seed: int,
-                 pilot_replicates: int = PILOT_REPLICATES) -> Tilt:
-    """Find the tilt of ``resampler`` under which replicates have mean event rate ``target``.
-
-    Runs are started from history rows with weight exp(theta (s_r - 1/2)), s_r the expected event
-    share of a run from row r (:func:`run_event_share`): an exponential tilt of the run choice, the
-    device of importance sampling (theta > 0 favours runs with events). theta is found by Brent's
-    method on the mean event rate of ``pilot_replicates`` replicates drawn on their own seed stream
-    with common random numbers across theta. When the target lies outside what the strongest tilt
-    reaches, the nearest extreme is returned with ``reachable`` False.
-
-    ``expected_event`` is the event (0/1) of each history row in the replay, or its recalibrated
-    probability in the calibrated mode.
-    """
-    from scipy.optimize import brentq  # imported here: see the module docstring
-
-    expected_event = np.asarray(expected_event, dtype=float)
-    share = run_event_share(expected_event, resampler.history, resampler.mean_block) - 0.5
-
-    def weights(theta: float) -> np.ndarray:
-        return np.exp(theta * share)
-
-    def pilot(theta: float) -> np.ndarray:
-        tilted = resampler.tilted(weights(theta))
-        return np.concatenate([expected_event[rows].mean(axis=1)
-                               for rows in tilted.blocks(seed, pilot_replicates, TILT_STREAM)])
-
-    def gap(theta: float) -> float:
-        return float(pilot(theta).mean() - target)
-
-    lowest, highest = gap(-TILT_LIMIT) + target, gap(TILT_LIMIT) + target
-    reachable = lowest <= target <= highest
-    if target <= lowest:
-        theta = -TILT_LIMIT
-    elif target >= highest:
-        theta = TILT_LIMIT
-    else:
-        theta = float(brentq(gap, -TILT_LIMIT, TILT_LIMIT, xtol=1e-4))
-    rates = pilot(theta)
-    return Tilt(theta=theta, weights=weights(theta), target=float(target), lowest=float(lowest),
-                highest=float(highest), reachable=bool(reachable), rate=float(rates.mean()),
-                standard_error=float(rates.std(ddof=1) / np.sqrt(rates.size)))
-
-
-def shift_odds(p: np.ndarray, log_factor: float) -> np.ndarray:
-    """Probabilities with their odds multiplied by exp(``log_factor``): Bayes' rule for a change of
-    base rate (see :func:`prior_shift`, which names the factor by the two base rates)."""
-    p = np.asarray(p, dtype=float)
-    factor = np.exp(log_factor)
-    return factor * p / (factor * p + 1.0 - p)
-
-
-def odds_shift_to_rate(expected: np.ndarray, target: float) -> Tilt:
-    """The odds factor that moves outcome probabilities ``expected`` (any shape) to mean ``target``.
-
-    The calibrated mode's event-rate change: outcomes are drawn from the recalibrated probabilities
-    with their odds rescaled (a pure change of base rate, the assumption of Saerens et al. 2002), on
-    the base replicates themselves. ``theta`` of the returned :class:`Tilt` is the log factor; the
-    reachable range runs from the share of occasions certain to have the event to the share that
-    may have it.
-    """
-    from scipy.optimize import brentq  # imported here: see the module docstring
-
-    expected = np.asarray(expected, dtype=float).ravel()
-    lowest, highest = float((expected >= 1).mean()), float((expected > 0).mean())
-    reachable = lowest < target < highest
-    if reachable:
-        theta = float(brentq(lambda t: shift_odds(expected, t).mean() - target, -TILT_LIMIT, TILT_LIMIT,
-                             xtol=1e-10))
-    else:
-        theta = TILT_LIMIT if target >= highest else -TILT_LIMIT
-    rate = float(shift_odds(expected, theta).mean())
-    return Tilt(theta=theta, weights=None, target=float(target), lowest=lowest, highest=highest,
-                reachable=bool(reachable), rate=rate, standard_error=0.0)
-
-
-# ------------------------------------------------------------------------------------------------
-# pricing replicates with the forecast or the outcomes changed
-
-class ReplicatePricer:
-    """Prices replicate seasons like :class:`~simulator.costs.SeasonPricer`, with changes.
-
-    Parameters
-    ----------
-    history, cutoffs, costs : as for ``SeasonPricer``.
-    seed : the run's seed; noise and drawn outcomes of block ``b`` come from ``SeedSequence(seed,
-        spawn_key=(stream, ..., b))``, so they depend only on the replicate's number.
-    forecast : (n_rows,) probabilities to act on instead of the history's.
-    outcome_probability : (n_rows,) when given, outcomes are drawn afresh, Bernoulli with these
-        probabilities, for every replicate occasion (the calibrated mode); persistence then acts
-        on the previous drawn outcome and the perfect forecast knows the drawn outcome.
-    noise_sd, noise_key : log-odds noise (:func:`log_odds_noise`), seeded with ``noise_key``.
-    drawer : the costs given as ranges, drawn per replicate (as for ``SeasonPricer``).
-
-    With none of these changes it is exactly ``SeasonPricer``.
-    """
-
-    def __init__(self, history: History, cutoffs: np.ndarray, costs: Costs, *, seed: int,
-                 forecast: np.ndarray | None = None, outcome_probability: np.ndarray | None = None,
-                 noise_sd: float = 0.0, noise_key: int = 0, drawer: CostDrawer | None = None):
-        forecast = history.p if forecast is None else np.asarray(forecast, dtype=float)
-        self._season_pricer = SeasonPricer(dataclasses.replace(history, p=forecast), cutoffs, costs, drawer)
-        self._simple = outcome_probability is None and noise_sd == 0
-        self._history, self._forecast, self._costs = history, forecast, costs
-        self._cutoffs = cutoffs
-        self._outcome_probability = outcome_probability
-        self._noise_sd, self._noise_key, self._seed = float(noise_sd), int(noise_key), int(seed)
-        actions = baseline_actions(history, costs)
-        self._actions = np.stack([actions[name] for name in BASELINES], axis=1)  # (n_rows, n_baselines)
-
-    def __call__(self, rows: np.ndarray, block: int) -> PricedBlock:
-        if self._simple:
-            return self._season_pricer(rows, block)
-        p = self._forecast[rows]
-        if self._noise_sd > 0:
-            rng = block_rng(self._seed, block, NOISE_STREAM, self._noise_key)
-            p = log_odds_noise(p, self._noise_sd, rng)
-        acts = self._actions[rows]  # (n_rep, n_occ, n_baselines)
-        if self._outcome_probability is None:
-            event = self._history.event[rows]
-        else:
-            u = block_rng(self._seed, block, OUTCOME_STREAM).random(rows.shape)
-            event = u < self._outcome_probability[rows]
-            previous = np.concatenate([self._history.prev_event[rows[:, :1]], event[:, :-1]], axis=1)
-            acts[..., BASELINES.index("persistence")] = previous
-            acts[..., BASELINES.index("perfect")] = event
-        counts = counts_from_slots(cutoff_slots(p, self._cutoffs), event, self._cutoffs.size)
-        happened = event[..., None]
-        held = Contingency(*(cell.sum(axis=1) for cell in (acts & happened, acts & ~happened,
-                                                           ~acts & happened, ~acts & ~happened)))
-        costs = self._season_pricer.costs_of(block, rows.shape[0])
-        extras = {} if costs is self._costs else {MODEL_AT_MEANS: price(counts, self._costs)}
-        return PricedBlock(model=price(counts, costs), baselines=price(held, costs), n_events=event.sum(axis=1),
-                           extras=extras)
 
 
 # ------------------------------------------------------------------------------------------------

@@ -47,7 +47,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..pricing import scoring
+from ..pricing.contingency import count_at_cutoffs
 from ..notation.prose import money  # the one formatter of money in prose (as stress.py uses it)
 from ..pricing.costs import baseline_actions, occasion_costs, price
 from ..inputs.history import History
@@ -204,7 +204,7 @@ def season_costs(history: History, calendar: Calendar, cutoffs: np.ndarray, scen
                                   validation=np.zeros_like(evaluated)) for s in seasons]
     if scenario.operations is None:
         return _with_costs(history, cutoffs, scenario, seasons, learnt)
-    from ..rules.operations_fast import OperationsPricer
+    from ..rules.vectorised_model import OperationsPricer
     from ..inputs.scenario_types import BASELINES
     from .selection import _seasons_on_calendar  # each past season laid on the priced calendar
 
@@ -230,7 +230,7 @@ def _with_costs(history: History, cutoffs: np.ndarray, scenario: Scenario, seaso
     index = np.searchsorted(seasons, history.season[evaluated])  # each evaluated row's season
     p, event = history.p[evaluated], history.event[evaluated]
     k = seasons.size
-    model = np.stack([price(scoring.count_at_cutoffs(p[index == i], event[index == i], cutoffs), costs)
+    model = np.stack([price(count_at_cutoffs(p[index == i], event[index == i], cutoffs), costs)
                       for i in range(k)])
     rules = np.empty((k, k, len(RULES)))
     for f, h in enumerate(learnt):

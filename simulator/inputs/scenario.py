@@ -4,7 +4,7 @@ One schema, :class:`Scenario`, is the single source of truth for every key a use
 tables are in ``scenario_tables``, ``scenario_costs`` and ``scenario_changes``, their limits and
 types in ``scenario_types``. Unknown keys are errors that name the key and the closest valid one;
 every problem is one line naming the file and the key, with what values are allowed
-(``scenario_words``). A run too large to hold is refused here too, before any work
+(``allowed_values``). A run too large to hold is refused here too, before any work
 (:func:`check_workload`).
 """
 
@@ -27,7 +27,7 @@ from .scenario_tables import (DecisionSection, EventSection, HistorySection, Ope
                               SimulationSection)
 from .scenario_types import (MAX_CURRENCY, MAX_FORECASTS, MAX_SCENARIO_BYTES, MAX_SEASON_COSTS, MAX_TEXT, Name,
                              _Section)
-from .scenario_words import _allowed, _submodel
+from .allowed_values import _allowed, _submodel
 
 __all__ = ["Scenario", "read_scenario", "scenario_from_text", "cutoff_grid", "check_workload", "CostRange"]
 

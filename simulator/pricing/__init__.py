@@ -1,9 +1,12 @@
 """Counts at every cutoff and what they cost: the contingency tables, costs, scores and the decision.
 
-``tables`` counts hits, misses, false alarms and correct negatives at every cutoff; ``costs`` is
-the one place counts become money; ``scoring`` holds the forecast-quality scores (Brier, ROC,
-reliability, relative economic value); ``decision`` picks the recommended cutoff by the chosen
-objective and states break-even ranges. Pure array functions: no files, no printing.
+``contingency`` counts hits, misses, false alarms and correct negatives at every cutoff, and
+``rates`` turns them into hit rate, false alarm rate and the like; ``counts`` counts replicate
+seasons at every cutoff and every baseline; ``costs`` is the one place counts become money;
+``scoring`` holds the scores of the probabilities (Brier, ROC, reliability); ``value`` the value of
+acting on them (relative economic value, net benefit); ``tables`` lays all of these out for the
+history; ``decision`` picks the recommended cutoff by the chosen objective and states break-even
+ranges. Pure array functions: no files, no printing.
 
 May import: ``replay``, ``inputs``, ``notation``.
 """

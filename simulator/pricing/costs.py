@@ -16,9 +16,9 @@ from ..notation import decimals
 from ..inputs.history import History
 from ..inputs.scenario_costs import Costs, break_even_probability
 from ..inputs.scenario_types import BASELINES
+from .contingency import Contingency
 from .counts import ReplicateCounts, SeasonCounter
 from .draws import CostDrawer, DrawnCosts
-from .scoring import Contingency
 
 __all__ = ["price", "occasion_costs", "baseline_actions", "SeasonPricer", "PricedBlock", "MODEL_AT_MEANS"]
 

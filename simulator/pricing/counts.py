@@ -6,9 +6,9 @@ priced by :func:`simulator.pricing.costs.price`, the one place counts become mon
 costs or with costs drawn per replicate (costs known only as a range).
 
 - The model at every cutoff: each history row gets its slot once (how many cutoffs its
-  probability reaches, :func:`~simulator.pricing.scoring.cutoff_slots`), so one bincount over a
+  probability reaches, :func:`~simulator.pricing.contingency.cutoff_slots`), so one bincount over a
   block's rows split by event and a reversed cumulative sum over slots give every cutoff at once
-  (:func:`~simulator.pricing.scoring.counts_from_slots`).
+  (:func:`~simulator.pricing.contingency.counts_from_slots`).
 - The baselines: every history row has one of a few patterns of (event, what each baseline does);
   a replicate's counts follow from how often it holds each pattern (one bincount and a product).
 """
@@ -20,7 +20,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .scoring import Contingency, counts_from_slots, cutoff_slots
+from .contingency import Contingency, counts_from_slots, cutoff_slots
 
 __all__ = ["ReplicateCounts", "SeasonCounter"]
 

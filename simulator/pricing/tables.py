@@ -19,7 +19,9 @@ from .costs import price
 from .decision import per_cutoff
 from ..inputs.history import History
 from ..inputs.scenario_costs import Costs
-from .scoring import Contingency
+from .contingency import Contingency, count_at_cutoffs
+from .rates import rates
+from .value import net_benefit, relative_value, relative_value_from_costs, value_curve
 
 __all__ = ["cutoff_table", "history_table", "with_replicates", "forecast_scores", "forecast_quality",
            "forecast_value_curve"]
@@ -52,11 +54,11 @@ def history_table(parts: Sequence[tuple[History, Costs]], cutoffs: np.ndarray, p
         periods.update({"training_": lambda h: h.training, "validation_": lambda h: h.validation})
     columns: dict[str, np.ndarray] = {"cutoff": cutoffs}
     for prefix, period in periods.items():
-        each = [(scoring.count_at_cutoffs(h.p[period(h)], h.event[period(h)], cutoffs), costs)
+        each = [(count_at_cutoffs(h.p[period(h)], h.event[period(h)], cutoffs), costs)
                 for h, costs in parts]
         counts = _sum([c for c, _ in each], lambda a, b: Contingency(*(x + y for x, y in zip(
             dataclasses.astuple(a), dataclasses.astuple(b)))))
-        r = scoring.rates(counts)
+        r = rates(counts)
         columns.update({
             f"{prefix}hits": counts.hits, f"{prefix}false_alarms": counts.false_alarms,
             f"{prefix}misses": counts.misses, f"{prefix}correct_negatives": counts.correct_negatives,
@@ -71,9 +73,9 @@ def history_table(parts: Sequence[tuple[History, Costs]], cutoffs: np.ndarray, p
             never = _sum([price(Contingency(0, 0, c.n_events, c.n_non_events), costs) for c, costs in each]) / n
             always = _sum([price(Contingency(c.n_events, c.n_non_events, 0, 0), costs) for c, costs in each]) / n
             perfect = _sum([price(Contingency(c.n_events, 0, 0, c.n_non_events), costs) for c, costs in each]) / n
-            columns["net_benefit"] = (scoring.net_benefit(counts.hits, counts.false_alarms, n, p_star)
+            columns["net_benefit"] = (net_benefit(counts.hits, counts.false_alarms, n, p_star)
                                       if not np.isnan(p_star) else np.full(cutoffs.size, np.nan))
-            columns["relative_value"] = scoring.relative_value_from_costs(expense, never, always, perfect)
+            columns["relative_value"] = relative_value_from_costs(expense, never, always, perfect)
     return pd.DataFrame(columns)
 
 
@@ -107,14 +109,14 @@ def forecast_value_curve(history: History, cutoffs: np.ndarray) -> pd.DataFrame:
     """Relative economic value across cost-loss ratios (Richardson 2000): the potential value (best
     cutoff for each ratio) and the value of acting at a cutoff equal to the ratio."""
     p, event = history.p[history.evaluated], history.event[history.evaluated]
-    counts = scoring.count_at_cutoffs(p, event, cutoffs)
+    counts = count_at_cutoffs(p, event, cutoffs)
     ratios = decimals.grid(0.01, 0.99, 0.01)
     base_rate = float(event.mean())
-    at_ratio = scoring.count_at_cutoffs(p, event, ratios)
-    r_at = scoring.rates(at_ratio)
+    at_ratio = count_at_cutoffs(p, event, ratios)
+    r_at = rates(at_ratio)
     return pd.DataFrame({
         "cost_loss_ratio": ratios,
-        "potential_value": scoring.value_curve(counts, ratios),
-        "value_at_cutoff_equal_to_ratio": scoring.relative_value(r_at.hit_rate, r_at.false_alarm_rate,
+        "potential_value": value_curve(counts, ratios),
+        "value_at_cutoff_equal_to_ratio": relative_value(r_at.hit_rate, r_at.false_alarm_rate,
                                                                  base_rate, ratios),
     })

@@ -1,8 +1,10 @@
 """Operating rules: seasons played day by day under crews, deadlines and safety stops.
 
-``operations`` holds the rules of ``[operations]`` and the simpy model that plays them (the
-readable reference); ``operations_fast`` is its vectorised twin, checked against it, that prices
-every replicate and cutoff at once.
+``operating_rules`` states the rules of ``[operations]`` and lays them on the priced season;
+``simpy_model`` plays them event by event with simpy (the readable reference, and the engine for
+rules users write as simpy processes); ``vectorised_model`` is its twin, checked against it, that
+plays every replicate and cutoff at once; ``season_cost`` prices what either played;
+``operations_result`` holds a run's operations extras and writes its summary block.
 
 May import: ``pricing``, ``replay``, ``inputs``, ``notation``.
 """

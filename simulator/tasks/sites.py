@@ -24,7 +24,7 @@ from ..pricing.decision import Decision, decide
 from ..pricing.tables import cutoff_table, forecast_scores
 from ..replay.resample import Resampler, block_rng
 from ..results import SiteResult
-from ..rules.operations import OperationsResult
+from ..rules.operations_result import OperationsResult
 from .work import _INTERVAL_STREAM, Progress, _pricer, _Work
 
 SUM_GROUP = 16  # sites whose costs are added together before the groups' sums (fixes the sum's order)

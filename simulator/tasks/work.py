@@ -14,13 +14,13 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from ..analysis.stress import ReplicatePricer
+from ..analysis.replicate_pricer import ReplicatePricer
 from ..inputs.scenario import Scenario
+from ..pricing.contingency import cutoff_slots
 from ..pricing.costs import PricedBlock, SeasonPricer
 from ..pricing.draws import CostDrawer
-from ..pricing.scoring import cutoff_slots
 from ..replay.resample import Resampler, n_blocks
-from ..rules.operations_fast import OperationsPricer
+from ..rules.vectorised_model import OperationsPricer
 
 Progress = Callable[[str, int, int], None]
 """progress(step, done, total): called as work advances; ``cli.py`` turns it into a bar."""

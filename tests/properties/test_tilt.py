@@ -1,7 +1,7 @@
 """The event-rate tilt reaches its target: over targets and seeds, replicates drawn with the tilt
 have a mean event rate within Monte Carlo error of the target.
 
-The tilt (``simulator.analysis.stress.tilt_to_rate``) is an exponential tilt of which historical run a
+The tilt (``simulator.analysis.tilt.tilt_to_rate``) is an exponential tilt of which historical run a
 replicate copies, the device of importance sampling; that a tilted draw hits a set mean is checked
 here by simulation (common practice, no single source). The history is invented test data: a
 two-state Markov chain of wet spells (``tests/conftest.py``).
@@ -17,7 +17,7 @@ from hypothesis import strategies as st
 from simulator.inputs.history import history_from_frame
 from simulator.replay.resample import Resampler, season_calendar
 from simulator.inputs.scenario import scenario_from_text
-from simulator.analysis.stress import tilt_to_rate
+from simulator.analysis.tilt import tilt_to_rate
 
 N_REPLICATES = 400
 PILOT = 500

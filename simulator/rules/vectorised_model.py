@@ -1,16 +1,16 @@
 """The built-in operating rules, played for all replicates and all cutoffs at once.
 
-A vectorised twin of the simpy model in :mod:`simulator.operations`: one state per lane (a
+A vectorised twin of the simpy model in :mod:`~simulator.rules.simpy_model`: one state per lane (a
 replicate season under one cutoff or one baseline), all lanes of a block of replicates held in
 (n_rep, n_lanes) arrays and advanced together, one occasion at a time. The loop over occasions is
 the one truly sequential step (the work left, the standby streak and the week's overtime carry
 from one day to the next); it lives in :func:`play_seasons`, whose slow, readable twin is
-:func:`simulator.operations.play_season`. The tests check that the two give identical counts and
+:func:`simulator.rules.simpy_model.play_season`. The tests check that the two give identical counts and
 costs on randomised seasons, so the simpy model stays the statement of the rules.
 
 Work is counted in whole units (thousandths of a crew-day) and taken crew by crew, each crew
 taking ``min(progress, work left)`` as the simpy shifts do, and money comes from whole day counts
-through the shared :func:`~simulator.operations.price_outcome`, so results agree bit for bit.
+through the shared :func:`~simulator.rules.season_cost.price_outcome`, so results agree bit for bit.
 """
 
 from __future__ import annotations
@@ -21,7 +21,9 @@ import numpy as np
 
 from ..pricing.costs import PricedBlock
 from ..inputs.history import History
-from .operations import COUNTS, OFF, REGULAR, WORK_UNIT, Rules, RulesPricer, SimpyPricer, UserProcess
+from .operating_rules import COUNTS, OFF, REGULAR, WORK_UNIT, Rules
+from .season_cost import RulesPricer
+from .simpy_model import SimpyPricer, UserProcess
 from ..replay.resample import Calendar
 from ..inputs.scenario import Scenario
 
@@ -43,10 +45,10 @@ def play_seasons(rules: Rules, wish_at: Callable[[int], np.ndarray], spoiled: np
 
     Returns
     -------
-    dict of (n_rep, n_lanes) arrays: the :data:`~simulator.operations.COUNTS` (int64),
+    dict of (n_rep, n_lanes) arrays: the :data:`~simulator.rules.operating_rules.COUNTS` (int64),
     ``completion_index`` (-1 when unfinished), ``done_units`` and ``left_units`` (work, in
-    :data:`~simulator.operations.WORK_UNIT`), exactly as :func:`~simulator.operations.play_season`
-    gives them lane by lane.
+    :data:`~simulator.rules.operating_rules.WORK_UNIT`), exactly as
+    :func:`~simulator.rules.simpy_model.play_season` gives them lane by lane.
     """
     n_rep = spoiled.shape[0]
     shape = (n_rep, n_lanes)
