@@ -14,7 +14,8 @@ import pandas as pd
 
 from .analysis.cost_spread import CostSpread
 from .analysis.forecasts import Comparison
-from .analysis.selection import Calibration, Selection
+from .analysis.calibration import Calibration
+from .analysis.selection import Selection
 from .analysis.stress import StressResult
 from .analysis.verdict import SeasonCosts, Verdict
 from .inputs.history import History

@@ -26,7 +26,8 @@ import numpy as np
 import pandas as pd
 
 from .analysis.forecasts import compare_forecasts
-from .analysis.selection import calibrate, select_honestly
+from .analysis.calibration import calibrate
+from .analysis.selection import select_honestly
 from .analysis.stress import run_stress
 from .analysis.verdict import RULES, Verdict, best_rule, judge, season_costs, together
 from .execution.pool import prepare

@@ -21,7 +21,8 @@ from simulator.account.outputs import summary
 from simulator.replay.resample import Calendar
 from simulator.run import run, run_history
 from simulator.inputs.scenario import read_scenario, scenario_from_text
-from simulator.analysis.selection import _seasons_on_calendar, fit_recalibration
+from simulator.analysis.calibration import fit_recalibration
+from simulator.analysis.selection import _seasons_on_calendar
 
 SEASON = {"months": [4, 5, 6, 7, 8, 9]}
 

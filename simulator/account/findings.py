@@ -20,7 +20,7 @@ from typing import Any
 from ..pricing.decision import OBJECTIVE_NAMES
 from .cost_doubt import cost_doubt
 from ..inputs.history_calendar import season_start_month
-from ..notation.prose import cutoff_decimals, cutoff_text, format_value, money, money_exact, money_range, ranges_text, share
+from ..notation.prose import cutoff_decimals, cutoff_text, format_value, money, money_range, ranges_text, share
 
 __all__ = ["Finding", "Account", "account", "season_name", "seasons_text", "strategy_label",
            "short_label", "bad_season", "OBJECTIVE_WORDS"]

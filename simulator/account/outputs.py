@@ -26,7 +26,8 @@ from .file_names import table_names
 from .cautions import cautions
 from ..pricing.decision import distribution
 from ..results import RunResult
-from ..analysis.selection import Calibration, Selection
+from ..analysis.calibration import Calibration
+from ..analysis.selection import Selection
 from ..analysis.stress import StressResult
 
 __all__ = ["summary", "render_files", "SCHEMA"]

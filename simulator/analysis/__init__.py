@@ -3,7 +3,8 @@
 ``stress`` reprices rarer-event and costlier years, with ``tilt`` (moving the replicates' event
 rate), ``probability_changes`` (the forecast moved to a new rate, stripped of skill or blurred) and
 ``replicate_pricer`` (replicate seasons priced with those changes); ``selection`` chooses the
-cutoff on training seasons and prices it on validation ones (and calibrates); ``verdict`` holds
+cutoff on training seasons and prices it on validation ones; ``calibration`` fits the recalibration
+of the calibrated pricing mode on the training period; ``verdict`` holds
 each past season out in turn to say whether the forecast beats the best rule that ignores it;
 ``forecasts`` compares several forecasts on the same replicate seasons.
 

@@ -7,10 +7,7 @@ Two things are fitted on a training period and then used forward:
   period, beside the validation period's own (in-sample) optimum; walk-forward does the same season
   by season, each chosen on all earlier seasons. The gap between the two is the optimism of choosing
   on the past: actual against potential value (Atger 2001, as discussed by Richardson 2000).
-- the probabilities' calibration, for the ``calibrated`` pricing mode: an isotonic regression of the
-  outcome on the forecast probability over the training period (the pool-adjacent-violators
-  algorithm, ``scipy.optimize.isotonic_regression``; Zadrozny and Elkan 2002 use it to calibrate
-  classifier scores), from which replicate outcomes are drawn afresh.
+- the probabilities' calibration, for the ``calibrated`` pricing mode: see ``calibration.py``.
 
 A cutoff is chosen as the core chooses it (:func:`~simulator.decision.decide`): by the scenario's
 objective (the lowest mean season cost, by default) over replicate seasons drawn
@@ -24,8 +21,6 @@ Atger, F. (2001). Verification of intense precipitation forecasts from single mo
 prediction systems. Nonlin. Processes Geophys. 8, 401-417.
 Richardson, D. S. (2000). Skill and relative economic value of the ECMWF ensemble prediction system.
 Q. J. R. Meteorol. Soc. 126, 649-667.
-Zadrozny, B. and Elkan, C. (2002). Transforming classifier scores into accurate multiclass
-probability estimates. KDD 2002 (pages from memory, check).
 """
 
 from __future__ import annotations
@@ -34,10 +29,8 @@ import dataclasses
 from dataclasses import dataclass
 
 import numpy as np
-import pandas as pd
 
-from ..notation import decimals
-from ..pricing import contingency, rates, scoring
+from ..pricing import contingency, rates
 from ..pricing.costs import SeasonPricer, baseline_actions, occasion_costs, price
 from ..pricing.decision import OBJECTIVE_COLUMN, lowest, season_cost_columns
 from ..inputs.errors import InputError
@@ -48,105 +41,13 @@ from ..inputs.scenario import Scenario
 from ..inputs.scenario_costs import Costs
 from ..inputs.scenario_types import BASELINES
 
-__all__ = ["Recalibration", "fit_recalibration", "Calibration", "calibrate", "PeriodRecord",
-           "ValidationCheck", "WalkForwardStep", "WalkForward", "Selection", "select_honestly",
+__all__ = ["PeriodRecord", "ValidationCheck", "WalkForwardStep", "WalkForward", "Selection", "select_honestly",
            "SELECTION_REPLICATES", "SELECTION_STREAM"]
 
 SELECTION_REPLICATES = 1000  # replicate seasons per training period (choice and spread)
 SELECTION_STREAM = 45  # seed stream of those replicates (other streams: resample.py, run.py, stress.py)
 FLAG_QUANTILE = 0.95  # flag a period dearer than this quantile of its training's spread (90% range)
 
-
-# ------------------------------------------------------------------------------------------------
-# recalibration for the calibrated pricing mode
-
-@dataclass(frozen=True)
-class Recalibration:
-    """A non-decreasing map from forecast probability to observed frequency.
-
-    ``knots`` are the distinct training probabilities (ascending), ``values`` the fitted frequency
-    at each; between knots the map is linear, outside them constant (as scikit-learn's
-    ``IsotonicRegression(out_of_bounds="clip")`` predicts).
-    """
-
-    knots: np.ndarray
-    values: np.ndarray
-
-    def __call__(self, p: np.ndarray) -> np.ndarray:
-        return np.interp(np.asarray(p, dtype=float), self.knots, self.values)
-
-
-def fit_recalibration(p: np.ndarray, event: np.ndarray) -> Recalibration:
-    """Isotonic regression of ``event`` (0/1) on ``p``, each (n_occasions,).
-
-    Equal probabilities are pooled first (their mean outcome, weighted by their count), then the
-    pool-adjacent-violators solution is found over the distinct values. The fit keeps the sum:
-    over the training occasions the recalibrated probabilities add up to the number of events.
-    """
-    from scipy.optimize import isotonic_regression  # imported here: only the calibrated mode needs it
-
-    p = np.asarray(p, dtype=float)
-    event = np.asarray(event, dtype=float)
-    knots, inverse, counts = np.unique(p, return_inverse=True, return_counts=True)
-    means = np.bincount(inverse, weights=event, minlength=knots.size) / counts
-    fitted = isotonic_regression(means, weights=counts.astype(float), increasing=True).x
-    return Recalibration(knots=knots, values=np.clip(fitted, 0.0, 1.0))
-
-
-@dataclass(frozen=True)
-class Calibration:
-    """The recalibration behind the ``calibrated`` mode and how it changes the record.
-
-    ``probability`` is the recalibrated probability of every history row (n_rows,), from which
-    replicate outcomes are drawn. ``table`` is a reliability diagram of the training period
-    (Broecker and Smith 2007): bins of the forecast probability with their count, mean forecast,
-    observed frequency, and the mean recalibrated probability. Brier scores before and after
-    recalibration: on the training period (in-sample, so "after" is flattering) and on the
-    validation period when there is one (NaN otherwise). Where the fit pools neighbouring
-    probabilities it is flat across the pool, so a cutoff inside a pool sees the same outcome rate on
-    both sides of it; the replay does not smooth so.
-    """
-
-    recalibration: Recalibration
-    probability: np.ndarray
-    table: pd.DataFrame
-    training_rows: int
-    training_start: str
-    training_end: str
-    brier_training: float
-    brier_training_recalibrated: float
-    brier_validation: float
-    brier_validation_recalibrated: float
-
-
-def calibrate(history: History, n_bins: int = 10) -> Calibration:
-    """Fit the recalibration on the training period and tabulate the calibration curve."""
-    train = history.training
-    p, event = history.p[train], history.event[train]
-    fit = fit_recalibration(p, event)
-    probability = fit(history.p)
-    table = scoring.reliability_table(p, event, n_bins)
-    bins = decimals.bins(p, n_bins)  # the bins of scoring.reliability_table
-    recal_sum = np.bincount(bins, weights=probability[train], minlength=n_bins)
-    frame = pd.DataFrame(dataclasses.asdict(table))
-    with np.errstate(invalid="ignore", divide="ignore"):
-        frame["recalibrated_mean"] = np.where(table.n > 0, recal_sum / np.maximum(table.n, 1), np.nan)
-    val = history.validation
-    nan = float("nan")
-    dates = history.dates[train]
-    return Calibration(
-        recalibration=fit, probability=probability, table=frame, training_rows=int(train.sum()),
-        training_start=str(dates[0]), training_end=str(dates[-1]),
-        brier_training=float(scoring.brier_score(p, event)),
-        brier_training_recalibrated=float(scoring.brier_score(probability[train], event)),
-        brier_validation=(float(scoring.brier_score(history.p[val], history.event[val]))
-                          if val.any() else nan),
-        brier_validation_recalibrated=(float(scoring.brier_score(probability[val], history.event[val]))
-                                       if val.any() else nan))
-
-
-# ------------------------------------------------------------------------------------------------
-# honest selection
 
 @dataclass(frozen=True)
 class PeriodRecord:
