@@ -84,7 +84,7 @@ def _stops(unfinished: str = "the run did not finish and the output folder is as
 
     Both arrive as an exception in the main thread (SIGTERM as ``gonogo_command.Stopped``), so every
     ``finally`` on the way out runs: the executor kills its workers and frees its shared memory
-    (:func:`simulator.parallel.open_executor`), and a result set being written is taken away whole
+    (:func:`simulator.execution.choose.open_executor`), and a result set being written is taken away whole
     (:func:`simulator.account.result_set.write_files`). Click would otherwise print "Aborted!" with status 1.
     """
     # only in the main thread, and never where SIGTERM was ignored from the start (nohup and the like)

@@ -240,3 +240,54 @@ def test_the_plan_covers_every_site_and_chunk_once_and_shares_out_the_last_group
     assert sorted(covered) == [(k, c) for k in range(n_sites) for c in range(n_chunks)]
     if (n_sites, workers) == (200, 2):  # 12 groups of 16 and one of 8: the 8 go to both workers
         assert [b - a for a, b, _ in tasks] == [16] * 12 + [4, 4]
+
+
+def _callbacks_running(dask_worker=None):
+    from simulator.execution.dask_worker import QUIET
+
+    return {name: dask_worker.periodic_callbacks[name].is_running() for name in QUIET}
+
+
+def _report_quiet(shared, *task):
+    """In a task: the callbacks once paused (the pause is made on the worker's event loop, soon)."""
+    from distributed import get_worker
+
+    deadline = time.monotonic() + 5
+    while any((running := _callbacks_running(get_worker())).values()) and time.monotonic() < deadline:
+        time.sleep(0.02)
+    return running
+
+
+@pytest.mark.filterwarnings("ignore::DeprecationWarning")
+def test_a_dask_workers_profiler_and_tick_pause_while_a_task_runs_and_start_again_after():
+    # gonogo's own rule (simulator/execution/dask_worker.py): the worker's periodic callbacks are
+    # distributed's (Worker.periodic_callbacks, distributed 2026.8); no published reference
+    distributed = pytest.importorskip("distributed")
+    from simulator.execution.dask_worker import QUIET, _OnDaskWorker
+
+    with distributed.LocalCluster(n_workers=1, threads_per_worker=1, processes=False,
+                                  dashboard_address=None) as cluster, distributed.Client(cluster) as client:
+        before = next(iter(client.run(_callbacks_running).values()))
+        during = client.submit(_OnDaskWorker(_report_quiet), None, pure=False).result()
+        deadline = time.monotonic() + 5
+        while (after := next(iter(client.run(_callbacks_running).values()))) != before and time.monotonic() < deadline:
+            time.sleep(0.05)
+    assert before == {name: True for name in QUIET}
+    assert during == {name: False for name in QUIET}
+    assert after == before
+
+
+@pytest.mark.filterwarnings("ignore::DeprecationWarning")
+def test_results_fetched_from_the_workers_directly_are_the_same_bytes(scenario_path, monkeypatch):
+    # gonogo's own rule (DEVELOPERS.md, "Reproducibility"): how results travel changes nothing
+    distributed = pytest.importorskip("distributed")
+    scenario = read_scenario(scenario_path)
+    one = _files(run(scenario, workers=1))
+    chosen = []
+    real = dask_cluster._direct
+    monkeypatch.setattr(dask_cluster, "_direct", lambda client: chosen.append(real(client)) or chosen[-1])
+    with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=False, protocol="tcp",
+                                  dashboard_address=None) as cluster:
+        on_cluster = _files(run(scenario, cluster=cluster.scheduler_address))
+    assert chosen == [True]
+    assert on_cluster == one

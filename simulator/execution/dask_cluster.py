@@ -1,23 +1,25 @@
-"""Tasks on an existing Dask cluster: checking the address, scattering the inputs, the workers' heap.
+"""Tasks on an existing Dask cluster: checking the address, scattering the inputs, tasks in flight.
 
 :class:`DaskExecutor` sends tasks to a Dask scheduler (``distributed.Client``), given by address or
 as a client; an address is probed first (:func:`_probe`) so that a wrong one fails in one line.
-Dask is an optional dependency, imported only here and only when a cluster is used.
+Each task runs wrapped (:mod:`.dask_worker`) so that the worker's process suits it. Dask is an
+optional dependency, imported only when a cluster is used.
 """
 
 from __future__ import annotations
 
-import ctypes
 import socket
 import struct
 from typing import Any
 
 from ..inputs.errors import InputError
-from .executor import IN_FLIGHT_PER_WORKER, Executor, TaskFunction
+from .dask_worker import _OnDaskWorker
+from .executor import IN_FLIGHT_PER_WORKER, Executor
 
 __all__ = ["DaskExecutor", "CONNECT_TIMEOUT", "CLUSTER_ENV"]
 
 CONNECT_TIMEOUT = 5.0  # seconds a cluster's scheduler has to answer
+REACH_TIMEOUT = 1.0  # seconds each worker has to accept a connection from here (_direct)
 _HANDSHAKE_BYTES = 1 << 20  # a Dask handshake is a few hundred bytes; a first message above this is not one
 CLUSTER_ENV = "GONOGO_CLUSTER"  # the command line's --cluster, when not given
 
@@ -107,6 +109,7 @@ class DaskExecutor(Executor):
         self.workers = max(1, sum(w.get("nthreads", 1) for w in
                                   client.scheduler_info().get("workers", {}).values()))
         self.where = f"the Dask cluster at {client.scheduler.address} ({self.workers} threads)"
+        self._direct = _direct(client)
         self._distributed = distributed
         self._scattered: tuple[Any, Any] | None = None  # (shared inputs, their future on the cluster)
 
@@ -131,7 +134,7 @@ class DaskExecutor(Executor):
             for _ in range(IN_FLIGHT_PER_WORKER * self.workers):
                 submit_next()
             for future in finished:
-                index, result = pending.pop(future), future.result()
+                index, result = pending.pop(future), self.client.gather(future, direct=self._direct)
                 submit_next()
                 yield index, result
         finally:
@@ -149,36 +152,28 @@ class DaskExecutor(Executor):
             self.client.close()
 
 
-class _OnDaskWorker:
-    """A task function that first gives large arrays back to the heap in the worker's process.
+def _direct(client: Any) -> bool | None:
+    """Whether to fetch each result from the worker that holds it (True) rather than through the
+    scheduler, which Dask does for a client outside the cluster (None: Dask's choice).
 
-    Dask's nanny starts workers with ``MALLOC_TRIM_THRESHOLD_=65536`` so that they return memory to
-    the system; on glibc that also fixes the threshold above which ``malloc`` maps fresh pages at its
-    128 KiB default, so every block-sized numpy temporary is mapped, zeroed and unmapped again and the
-    pricing runs up to twice as slowly. Raising the mmap and trim thresholds with ``mallopt``
-    (glibc's ``M_MMAP_THRESHOLD`` = -3, ``M_TRIM_THRESHOLD`` = -1; see ``man mallopt``) lets freed
-    blocks be reused; elsewhere (no glibc) nothing is changed.
+    Through the scheduler every result is sent twice, and the scheduler's event loop handles every
+    byte: with the scheduler on this machine, as on a LocalCluster, that is processor time taken
+    from the workers (``benchmarks/bench_dask_worker.py`` shows the figures). Directly is chosen
+    only when every worker accepts a tcp connection from here within :data:`REACH_TIMEOUT`, and
+    never for a client that says itself (``direct_to_workers``); a result a worker cannot give is
+    still asked of the scheduler (``Client.gather``, distributed 2026.8).
     """
+    from distributed.comm.addressing import parse_address, parse_host_port
 
-    def __init__(self, fn: TaskFunction):
-        self.fn = fn
-
-    def __call__(self, shared: Any, *task: Any) -> Any:
-        _roomy_heap()
-        return self.fn(shared, *task)
-
-
-_HEAP_TUNED = False
-
-
-def _roomy_heap() -> None:
-    global _HEAP_TUNED
-    if _HEAP_TUNED:
-        return
-    _HEAP_TUNED = True
-    try:
-        libc = ctypes.CDLL("libc.so.6")
-        libc.mallopt(-3, 32 * 2**20)  # M_MMAP_THRESHOLD: glibc's largest allowed value on 64-bit
-        libc.mallopt(-1, 256 * 2**20)  # M_TRIM_THRESHOLD
-    except (OSError, AttributeError):
-        pass
+    if getattr(client, "direct_to_workers", None) is not None:
+        return None
+    addresses = list(client.scheduler_info().get("workers", {}))
+    for address in addresses:
+        try:
+            scheme, location = parse_address(address)
+            if scheme != "tcp":
+                return None
+            socket.create_connection(parse_host_port(location), timeout=REACH_TIMEOUT).close()
+        except (OSError, ValueError):
+            return None
+    return True if addresses else None

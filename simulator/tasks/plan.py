@@ -111,7 +111,7 @@ def _later_forecast(pricer, rows: np.ndarray, block: int) -> np.ndarray:
 
 @contextmanager
 def _executor(work: _Work, workers: int | None, cluster, walk_forward: bool = False) -> Iterator[Executor]:
-    """Where the run's tasks go (:func:`simulator.parallel.open_executor`): this process for work
+    """Where the run's tasks go (:func:`simulator.execution.choose.open_executor`): this process for work
     too small to be worth starting processes for (a walk-forward of many sites is not), or with
     simpy processes of the user's own and no cluster."""
     operations = any(s.operations is not None for s in work.scenarios)
