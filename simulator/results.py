@@ -18,6 +18,7 @@ from .analysis.calibration import Calibration
 from .analysis.selection import Selection
 from .analysis.stress import StressResult
 from .analysis.verdict import SeasonCosts, Verdict
+from .analysis.winners import Contest
 from .inputs.history import History
 from .inputs.scenario import Scenario
 from .pricing.decision import Decision, Distribution, distribution
@@ -58,6 +59,10 @@ class SiteResult:
     # and those seasons' costs (for the portfolio's verdict)
     verdict: Verdict | None = None
     season_costs: SeasonCosts | None = None
+    # several [forecasts]: each one's recommended cutoff index at this site, in the order listed,
+    # and which one wins here, each at its own cutoff (simulator.analysis.winners)
+    own_cutoffs: tuple[int, ...] = ()
+    contest: Contest | None = None
 
     @property
     def reference(self) -> str:

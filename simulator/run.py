@@ -48,9 +48,10 @@ from .results import Portfolio, RunResult, SiteResult
 from .rules.operating_rules import make_rules
 from .rules.operations_result import OperationsResult
 from .rules.simpy_model import UserProcess
-from .tasks.plan import _alongside, _executor, _forecast_costs, _price_all
+from .tasks.plan import _alongside, _executor, _price_all
 from .tasks.sites import _checked_sites, _sites_table, _Totals
-from .tasks.work import _INTERVAL_STREAM, Progress, _events_without_action, _forget, _pricer, _Work
+from .tasks.work import (_INTERVAL_STREAM, Progress, _events_without_action, _forecast_costs, _forget, _pricer,
+                         _Work)
 
 __all__ = ["run", "run_history"]
 
@@ -145,16 +146,6 @@ def run_history(scenario: Scenario, history: History, *, replicates: int | None 
     quality, value_curve, reliability = forecast_quality(history, cutoffs)
     warnings = (tuple(history.warnings) + tuple(calendar_warnings(calendar, scenario.season, _label(scenario)))
                 + tuple(cost_warnings(costs, scenario.decision.action)))
-    stress = None
-    if scenario.stress:
-        stress = run_stress(scenario, history, calendar=calendar, resampler=resampler, cutoffs=cutoffs,
-                            seed=seed, replicates=replicates, decision=decision,
-                            base_mean_cost=float(model_cost[:, decision.recommended_index].mean()),
-                            seasons_per_history=seasons_per_history,
-                            interval_rng=lambda: block_rng(seed, 0, _INTERVAL_STREAM),
-                            outcome_probability=None if calibration is None else calibration.probability,
-                            progress=progress)
-        warnings += tuple(w for case in stress for w in case.warnings)
     selection = select_honestly(history, calendar, cutoffs, costs, sim.reference, mean_block,
                                 sim.window_days, seed, replicates,
                                 sim.walk_forward if walk_forward is None else walk_forward,
@@ -163,11 +154,15 @@ def run_history(scenario: Scenario, history: History, *, replicates: int | None 
                                 objective=scenario.decision.objective)
     rule = best_rule({name: float(baseline_cost[name].mean()) for name in RULES})  # ignores the forecast
 
-    def judge_one(own: History) -> Verdict:
-        """Whether acting on ``own``'s forecast beats the best rule without it, on held-out seasons."""
-        return judge(season_costs(own, calendar, cutoffs, scenario), calendar.n_occasions, rule)
+    main_seasons = season_costs(history, calendar, cutoffs, scenario)
 
-    verdict = judge_one(history)
+    def judge_one(own: History) -> Verdict:
+        """Whether acting on ``own``'s forecast beats the best rule without it, on held-out seasons
+        (the rules' costs, which ignore the forecast, taken from the main forecast's)."""
+        return judge(season_costs(own, calendar, cutoffs, scenario, rules_of=main_seasons), calendar.n_occasions,
+                     rule)
+
+    verdict = judge(main_seasons, calendar.n_occasions, rule)
     comparison = None
     if n_forecasts > 1:
         def check(own: History):
@@ -188,6 +183,17 @@ def run_history(scenario: Scenario, history: History, *, replicates: int | None 
                                  block_rng(seed, 0, _INTERVAL_STREAM), scenario.decision.objective)),
             check, main_quality=(quality, value_curve),
             judge_one=lambda own: verdict if own is history else judge_one(own))
+    stress = None
+    if scenario.stress:  # with several [forecasts], each priced at its own cutoff in every case
+        stress = run_stress(scenario, history, calendar=calendar, resampler=resampler, cutoffs=cutoffs,
+                            seed=seed, replicates=replicates, decision=decision,
+                            base_mean_cost=float(model_cost[:, decision.recommended_index].mean()),
+                            seasons_per_history=seasons_per_history,
+                            interval_rng=lambda: block_rng(seed, 0, _INTERVAL_STREAM),
+                            outcome_probability=None if calibration is None else calibration.probability,
+                            progress=progress, own_cutoffs=() if comparison is None else [
+                                f.decision.recommended_index for f in comparison.forecasts])
+        warnings += tuple(w for case in stress for w in case.warnings)
     unprotected = (_events_without_action(work, decision.recommended_index)
                    if scenario.event.hazard and calibration is None else None)
     return RunResult(scenario=scenario, history=history, calendar=calendar, cutoffs=cutoffs,
@@ -228,9 +234,6 @@ def _run_sites(scenario: Scenario, history: History, *, replicates: int, seed: i
     """A run with a site column: every site priced on the joint replicates, then the portfolio."""
     sim = scenario.simulation
     label = _label(scenario)
-    if len(scenario.forecasts) > 1:
-        raise InputError(f"{label} [forecasts]: several forecasts cannot be compared over many sites yet; "
-                         "compare them site by site (one history per site, without site_column)")
     if sim.mode == "calibrated":
         raise InputError(f'{label} [simulation] mode: "calibrated" draws each site\'s outcomes on its own '
                          'and would break the sites\' joint weather; use mode = "replay" with a site column')
@@ -241,7 +244,8 @@ def _run_sites(scenario: Scenario, history: History, *, replicates: int, seed: i
     mean_block = choose_mean_block(history, scenarios, calendar)
     resampler = Resampler(history, calendar, mean_block, sim.window_days)
     work = _Work(resampler=resampler, scenarios=scenarios, cutoffs=cutoffs, seed=seed,
-                 replicates=replicates, processes=tuple(processes), outcome_probability=None)
+                 replicates=replicates, processes=tuple(processes), outcome_probability=None,
+                 n_forecasts=max(1, len(history.forecast_names)))
     total = _Totals(len(names))
     results: dict[int, SiteResult] = {}
     forward = sim.walk_forward if walk_forward is None else walk_forward

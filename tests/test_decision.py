@@ -198,6 +198,42 @@ def test_distribution_percentiles_are_numpys_default():
     assert (d.mean, d.p05, d.p50, d.p95) == (51.0, 6.0, 51.0, 96.0)
 
 
+
+@pytest.mark.parametrize("n", [1, 2, 3, 20, 101, 2000, 5001])
+def test_quantiles_of_rows_are_numpys_to_the_last_bit(n, rng):
+    # the oracle is numpy's own np.quantile (default linear rule, Hyndman and Fan 1996, definition
+    # 7); the fast path must give the same floats, ties and repeated values included
+    from simulator.pricing.decision import QUANTILES, quantiles_of_rows
+
+    values = np.concatenate([rng.normal(5e5, 4e4, (30, n)).cumsum(axis=1),
+                             np.round(rng.normal(100.0, 30.0, (30, n)), 1),  # many ties
+                             np.full((1, n), 7.25)])
+    expected = np.quantile(values, QUANTILES, axis=1)
+    got = quantiles_of_rows(values, QUANTILES)
+    for q, e, g in zip(QUANTILES, expected, got):
+        assert np.array_equal(e, g), f"quantile {q} differs from numpy's"
+    more = (0.0, 0.1, 0.25, 0.333, 0.5, 0.9, 0.999, 1.0)
+    for e, g in zip(np.quantile(values, more, axis=1), quantiles_of_rows(values, more)):
+        assert np.array_equal(e, g)
+    values[3, n // 2] = np.nan  # a row with NaN is NaN, as numpy has it
+    assert np.isnan(quantiles_of_rows(values, QUANTILES)[1][3])
+
+
+def test_the_cutoff_interval_adds_each_history_as_the_obvious_sum_does(rng):
+    # the bootstrap histories' costs, added season by season, against the obvious oracle (one
+    # gather of every history's seasons, summed): the same floats, so the same interval
+    from simulator.pricing.decision import N_HISTORIES, lowest, money_tolerance
+
+    cutoffs = np.round(np.linspace(0, 1, 41), 2)
+    model = rng.normal(5e4, 5e3, (300, 41)).cumsum(axis=1) / 20 + rng.normal(0, 900, (300, 1))
+    reference = model[:, 20] + rng.normal(300, 400, 300)
+    d = decide(model, reference, cutoffs, 7, np.random.default_rng(3))
+    picks = np.random.default_rng(3).integers(0, 300, size=(N_HISTORIES, 7))
+    tolerance = money_tolerance(model, reference)
+    chosen = cutoffs[lowest(model[picks].sum(axis=1), tolerance * 7)]
+    assert d.recommended_cutoff_interval == tuple(float(x) for x in np.quantile(chosen, [0.05, 0.95],
+                                                                               method="inverted_cdf"))
+
 # ------------------------------------------------------------------------------------------------
 # Thompson (1952) and Murphy (1977): the best cutoff for calibrated forecasts is the cost-loss ratio
 

@@ -100,17 +100,12 @@ def test_drop_row_evaluates_every_forecast_on_the_rows_all_have_and_says_how_man
         history_from_frame(frame, scenario, label="history.csv")
 
 
-@pytest.mark.parametrize("sections, message", [
-    ({"history": {"site_column": "site"}}, r"\[forecasts\]: several forecasts cannot be compared over many sites"),
-    ({"simulation": {"mode": "calibrated"}}, r'mode: "calibrated" draws the outcomes from one forecast'),
-], ids=["many sites", "calibrated mode"])
-def test_what_several_forecasts_do_not_do_yet_is_refused_in_one_line(history_frame, sections, message):
-    frame = pd.concat([history_frame.assign(site="North"), history_frame.assign(site="South")])
-    if "history" not in sections:
-        frame = history_frame
-    scenario = _scenario({"ours": "probability", "other": "probability"}, **sections)
-    history = history_from_frame(frame, scenario, label="history.csv")
-    with pytest.raises(InputError, match=message):
+def test_the_calibrated_mode_with_several_forecasts_is_refused_in_one_line(history_frame):
+    # it draws the outcomes from one forecast's recalibrated probabilities, which would favour that
+    # forecast over the others (README, "Which forecast to pay for")
+    scenario = _scenario({"ours": "probability", "other": "probability"}, simulation={"mode": "calibrated"})
+    history = history_from_frame(history_frame, scenario, label="history.csv")
+    with pytest.raises(InputError, match=r'mode: "calibrated" draws the outcomes from one forecast'):
         run_history(scenario, history)
 
 

@@ -361,6 +361,16 @@ NAMES = {
 }
 
 
+
+def _run_plain(tmp_path, text: str, out):
+    """``gonogo run`` of scenario ``text`` into ``out``: it succeeds and prints no control character."""
+    (tmp_path / "s.toml").write_text(text)
+    result = runner.invoke(app, ["run", str(tmp_path / "s.toml"), "--out", str(out), "--workers", "1"],
+                           env={"COLUMNS": "200"})
+    assert result.exit_code == 0, result.output[-3000:]
+    assert "\x1b" not in result.output and "\x07" not in result.output
+    return result
+
 def test_names_full_of_markup_and_escapes_print_as_plain_text_and_draw_as_plain_text(tmp_path):
     # before: "[/bold]" in a name or a stress case's name crashed the headline (rich's MarkupError),
     # escape sequences reached the terminal raw, and "$\foo$" stopped the figures (matplotlib's
@@ -368,16 +378,29 @@ def test_names_full_of_markup_and_escapes_print_as_plain_text_and_draw_as_plain_
     (tmp_path / "history.csv").write_text(HISTORY)
     changes = {**NAMES, ("simulation", "replicates"): "40"}
     text = scenario_text(changes, stress(name=r'"wet [/bold] $\\bar$ \u001b[5m"', event_rate="1.5"))
-    (tmp_path / "s.toml").write_text(text)
     out = tmp_path / "out"
-    result = runner.invoke(app, ["run", str(tmp_path / "s.toml"), "--out", str(out), "--workers", "1"],
-                           env={"COLUMNS": "200"})
-    assert result.exit_code == 0, result.output[-3000:]
-    assert "\x1b" not in result.output and "\x07" not in result.output
+    result = _run_plain(tmp_path, text, out)
     assert "Quillfen [/bold] \\x1b]0;retitled\\x07 [red]works" in result.stdout
     assert "wet [/bold] $\\bar$ \\x1b[5m" in result.stdout
     assert "dry $\\foo$ day [/bold]" in result.stdout
     assert (out / "figures" / "stress.png").exists() and (out / "report.html").exists()
+
+
+
+def test_forecast_names_full_of_markup_name_stress_winners_as_plain_text(tmp_path):
+    # the names of [forecasts] reach the stress headlines (which forecast wins each case): printed
+    # as the characters they are in the terminal and escaped in the report
+    (tmp_path / "history.csv").write_text(HISTORY)
+    names = (r'"ours [/bold] \u001b[31m <b>x</b>"', r'"theirs $\\foo$ \u0007"')
+    text = scenario_text({("history", "probability_column"): None},
+                         stress(event_rate="1.5") + f"[forecasts]\n{names[0]} = \"probability\"\n"
+                         f"{names[1]} = \"probability\"\n")
+    out = tmp_path / "out"
+    result = _run_plain(tmp_path, text, out)
+    assert "cost the same here" in result.stdout  # one column under two names: no winner
+    assert "ours [/bold] \\x1b[31m <b>x</b>" in result.stdout
+    report = (out / "report.html").read_text()
+    assert "<b>x</b>" not in report and "&lt;b&gt;x&lt;/b&gt;" in report
 
 
 def test_a_python_warning_prints_as_one_line_without_a_source_path(tmp_path, monkeypatch):

@@ -253,6 +253,29 @@ def test_under_operating_rules_seasons_are_played_by_the_rules_as_the_simpy_mode
     np.testing.assert_allclose(costs.rules[0][:, :3], slow.baselines[:, :3])
 
 
+
+@pytest.mark.parametrize("rules", [False, True], ids=["costs", "operating rules"])
+def test_another_forecast_shares_the_rules_costs_and_prices_only_its_own(seattle, rules):
+    # the rules without the forecast ignore it, so a second forecast of the same history may take
+    # their season costs from the first: the result is the same bytes as pricing it from scratch
+    # (an identity of the method, no source needed)
+    import dataclasses
+
+    text = cost_loss(0.3)
+    if rules:
+        text += ("[operations]\ncrews_out_on = \"not_acting\"\nspoiled_on = \"event\"\nday_rate = 100\n"
+                 "standby_rate = 40\nspoilage_cost = 300\n[season]\nmonths = [5, 6, 7]\n")
+    scenario = scenario_from_text(text)
+    history = history_from_frame(with_noise_forecast(seattle, 3), scenario)
+    other = dataclasses.replace(history, p=history_from_frame(seattle, scenario).p)
+    calendar = season_calendar(history, scenario.season)
+    first = season_costs(history, calendar, scenario.cutoffs, scenario)
+    shared = season_costs(other, calendar, scenario.cutoffs, scenario, rules_of=first)
+    alone = season_costs(other, calendar, scenario.cutoffs, scenario)
+    for field in ("model", "rules", "occasions", "seasons", "cutoffs"):
+        np.testing.assert_array_equal(getattr(shared, field), getattr(alone, field))
+    assert not np.array_equal(shared.model, first.model)
+
 # ---- hazards: cautions everywhere, and the event occasions left without action -----------------
 
 def test_hazard_caution_is_printed_to_standard_error_under_quiet(tmp_path):

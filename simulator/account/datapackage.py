@@ -134,6 +134,17 @@ _COLUMNS: dict[str, tuple[str, str]] = {
     "saving_against_best_rule_prob": ("confidence (Student's t over the held-out seasons) that the mean saving "
                                       "against the best rule without the forecast is above zero", "probability"),
     "walk_forward_flagged_seasons": ("seasons dearer than their training range", "none"),
+    # several [forecasts], each at its own recommended cutoff of the base case (stress.csv: in that
+    # case and view; sites.csv: at that site); simulator.analysis.winners
+    "best_forecast": ("the forecast with the lowest mean season cost, each at its own recommended cutoff of the "
+                      "base case, on the same replicate seasons; empty when the two cheapest tie", "none"),
+    "runner_up_forecast": ("the forecast with the next lowest mean season cost; empty on a tie", "none"),
+    "saving_against_runner_up_mean": ("mean over replicate seasons of the runner-up's season cost minus the best "
+                                      "forecast's", "{cur} per season"),
+    "saving_against_runner_up_p05": ("5th percentile over replicate seasons of that saving", "{cur} per season"),
+    "saving_against_runner_up_p95": ("95th percentile over replicate seasons of that saving", "{cur} per season"),
+    "saving_against_runner_up_prob": ("share of replicate seasons in which the best forecast is strictly cheaper "
+                                      "than the runner-up", "probability"),
 }
 
 

@@ -29,6 +29,7 @@ from ..results import RunResult
 from ..analysis.calibration import Calibration
 from ..analysis.selection import Selection
 from ..analysis.stress import StressResult
+from ..analysis.winners import wins
 
 __all__ = ["summary", "render_files", "SCHEMA"]
 
@@ -210,6 +211,8 @@ def _stress_entry(case: StressResult) -> dict[str, Any]:
             "prob_moving_saves": v.prob_moving_saves, "near_optimal_band": d.near_optimal_band,
             "break_even": d.break_even, "confident_break_even": d.confident_break_even,
             "best_savings": {**d.savings.as_dict(), "prob_saving": d.prob_saving},
+            # several [forecasts]: each at its own base cutoff in this case, and which one wins
+            **({} if v.forecasts is None else {"which_forecast": v.forecasts.as_dict()}),
         })
     return {"name": case.name, "changes": case.changes, "costs": case.costs.model_dump(),
             "theoretical_cutoff": case.theoretical_cutoff, "mean_block_days": case.mean_block_days,
@@ -224,21 +227,24 @@ def _stress_frame(result: RunResult) -> pd.DataFrame:
     if result.portfolio is None:
         d = result.decision
         savings = result.baseline_cost[result.reference] - result.model_cost[:, d.recommended_index]
-        return _stress_rows(result.strategies, d, savings, result.stress)
+        return _stress_rows(result.strategies, d, savings, result.stress,
+                            None if result.comparison is None else result.comparison.contest())
     frames = [_stress_rows(site.strategies, site.decision, site.baseline_cost[site.reference] - site.model_cost,
-                           site.stress).assign(site=site.name)
+                           site.stress, site.contest).assign(site=site.name)
               for site in result.portfolio.sites if site.stress is not None]
     frame = pd.concat(frames, ignore_index=True)
     return frame[["site"] + [c for c in frame.columns if c != "site"]]
 
 
-def _stress_rows(base, d, savings: np.ndarray, stress) -> pd.DataFrame:
+def _stress_rows(base, d, savings: np.ndarray, stress, contest=None) -> pd.DataFrame:
+    """The rows of one history's stress table; with several [forecasts], each row also says which
+    forecast wins there (:meth:`simulator.analysis.winners.Contest.row`; ``contest``: the base case's)."""
     rows = [{"case": "base case", "probabilities": "as_forecast", "target_event_rate": None,
              "achieved_event_rate": None, "event_rate_reached": None, "base_cutoff": d.recommended_cutoff,
              **_strategy_columns(base), "extra_cost": 0.0, "best_cutoff": d.recommended_cutoff,
              "best_mean_cost": base["model"].mean, "saved_by_moving": 0.0, "prob_moving_saves": 0.0,
              "mean_savings": float(savings.mean()), "prob_saving": d.prob_saving,
-             "break_even": _ranges(d.break_even)}]
+             "break_even": _ranges(d.break_even), **({} if contest is None else contest.row())}]
     for case in stress or ():
         rate = case.event_rate
         for v in case.views:
@@ -250,7 +256,8 @@ def _stress_rows(base, d, savings: np.ndarray, stress) -> pd.DataFrame:
                          "extra_cost": v.extra_cost, "best_cutoff": v.best_cutoff,
                          "best_mean_cost": v.best_cost.mean, "saved_by_moving": v.saved_by_moving,
                          "prob_moving_saves": v.prob_moving_saves, "mean_savings": v.savings.mean,
-                         "prob_saving": v.prob_saving, "break_even": _ranges(v.decision.break_even)})
+                         "prob_saving": v.prob_saving, "break_even": _ranges(v.decision.break_even),
+                         **({} if v.forecasts is None else v.forecasts.row())})
     return pd.DataFrame(rows)
 
 
@@ -335,7 +342,8 @@ def _portfolio_entry(result: RunResult) -> dict[str, Any]:
     always acting minus that at the site's cutoff), highest first; ``checks`` (with a validation
     period or walk-forward): each site's own honest check, as the ``selection`` block of a
     single-site run; ``stress`` (with ``[[stress]]`` cases): each site's cases, as the ``stress``
-    list of a single-site run.
+    list of a single-site run; ``forecast_wins`` (with several ``[forecasts]``): how many sites each
+    forecast wins at its own cutoffs there (a tie wins none; ``sites.csv`` names each site's winner).
     """
     from ..pricing.decision import cheaper, distribution
 
@@ -368,6 +376,8 @@ def _portfolio_entry(result: RunResult) -> dict[str, Any]:
         **({"checks": {site.name: _selection_entry(site.selection) for site in portfolio.sites
                        if site.selection is not None}}
            if any(site.selection is not None for site in portfolio.sites) else {}),
+        **({"forecast_wins": wins([site.contest for site in portfolio.sites], result.history.forecast_names)}
+           if portfolio.sites[0].contest is not None else {}),
         **({"stress": {site.name: [_stress_entry(case) for case in site.stress] for site in portfolio.sites
                        if site.stress is not None}}
            if any(site.stress is not None for site in portfolio.sites) else {}),

@@ -35,6 +35,7 @@ from ..inputs.history import History
 from .selection import ValidationCheck
 from ..pricing.tables import forecast_scores, forecast_value_curve
 from .verdict import Verdict
+from .winners import Contest, contest
 
 __all__ = ["ForecastResult", "ForecastPair", "Comparison", "compare_forecasts", "SCORES"]
 
@@ -137,6 +138,12 @@ class Comparison:
             if {p.better, p.other} == {a, b}:
                 return p
         raise KeyError((a, b))
+
+    def contest(self) -> Contest:
+        """The forecasts on the run's replicate seasons, each at its own recommended cutoff, and
+        which one wins (:mod:`simulator.analysis.winners`): the base case of the stress table."""
+        return contest([f.name for f in self.forecasts], [f.decision.recommended_cutoff for f in self.forecasts],
+                       [f.cost for f in self.forecasts])
 
     def summary(self, currency: str) -> dict:
         """The ``forecasts`` and ``forecast_pairs`` blocks of ``summary.json``."""

@@ -1,5 +1,6 @@
 """Forecast probabilities changed for a stress case: moved to a new event rate (:func:`prior_shift`,
-:func:`shift_odds`), stripped of skill (:func:`degrade`), or blurred by noise (:func:`log_odds_noise`).
+:func:`shift_odds`), stripped of skill (:func:`degrade`), or blurred by noise (:func:`log_odds_noise`); the
+probabilities of a case's views (:func:`view_probabilities`).
 
 scipy is imported inside the functions that use it: its modules take about a second to import, at
 every start of the command and of every worker, and most runs need none of them.
@@ -9,7 +10,7 @@ from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["prior_shift", "degrade", "log_odds_noise", "shift_odds"]
+__all__ = ["prior_shift", "degrade", "log_odds_noise", "shift_odds", "view_probabilities"]
 
 
 def prior_shift(p: np.ndarray, base_rate: float, new_rate: float) -> np.ndarray:
@@ -68,3 +69,17 @@ def shift_odds(p: np.ndarray, log_factor: float) -> np.ndarray:
     factor = np.exp(log_factor)
     return factor * p / (factor * p + 1.0 - p)
 
+
+def view_probabilities(p: np.ndarray, training_rate: float, skill: float | None,
+                       rates: tuple[float, float] | None) -> list[tuple[str, np.ndarray]]:
+    """The probabilities of each view of a stress case, for one forecast ``p``: ``"as_forecast"``
+    (degraded by ``skill`` towards ``training_rate``, :func:`degrade`, when given), and, when the
+    case changes the event rate (``rates``: the base rate and the new one), ``"adapted"``: those
+    moved to the new rate by Bayes' rule (:func:`prior_shift`, the new rate kept inside
+    [1e-6, 1 - 1e-6])."""
+    forecast = p if skill is None else degrade(p, training_rate, skill)
+    views = [("as_forecast", forecast)]
+    if rates is not None:
+        base_rate, new_rate = rates
+        views.append(("adapted", prior_shift(forecast, base_rate, min(max(new_rate, 1e-6), 1 - 1e-6))))
+    return views

@@ -31,7 +31,7 @@ from __future__ import annotations
 
 import dataclasses
 import hashlib
-from collections.abc import Callable
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -48,9 +48,10 @@ from ..inputs.scenario import Scenario
 from ..inputs.scenario_changes import StressCase
 from ..inputs.scenario_costs import Costs, break_even_probability
 from ..inputs.scenario_types import BASELINES
-from .probability_changes import degrade, prior_shift, shift_odds
+from .probability_changes import shift_odds, view_probabilities
 from .replicate_pricer import ReplicatePricer
 from .tilt import Tilt, odds_shift_to_rate, tilt_to_rate
+from .winners import Contest, contest
 
 __all__ = ["EventRateCheck", "StressView", "StressResult", "run_stress"]
 
@@ -111,6 +112,8 @@ class StressView:
     model_cost_at_base: np.ndarray
     model_cost_at_best: np.ndarray
     baseline_cost: dict[str, np.ndarray]
+    # several [forecasts]: each at its own recommended cutoff of the base case, and the winner
+    forecasts: Contest | None = None
 
 
 @dataclass(frozen=True)
@@ -134,18 +137,24 @@ def run_stress(scenario: Scenario, history: History, *, calendar: Calendar, resa
                base_mean_cost: float, seasons_per_history: int,
                interval_rng: Callable[[], np.random.Generator],
                outcome_probability: np.ndarray | None = None,
-               progress: Callable[[str, int, int], None] | None = None) -> tuple[StressResult, ...]:
+               progress: Callable[[str, int, int], None] | None = None,
+               own_cutoffs: Sequence[int] = ()) -> tuple[StressResult, ...]:
     """Price every ``[[stress]]`` case of ``scenario``, in order.
 
     ``resampler``, ``seed``, ``replicates`` and ``decision`` are the base run's, ``base_mean_cost``
     its mean season cost at its recommended cutoff;
     ``interval_rng()`` gives the generator the base run used for the interval of its cutoff (so the
     cases' intervals share its random numbers). ``outcome_probability`` is set in the calibrated mode.
+
+    ``own_cutoffs``: with several ``[forecasts]``, each forecast's recommended cutoff index of the
+    base case, in the order listed (``history.forecast_names``). Every forecast is then priced on
+    the case's replicates (common random numbers: the same rows, tilt and noise draws) at its own
+    cutoff, and each view says which one wins (:attr:`StressView.forecasts`).
     """
     _check_cases(scenario)
     base = _Base(scenario, history, calendar, resampler, cutoffs, seed, replicates, decision,
                  float(base_mean_cost), seasons_per_history,
-                 interval_rng, outcome_probability, progress)
+                 interval_rng, outcome_probability, progress, tuple(int(i) for i in own_cutoffs))
     return tuple(_run_case(case, base) for case in scenario.stress)
 
 
@@ -177,6 +186,14 @@ class _Base:
     interval_rng: Callable[[], np.random.Generator]
     outcome_probability: np.ndarray | None
     progress: Callable[[str, int, int], None] | None
+    own_cutoffs: tuple[int, ...] = ()  # several [forecasts]: each one's base cutoff index, main first
+
+    @property
+    def forecasts(self) -> list[np.ndarray]:
+        """Each forecast's probabilities (after flip), the main one first; one with one forecast."""
+        if len(self.own_cutoffs) < 2:
+            return [self.history.p]
+        return [self.history.with_forecast(j).p for j in range(len(self.own_cutoffs))]
 
     @property
     def expected_event(self) -> np.ndarray:
@@ -207,27 +224,31 @@ def _run_case(case: StressCase, base: _Base) -> StressResult:
         if tilt is not None and not tilt.reachable:
             new_rate = tilt.rate
 
-    # the probabilities of each view: as forecast (perhaps degraded), and adapted to the new rate
+    # the probabilities of each view, for each forecast: as forecast (perhaps degraded), and
+    # adapted to the new rate
     training_rate = float(history.event[history.training].mean())
-    forecast = history.p if case.skill is None else degrade(history.p, training_rate, case.skill)
-    views = [("as_forecast", forecast)]
-    if case.event_rate is not None:
-        views.append(("adapted", prior_shift(forecast, base_rate, min(max(new_rate, 1e-6), 1 - 1e-6))))
+    rates = None if case.event_rate is None else (base_rate, new_rate)
+    each = [view_probabilities(p, training_rate, case.skill, rates) for p in base.forecasts]
+    views = each[0]
     noise_key = int.from_bytes(hashlib.sha256(case.name.encode()).digest()[:4], "big")
     if base.scenario.operations is None:
-        pricers = [ReplicatePricer(history, base.cutoffs, costs, seed=seed, forecast=p,
-                                   noise_sd=case.noise or 0.0, noise_key=noise_key,
-                                   outcome_probability=outcome_probability) for _, p in views]
+        pricers = [[ReplicatePricer(history, base.cutoffs, costs, seed=seed, forecast=p,
+                                    noise_sd=case.noise or 0.0, noise_key=noise_key,
+                                    outcome_probability=outcome_probability) for _, p in own] for own in each]
     else:  # every season played under the rules, with the case's prices and forecast
         rules = base.scenario.model_copy(update={
             "costs": costs, "operations": case.changed_operations(base.scenario.operations)})
-        pricers = [_rules_pricer(dataclasses.replace(history, p=p), base, rules) for _, p in views]
+        pricers = [[_rules_pricer(dataclasses.replace(history, p=p), base, rules) for _, p in own] for own in each]
 
     parts: list[list[PricedBlock]] = [[] for _ in views]
+    later: list[list[list[np.ndarray]]] = [[[] for _ in views] for _ in each[1:]]  # at each own cutoff
     done = 0
-    for b, rows in enumerate(sampler.blocks(seed, replicates)):
-        for pricer, store in zip(pricers, parts):
+    for b, rows in enumerate(sampler.blocks(seed, replicates)):  # drawn once for every forecast
+        for pricer, store in zip(pricers[0], parts):
             store.append(pricer(rows, b))
+        for j, (own, stores) in enumerate(zip(pricers[1:], later), 1):
+            for pricer, store in zip(own, stores):
+                store.append(pricer(rows, b).model[:, base.own_cutoffs[j]])
         done += rows.shape[0]
         if base.progress is not None:
             base.progress(f"stress: {case.name}", done, replicates)
@@ -240,10 +261,16 @@ def _run_case(case: StressCase, base: _Base) -> StressResult:
             warnings.append(rate_check.note)
 
     out_views = []
-    for (name, _), store in zip(views, parts):
+    for i, ((name, _), store) in enumerate(zip(views, parts)):
         baselines = np.concatenate([blk.baselines for blk in store])
-        out_views.append(_view(name, case, base, np.concatenate([blk.model for blk in store]),
-                               {n: baselines[:, i] for i, n in enumerate(BASELINES)}, rate_check))
+        view = _view(name, case, base, np.concatenate([blk.model for blk in store]),
+                     {n: baselines[:, i] for i, n in enumerate(BASELINES)}, rate_check)
+        if later:  # several [forecasts]: which one wins this view, each at its own base cutoff
+            ranked = contest(base.history.forecast_names, [float(base.cutoffs[k]) for k in base.own_cutoffs],
+                             [view.model_cost_at_base] + [np.concatenate(stores[i]) for stores in later])
+            view = dataclasses.replace(view, forecasts=ranked,
+                                       headline=f"{view.headline} {ranked.sentence(base.scenario.currency)}")
+        out_views.append(view)
     return StressResult(name=case.name, changes=case.model_dump(exclude_none=True, exclude={"name"}),
                         costs=costs, theoretical_cutoff=break_even_probability(costs),
                         mean_block_days=sampler.mean_block * base.calendar.spacing_days,
@@ -266,8 +293,9 @@ def _case_resampler(case: StressCase, base: _Base, warnings: list[str]) -> tuple
                   else base.resampler.mean_block)
     seasons_used = None
     if case.worst_seasons is not None:
-        seasons_used = _worst_seasons(history, base.scenario.costs, base.decision.recommended_cutoff,
-                                      case.worst_seasons)
+        seasons_used = _worst_seasons(history, base.scenario.costs, list(zip(
+            base.forecasts, [float(base.cutoffs[k]) for k in base.own_cutoffs or (base.decision.recommended_index,)])),
+            case.worst_seasons)
         if len(seasons_used) < case.worst_seasons:
             warnings.append(f'stress "{case.name}": worst_seasons = {case.worst_seasons} but the history '
                             f"has {len(seasons_used)} seasons; all of them are used")
@@ -361,11 +389,15 @@ def _headline(case: str, view: str, base: float, best: float, extra: float, save
                    f"(cheaper in {moving:.0%} of seasons).")
 
 
-def _worst_seasons(history: History, costs: Costs, cutoff: float, k: int) -> tuple[int, ...]:
-    """The k seasons with the highest historical cost per occasion when acting at ``cutoff``."""
+def _worst_seasons(history: History, costs: Costs, forecasts: Sequence[tuple[np.ndarray, float]],
+                   k: int) -> tuple[int, ...]:
+    """The k seasons with the highest historical cost per occasion when acting on each forecast of
+    ``forecasts`` (probabilities, cutoff) at its cutoff: with several, the sum of their costs per
+    occasion, added in ascending order so that the order they are listed in changes nothing."""
     rows = history.evaluated
-    cost = occasion_costs(decimals.reaches(history.p[rows], cutoff), history.event[rows], costs)
     labels, index = np.unique(history.season[rows], return_inverse=True)
-    per_occasion = np.bincount(index, weights=cost) / np.bincount(index)
+    each = [np.bincount(index, weights=occasion_costs(decimals.reaches(p[rows], cutoff), history.event[rows], costs))
+            / np.bincount(index) for p, cutoff in forecasts]
+    per_occasion = each[0] if len(each) == 1 else np.sort(np.stack(each), axis=0).sum(axis=0)
     order = np.argsort(-per_occasion, kind="stable")[:k]
     return tuple(int(s) for s in np.sort(labels[order]))

@@ -190,16 +190,26 @@ def together(parts: list[SeasonCosts]) -> SeasonCosts | None:
                        cutoffs=first.cutoffs)
 
 
-def season_costs(history: History, calendar: Calendar, cutoffs: np.ndarray, scenario: Scenario) -> SeasonCosts:
+def season_costs(history: History, calendar: Calendar, cutoffs: np.ndarray, scenario: Scenario,
+                 rules_of: SeasonCosts | None = None) -> SeasonCosts:
     """Each evaluated season's cost at every cutoff and under each rule of :data:`RULES`.
 
     Without ``[operations]``: the season's historical occasions priced with ``[costs]``. With them:
     the season laid on ``calendar`` and played under the rules
     (:class:`~simulator.operations_fast.OperationsPricer`).
+
+    ``rules_of``: the season costs of another forecast of the same history (the same rows,
+    outcomes, seasons and costs; ``History.with_forecast``). The rules ignore the forecast, so
+    their costs and the occasions are taken from it, and only the model is priced here.
     """
     seasons = history.seasons
     evaluated = history.evaluated
     k = seasons.size
+    if rules_of is not None and not np.array_equal(rules_of.seasons, seasons):
+        raise ValueError("rules_of must come from the same history's seasons")
+    if rules_of is not None and scenario.operations is None:
+        return dataclasses.replace(rules_of, model=_model_with_costs(history, cutoffs, scenario.costs, seasons),
+                                   cutoffs=cutoffs)
     learnt = [dataclasses.replace(history, evaluated=evaluated & (history.season != s),
                                   validation=np.zeros_like(evaluated)) for s in seasons]
     if scenario.operations is None:
@@ -212,6 +222,8 @@ def season_costs(history: History, calendar: Calendar, cutoffs: np.ndarray, scen
     columns = [BASELINES.index(name) for name in RULES]
     everything = dataclasses.replace(history, validation=np.zeros_like(evaluated))
     block = OperationsPricer(everything, calendar, cutoffs, scenario)(rows)  # the forecast learns nothing
+    if rules_of is not None:
+        return dataclasses.replace(rules_of, model=block.model, cutoffs=cutoffs)
     rules = np.broadcast_to(block.baselines[:, columns], (k, k, len(RULES))).copy()
     # only the seasonal rate learns: a fold whose months come out otherwise without its season
     # plays the seasons again under its own rules (beside one cutoff, the cheapest to carry)
@@ -228,10 +240,9 @@ def _with_costs(history: History, cutoffs: np.ndarray, scenario: Scenario, seaso
     costs = scenario.costs
     evaluated = history.evaluated
     index = np.searchsorted(seasons, history.season[evaluated])  # each evaluated row's season
-    p, event = history.p[evaluated], history.event[evaluated]
+    event = history.event[evaluated]
     k = seasons.size
-    model = np.stack([price(count_at_cutoffs(p[index == i], event[index == i], cutoffs), costs)
-                      for i in range(k)])
+    model = _model_with_costs(history, cutoffs, costs, seasons)
     rules = np.empty((k, k, len(RULES)))
     for f, h in enumerate(learnt):
         actions = baseline_actions(h, costs)
@@ -240,3 +251,13 @@ def _with_costs(history: History, cutoffs: np.ndarray, scenario: Scenario, seaso
             rules[f, :, r] = np.bincount(index, weights=cost, minlength=k)
     return SeasonCosts(model=model, rules=rules, occasions=np.bincount(index, minlength=k), seasons=seasons,
                        cutoffs=cutoffs)
+
+
+def _model_with_costs(history: History, cutoffs: np.ndarray, costs, seasons: np.ndarray) -> np.ndarray:
+    """Each season's cost acting on the forecast at every cutoff, (n_seasons, n_cutoffs), priced
+    on its historical occasions with the ``[costs]`` matrix."""
+    evaluated = history.evaluated
+    index = np.searchsorted(seasons, history.season[evaluated])  # each evaluated row's season
+    p, event = history.p[evaluated], history.event[evaluated]
+    return np.stack([price(count_at_cutoffs(p[index == i], event[index == i], cutoffs), costs)
+                     for i in range(seasons.size)])

@@ -114,7 +114,7 @@ class History:
             self, dates=self.dates[rows], p=self.p[rows], event=self.event[rows],
             evaluated=self.evaluated[rows], validation=self.validation[rows], season=self.season[rows],
             day_of_season=self.day_of_season[rows], prev_event=self.prev_event[rows], warnings=(),
-            site=None, site_names=(self.site_names[index],))
+            site=None, site_names=(self.site_names[index],), forecast_p=tuple(f[rows] for f in self.forecast_p))
 
     @property
     def n_evaluated(self) -> int:

@@ -23,24 +23,11 @@ from ..pricing.costs import PricedBlock, SeasonPricer
 from ..replay.resample import BLOCK
 from ..results import SiteResult
 from .sites import SUM_GROUP, _added, _site_result, _Totals
-from .work import _MAX_DRAWN_BYTES, _DRAWN, Progress, _join, _pricer, _Work
+from .work import _FORECAST_KEY, _MAX_DRAWN_BYTES, _DRAWN, Progress, _join, _pricer, _Work
 
 INLINE_BELOW = 20_000  # site-replicate seasons (x10 with operating rules) not worth sharing out
 MAX_GROUP = 16  # sites priced together on the same draws in one task
 TASKS_PER_WORKER = 4  # aim for at least this many tasks per worker, for balance
-
-
-_FORECAST_KEY = "forecast_model_cost_"  # extras of a priced block: a later forecast's model costs
-
-
-def _forecast_costs(block: PricedBlock, n_forecasts: int) -> tuple[PricedBlock, list[np.ndarray]]:
-    """The main forecast's priced block, and the model costs of each later forecast priced on the
-    same replicate rows (carried in the block's extras by :func:`_price_task`)."""
-    if n_forecasts == 1:
-        return block, []
-    costs = [block.extras[f"{_FORECAST_KEY}{j}"] for j in range(1, n_forecasts)]
-    extras = {key: value for key, value in block.extras.items() if not key.startswith(_FORECAST_KEY)}
-    return dataclasses.replace(block, extras=extras), costs
 
 
 def _price_task(work: _Work, first_site: int, last_site: int, chunk: int | None) -> list[tuple]:

@@ -16,6 +16,7 @@ import pandas as pd
 from ..analysis.selection import Selection, select_honestly
 from ..analysis.stress import StressResult, run_stress
 from ..analysis.verdict import best_rule, judge, season_costs
+from ..analysis.winners import contest
 from ..execution.executor import Executor
 from ..inputs.scenario_costs import break_even_probability, cost_warnings
 from ..inputs.scenario_types import BASELINES
@@ -25,7 +26,7 @@ from ..pricing.tables import cutoff_table, forecast_scores
 from ..replay.resample import Resampler, block_rng
 from ..results import SiteResult
 from ..rules.operations_result import OperationsResult
-from .work import _INTERVAL_STREAM, Progress, _pricer, _Work
+from .work import _INTERVAL_STREAM, Progress, _forecast_costs, _pricer, _Work
 
 SUM_GROUP = 16  # sites whose costs are added together before the groups' sums (fixes the sum's order)
 
@@ -34,7 +35,7 @@ def _checked_sites(work: "_Work", executor: Executor, sites: tuple[SiteResult, .
                    walk_forward: bool, label: str, progress: Progress | None) -> tuple[SiteResult, ...]:
     """Each site with its own validation check and walk-forward (when ``check``) and its
     ``[[stress]]`` cases, a task per site, shared out like the pricing."""
-    tasks = [(k, site.decision, float(site.model_cost.mean()), check, walk_forward, label)
+    tasks = [(k, site.decision, float(site.model_cost.mean()), check, walk_forward, label, site.own_cutoffs)
              for k, site in enumerate(sites)]
     out = list(sites)
     what = ", ".join(w for w, wanted in (("later seasons", check), ("stress cases", work.scenarios[0].stress))
@@ -47,7 +48,8 @@ def _checked_sites(work: "_Work", executor: Executor, sites: tuple[SiteResult, .
 
 
 def _check_task(work: "_Work", k: int, decision: Decision, base_mean_cost: float, check: bool,
-                walk_forward: bool, label: str) -> tuple[Selection | None, tuple[StressResult, ...] | None]:
+                walk_forward: bool, label: str,
+                own_cutoffs: tuple[int, ...] = ()) -> tuple[Selection | None, tuple[StressResult, ...] | None]:
     """Site ``k``'s validation check and walk-forward, and its ``[[stress]]`` cases, made on its
     history alone exactly as a run of that site alone makes them (with the joint replay's mean run
     length; a site with a row on every date has the same replicates either way)."""
@@ -66,7 +68,8 @@ def _check_task(work: "_Work", k: int, decision: Decision, base_mean_cost: float
                             seed=work.seed, replicates=work.replicates, decision=decision,
                             base_mean_cost=base_mean_cost,
                             seasons_per_history=max(1, round(history.n_evaluated / calendar.n_occasions)),
-                            interval_rng=lambda: block_rng(work.seed, 0, _INTERVAL_STREAM))
+                            interval_rng=lambda: block_rng(work.seed, 0, _INTERVAL_STREAM),
+                            own_cutoffs=own_cutoffs)
     return selection, stress
 
 
@@ -123,11 +126,21 @@ def _site_result(work: "_Work", k: int, block: PricedBlock) -> SiteResult:
     cutoffs, sim = work.cutoffs, scenario.simulation
     costs = scenario.costs
     p_star = break_even_probability(costs)
+    block, later = _forecast_costs(block, work.n_forecasts)
     baseline_cost = {name: block.baselines[:, i].copy() for i, name in enumerate(BASELINES)}
     reference = baseline_cost[sim.reference]
     n_occ = work.resampler.calendar.n_occasions
-    decision = decide(block.model, reference, cutoffs, max(1, round(history.n_evaluated / n_occ)),
+
+    def decide_one(model: np.ndarray) -> Decision:
+        return decide(model, reference, cutoffs, max(1, round(history.n_evaluated / n_occ)),
                       block_rng(work.seed, 0, _INTERVAL_STREAM), scenario.decision.objective)
+
+    decision = decide_one(block.model)
+    own, ranked = (), None
+    if later:  # several [forecasts]: each at its own cutoff on the site's replicates, and the winner
+        own = (decision.recommended_index, *(decide_one(model).recommended_index for model in later))
+        ranked = contest(history.forecast_names, [float(cutoffs[i]) for i in own],
+                         [model[:, i] for model, i in zip((block.model, *later), own)])
     table = cutoff_table([(history, costs)], cutoffs, p_star, block.model, reference)
     operations = None
     if scenario.operations is not None:
@@ -144,7 +157,8 @@ def _site_result(work: "_Work", k: int, block: PricedBlock) -> SiteResult:
                       decision=decision, table=table, quality=forecast_scores(history),
                       model_cost=block.model[:, decision.recommended_index].copy(),
                       baseline_cost=baseline_cost, missing_dates=work.resampler.n_dates - own_dates,
-                      operations=operations, warnings=warnings, verdict=verdict, season_costs=seasons)
+                      operations=operations, warnings=warnings, verdict=verdict, season_costs=seasons,
+                      own_cutoffs=own, contest=ranked)
 
 
 def _sites_table(sites: Sequence[SiteResult], common: int) -> pd.DataFrame:
@@ -173,6 +187,8 @@ def _sites_table(sites: Sequence[SiteResult], common: int) -> pd.DataFrame:
                "mean_savings": d.savings.mean, "p05_savings": d.savings.p05, "p95_savings": d.savings.p95,
                "prob_saving": d.prob_saving, "forecast_value": value, "value_rank": int(r),
                "mean_cost_at_common_cutoff": _cell(site.table, common, "mean_cost")}
+        if site.contest is not None:  # several [forecasts]: the best one here, against the runner-up
+            row.update(site.contest.row())
         if site.verdict is not None:  # simulator.verdict, on the site's own seasons
             v = site.verdict
             row.update({"use_forecast": v.use_forecast, "best_rule_without_forecast": v.best_rule,

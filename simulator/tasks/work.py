@@ -8,6 +8,7 @@ draws the run's replicates again to count the events no action met.
 
 from __future__ import annotations
 
+import dataclasses
 import uuid
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
@@ -142,3 +143,16 @@ def _events_without_action(work: "_Work", index: int) -> np.ndarray:
     for rows in resampler.blocks(work.seed, work.replicates):
         out.append(sum(m[resampler.site_rows(rows, k)].sum(axis=1) for k, m in enumerate(missed)))
     return np.concatenate(out).astype(np.int64)
+
+
+_FORECAST_KEY = "forecast_model_cost_"  # extras of a priced block: a later forecast's model costs
+
+
+def _forecast_costs(block: PricedBlock, n_forecasts: int) -> tuple[PricedBlock, list[np.ndarray]]:
+    """The main forecast's priced block, and the model costs of each later forecast priced on the
+    same replicate rows (carried in the block's extras by :func:`simulator.tasks.plan._price_task`)."""
+    if n_forecasts == 1:
+        return block, []
+    costs = [block.extras[f"{_FORECAST_KEY}{j}"] for j in range(1, n_forecasts)]
+    extras = {key: value for key, value in block.extras.items() if not key.startswith(_FORECAST_KEY)}
+    return dataclasses.replace(block, extras=extras), costs
