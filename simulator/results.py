@@ -12,6 +12,7 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
+from .analysis.cost_spread import CostSpread
 from .analysis.forecasts import Comparison
 from .analysis.calibration import Calibration
 from .analysis.selection import Selection
@@ -154,6 +155,9 @@ class RunResult:
     events_without_action: np.ndarray | None = None
     # with two or more [forecasts]: each priced on the same replicates, and every pair compared
     comparison: Comparison | None = None
+    # with costs given as ranges (one site): the spread of the recommended cutoff's season cost
+    # split into the weather's part and the cost ranges' part
+    cost_spread: CostSpread | None = None
 
     @property
     def reference(self) -> str:

@@ -105,3 +105,13 @@ def test_readme_quotes_the_bad_season_choice_as_the_run_makes_it(stress_run):
               f"a season costs {money(tail['mean_cost'] - mean['mean_cost'], 'EUR')} more on average, and the worst "
               f"10% of seasons cost {money(mean['shortfall10_cost'] - tail['shortfall10_cost'], 'EUR')} less each.")
     assert quoted in README
+
+
+def test_readme_quotes_the_split_of_the_spread_as_the_run_makes_it(stress_run):
+    from simulator.notation.prose import share
+
+    spread = stress_run.cost_spread
+    quoted = (f"at its cutoff of {stress_run.decision.recommended_cutoff:.2f}, **{share(spread.share_weather)}** of "
+              f"the variance of the season cost comes from the weather\nand **{share(spread.share_costs)}** from "
+              "that range")
+    assert quoted in README

@@ -20,6 +20,7 @@ from typing import Any
 from ..pricing.decision import OBJECTIVE_NAMES
 from .finding import Finding
 from .forecast_choice import SECTION_KEYS, forecast_findings
+from .cost_doubt import cost_doubt
 from ..inputs.history_calendar import season_start_month
 from ..notation.prose import cutoff_decimals, cutoff_text, format_value, money, money_range, ranges_text, share
 
@@ -179,6 +180,10 @@ def account(summary: Mapping[str, Any]) -> Account:
     beats = _beats(s, grid, decimals)
     if beats is not None:
         out.append(beats)
+
+    doubt = cost_doubt(s, cut, unit, Finding)  # costs given as ranges
+    if doubt is not None:
+        out.append(doubt)
 
     missed = s.get("events_without_action")
     if missed:  # a hazard: the event occasions the cutoff leaves without action
