@@ -8,7 +8,7 @@ run this only after changing a generator on purpose, and review the diff.
 
 from pathlib import Path
 
-from simulator.demo import gritting_history, line_marking_history, river_history, write_history_csv
+from simulator.demo.generator import gritting_history, line_marking_history, river_history, write_history_csv
 
 HERE = Path(__file__).resolve().parent
 

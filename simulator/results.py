@@ -12,6 +12,7 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
+from .analysis.cost_spread import CostSpread
 from .analysis.forecasts import Comparison
 from .analysis.calibration import Calibration
 from .analysis.selection import Selection
@@ -164,6 +165,9 @@ class RunResult:
     # which cost estimate matters: each cost moved alone, its ends and switching values; or a note
     # saying why a run has none (analysis/sensitivity.py)
     sensitivity: Sensitivity | None = None
+    # with costs given as ranges (one site): the spread of the recommended cutoff's season cost
+    # split into the weather's part and the cost ranges' part
+    cost_spread: CostSpread | None = None
 
     @property
     def reference(self) -> str:

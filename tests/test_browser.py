@@ -309,3 +309,31 @@ def test_report_from_names_full_of_markup_runs_nothing_injected_and_its_slider_w
     errors = [e for e in page.events if e.get("method") == "Runtime.exceptionThrown"
               or (e.get("method") == "Log.entryAdded" and e["params"]["entry"]["level"] == "error")]
     assert not errors, errors
+
+
+def test_the_forecasts_section_shows_its_table_and_chart_on_a_desktop_and_a_phone(demo_report, page):
+    """The demo's two forecasts (issue 13): the section's table has a row per forecast and stays in
+    the page's width (on a phone it scrolls inside its own box), and its chart shows in the layout
+    of the screen, loaded."""
+    try:
+        for width, layout in ((1200, "fig-wide"), (390, "fig-narrow")):
+            page.call("Emulation.setDeviceMetricsOverride", width=width, height=900, deviceScaleFactor=1,
+                      mobile=width < 600)
+            _open(page, demo_report / "report.html")
+            seen = page.evaluate("""(() => {
+                const section = document.getElementById('forecasts');
+                const table = document.getElementById('forecast-table');
+                const shown = Array.from(section.querySelectorAll('figure img'))
+                    .filter(img => getComputedStyle(img).display !== 'none');
+                return {rows: table.tBodies[0].rows.length, names: Array.from(table.tBodies[0].rows)
+                            .map(row => row.cells[0].textContent.trim()),
+                        table_right: table.getBoundingClientRect().right,
+                        shown: shown.map(img => img.className),
+                        loaded: shown.every(img => img.complete && img.naturalWidth > 0),
+                        nav: !!document.querySelector('nav a[href="#forecasts"]')};
+            })()""")
+            assert seen["rows"] == 2 and seen["names"] == ["national service (main)", "premium supplier"]
+            assert seen["table_right"] <= width, seen
+            assert seen["shown"] == [layout] and seen["loaded"] and seen["nav"]
+    finally:
+        page.call("Emulation.clearDeviceMetricsOverride")

@@ -117,7 +117,7 @@ def test_scenario_names_existing_columns_and_stated_break_even(file_name):
 
 
 def test_line_marking_covers_ten_years_daily_with_consistent_amounts(line_marking):
-    assert list(line_marking.columns) == ["date", "rain_probability", "rain", "rain_mm"]
+    assert list(line_marking.columns) == ["date", "rain_probability", "premium_rain_probability", "rain", "rain_mm"]
     assert line_marking["date"].iloc[0] == "2017-01-01"
     assert line_marking["date"].iloc[-1] == "2026-12-31"
     assert len(line_marking) == 3652  # 365 x 10 + two leap days (2020, 2024)
@@ -160,6 +160,32 @@ def test_line_marking_forecast_is_overconfident_at_both_ends(line_marking):
     assert top.sum() > 100 and bottom.sum() > 100
     assert y[top].mean() < p[top].mean() - 0.02
     assert y[bottom].mean() > p[bottom].mean() + 0.02
+
+
+def test_line_marking_premium_forecast_is_sharper_and_calibrated(line_marking):
+    # the paid supplier's forecast (simulator.demo.generator._premium_forecast): a sharper signal
+    # than the national service's, and no overstatement, so it verifies at its face value at both
+    # ends (reliability-diagram reading as above; scores by scikit-learn)
+    y = line_marking["rain"].to_numpy()
+    national = line_marking["rain_probability"].to_numpy()
+    premium = line_marking["premium_rain_probability"].to_numpy()
+    monthly_climate = line_marking.groupby(_month(line_marking))["rain"].transform("mean").to_numpy()
+    assert roc_auc_score(y, premium) >= roc_auc_score(y, national) + 0.05
+    assert brier_score_loss(y, premium) < brier_score_loss(y, national) - 0.03
+    assert 0.40 <= _brier_skill(y, premium, monthly_climate) <= 0.52
+    top, bottom = premium >= 0.9, premium <= 0.1
+    assert top.sum() > 100 and bottom.sum() > 100
+    assert abs(y[top].mean() - premium[top].mean()) < 0.02
+    assert abs(y[bottom].mean() - premium[bottom].mean()) < 0.02
+
+
+def test_line_marking_premium_forecast_is_drawn_on_its_own_stream(line_marking, monkeypatch):
+    # adding the paid forecast changed none of the national service's numbers: without it (its
+    # drawing replaced by a constant) the other columns come out the same
+    monkeypatch.setattr(demo, "_premium_forecast", lambda wet, prior, seed: np.zeros(wet.size))
+    without = demo.line_marking_history()
+    columns = ["date", "rain_probability", "rain", "rain_mm"]
+    pd.testing.assert_frame_equal(without[columns], line_marking[columns])
 
 
 # ---- the river design: seasonal, persistent, rare exceedances, skilful forecast -------------

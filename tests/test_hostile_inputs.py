@@ -51,6 +51,8 @@ BASE = {
     "costs": {"hit": "300", "false_alarm": "1800", "miss": "2500", "correct_negative": "0"},
     "simulation": {"replicates": "40", "seed": "11", "block_days": "3"},
 }
+# two forecasts of one column and the start of a price table (a price's case adds its line)
+TWO = '[forecasts]\n"a" = "probability"\n"b" = "probability"\n[forecast_prices]\n'
 OPERATIONS = '[operations]\ncrews_out_on = "acting"\nspoiled_on = "event"\nday_rate = 900\n'
 
 
@@ -115,6 +117,12 @@ CASES = [
     S("cost -inf", ("[costs] correct_negative",), {("costs", "correct_negative"): "-inf"}),
     S("cost -1e13", ("[costs] miss", "from -1e12 to 1e12"), {("costs", "miss"): "-1e13"}),
     S("cost a word", ("[costs] miss", "must be a number"), {("costs", "miss"): '"lots"'}),
+    S("forecast price negative", ('[forecast_prices] "b"', "from 0 to 1e12", "(got -1)"), extra=TWO + '"b" = -1\n'),
+    S("forecast price nan", ('[forecast_prices] "b"', "money per season", "nan"), extra=TWO + '"b" = nan\n'),
+    S("forecast price 1e308", ('[forecast_prices] "b"', "from 0 to 1e12"), extra=TWO + '"b" = 1e308\n'),
+    S("price of a forecast not listed", ("[forecast_prices]", '"bb" is not a forecast', 'did you mean "b"'),
+      extra=TWO + '"bb" = 10\n'),
+    S("escape sequence in a price's name", ("[forecast_prices]", "\\x1b[2J"), extra=TWO + '"\\u001b[2J" = 10\n'),
     S("cutoff step missing", ("[decision] cutoffs", "three numbers [from, to, step]"),
       {("decision", "cutoffs"): "[0.0, 1.0]"}),
     S("cutoff step inf", ("[decision] cutoffs", "three numbers"), {("decision", "cutoffs"): "[0.0, 1.0, inf]"}),

@@ -123,3 +123,13 @@ def test_readme_quotes_which_cost_estimate_matters_as_the_demo_finds_it(demo_run
                   top.band_switch.down, top.band_switch.up):
         assert money(value, "EUR").removesuffix(" EUR") in flat, value
     assert f"falls to {top.low.cutoff:.2f}" in flat and f"rises to {top.high.cutoff:.2f}" in flat
+
+
+def test_readme_quotes_the_split_of_the_spread_as_the_run_makes_it(stress_run):
+    from simulator.notation.prose import share
+
+    spread = stress_run.cost_spread
+    quoted = (f"at its cutoff of {stress_run.decision.recommended_cutoff:.2f}, **{share(spread.share_weather)}** of "
+              f"the variance of the season cost comes from the weather\nand **{share(spread.share_costs)}** from "
+              "that range")
+    assert quoted in README

@@ -14,10 +14,13 @@ and strategies.
 from __future__ import annotations
 
 from collections.abc import Mapping, Sequence
-from dataclasses import asdict, dataclass
+from dataclasses import dataclass
 from typing import Any
 
 from ..pricing.decision import OBJECTIVE_NAMES
+from .finding import Finding
+from .forecast_choice import SECTION_KEYS, forecast_findings
+from .cost_doubt import cost_doubt
 from ..inputs.history_calendar import season_start_month
 from .sensitivity_view import sensitivity_sentence
 from ..notation.prose import cutoff_decimals, cutoff_text, format_value, money, money_range, ranges_text, share
@@ -90,29 +93,6 @@ def _capital(text: str) -> str:
 # the account
 
 @dataclass(frozen=True)
-class Finding:
-    """One finding of a run.
-
-    ``key`` names it (``verdict``, ``cutoff``, ``season_cost``, ``saving``, ``beats_reference``,
-    ``events_without_action``,
-    ``deadline``, ``completion``, ``safety_stop``, ``sites``, ``season``, ``baseline:<name>``,
-    ``history``, ``sensitivity``); ``label`` is what it is, ``text`` the finding with its units as a table row
-    shows it, ``sentence`` the same in prose, ``basis`` what it is per and at which cutoff.
-    ``first`` marks the findings of the recommendation (the headline and the report's first screen).
-    """
-
-    key: str
-    label: str
-    text: str
-    sentence: str
-    basis: str
-    first: bool = True
-
-    def as_dict(self) -> dict[str, Any]:
-        return asdict(self)
-
-
-@dataclass(frozen=True)
 class Account:
     title: str
     findings: tuple[Finding, ...]
@@ -124,7 +104,9 @@ class Account:
 
     @property
     def sentences(self) -> list[str]:
-        return [f.sentence for f in self.first if f.sentence]
+        """The recommendation in prose; the comparison of forecasts' details are said in the
+        report's own section on them (``forecast_choice.SECTION_KEYS``), not here."""
+        return [f.sentence for f in self.first if f.sentence and f.key not in SECTION_KEYS]
 
     def get(self, key: str) -> Finding | None:
         return next((f for f in self.findings if f.key == key), None)
@@ -200,6 +182,10 @@ def account(summary: Mapping[str, Any]) -> Account:
     if beats is not None:
         out.append(beats)
 
+    doubt = cost_doubt(s, cut, unit, Finding)  # costs given as ranges
+    if doubt is not None:
+        out.append(doubt)
+
     missed = s.get("events_without_action")
     if missed:  # a hazard: the event occasions the cutoff leaves without action
         where = f", all {s['portfolio']['sites']} sites together" if s.get("portfolio") else ""
@@ -213,6 +199,7 @@ def account(summary: Mapping[str, Any]) -> Account:
 
     if ops:
         out += _operations(ops, at, ref)
+    out += forecast_findings(s, cut, lambda name: strategy_label(name, action, event, unit))
 
     portfolio = s.get("portfolio")
     if portfolio:

@@ -122,11 +122,29 @@ def summary(result: RunResult) -> dict[str, Any]:
     if result.verdict is not None:  # whether to act on the forecast at all (simulator.verdict)
         out["verdict"] = result.verdict.as_dict(scenario.currency)
     if result.comparison is not None:  # two or more [forecasts]: "forecasts" and "forecast_pairs"
-        out.update(result.comparison.summary(scenario.currency))
+        out.update(result.comparison.summary(scenario.currency, scenario.forecast_prices))
+    out.update(_cost_ranges_entry(result))
     if result.sensitivity is not None:  # which cost estimate matters (or why a run has no such table)
         out["sensitivity"] = sensitivity_entry(result.sensitivity)
     out = _clean(out)
     out["account"] = [finding.as_dict() for finding in account(out).findings]
+    return out
+
+
+def _cost_ranges_entry(result: RunResult) -> dict[str, Any]:
+    """With costs given as ranges: ``cost_ranges`` (dotted key -> low, likely, high and PERT mean,
+    per occasion in the currency) and, when a cost was drawn, ``cost_spread``: how much of the
+    variance of the season cost at the recommended ``cutoff`` comes from the weather and how much
+    from the cost ranges (:mod:`simulator.analysis.cost_spread` says the method)."""
+    ranges = result.scenario.cost_ranges()
+    if not ranges:
+        return {}
+    out: dict[str, Any] = {"cost_ranges": {key: {**r.model_dump(), "mean": r.mean} for key, r in ranges.items()}}
+    if result.cost_spread is not None:
+        out["cost_spread"] = {"cutoff": result.decision.recommended_cutoff, **result.cost_spread.as_dict(),
+                              "method": "variance of the season cost over the simulated seasons, with every "
+                                        "cost fixed at its mean (the weather's part) against with the costs "
+                                        "drawn (the whole); the costs' part is the difference"}
     return out
 
 

@@ -40,6 +40,7 @@ from .scenario_words import _months, _occasion_days, _rules_read_back
 from .file_names import table_names
 from .sensitivity_view import report_section
 from .tornado import tornado_chart
+from .report_forecasts import forecasts_section
 
 __all__ = ["render_report", "CAUTION", "FILE_NOTES"]
 
@@ -123,6 +124,8 @@ def render_report(result, summary: Mapping[str, Any]) -> dict[str, bytes]:
     if by_day is not None:
         draw["completion"] = partial(completion_chart, *by_day, operations["deadline"], words,
                                      reference_label=short_label(result.reference, action, occasion))
+    forecasts, forecast_charts = forecasts_section(result, summary, words)  # two or more [forecasts]
+    draw.update(forecast_charts)
     charts = {name: chart() for name, chart in draw.items()}
     phone = {name: chart(narrow=True) for name, chart in draw.items()}
 
@@ -175,7 +178,7 @@ def render_report(result, summary: Mapping[str, Any]) -> dict[str, bytes]:
         "forward": (summary.get("selection") or {}).get("walk_forward"),
         "calibration": summary.get("calibration"),
         "portfolio": _portfolio(summary, currency, decimals),
-        "risk": risk, "sensitivity": sensitivity,
+        "risk": risk, "sensitivity": sensitivity, "forecasts": forecasts,
     }
     html = _with_content_policy(_ENV.get_template("report.html.j2").render(context))
     files = {"report.html": html.encode("utf-8")}

@@ -23,7 +23,7 @@ Pure functions of arrays; ``run.py`` supplies the pricing, the decision and the 
 
 from __future__ import annotations
 
-from collections.abc import Callable, Sequence
+from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field
 from itertools import combinations
 
@@ -69,11 +69,13 @@ class ForecastResult:
         """Season cost at its own recommended cutoff, (n_replicates,)."""
         return self.model_cost[:, self.decision.recommended_index]
 
-    def as_dict(self, currency: str) -> dict:
+    def as_dict(self, currency: str, price: float | None = None) -> dict:
         """This forecast's entry in ``summary.json``'s ``forecasts`` block (``currency`` names the
-        money in its verdict's reason)."""
+        money in its verdict's reason; ``price``, its price per season when the scenario gives one,
+        is written as ``price``)."""
         d = self.decision
-        out = {"column": self.column, "recommended_cutoff": d.recommended_cutoff,
+        out = {"column": self.column, **({} if price is None else {"price": float(price)}),
+               "recommended_cutoff": d.recommended_cutoff,
                "recommended_cutoff_interval": d.recommended_cutoff_interval,
                "season_cost": distribution(self.cost).as_dict(),
                "savings": {"mean": d.savings.mean, "p05": d.savings.p05, "p95": d.savings.p95,
@@ -108,13 +110,39 @@ class ForecastPair:
     other: str
     saving: np.ndarray
     prob_saving: float
+    tolerance: float = 0.0  # money taken as equal in the two forecasts' season costs
 
-    def as_dict(self) -> dict:
+    def at_prices(self, prices: Mapping[str, float]) -> dict | None:
+        """Whether switching to the better forecast pays at the forecasts' prices per season.
+
+        ``net_saving`` is, replicate by replicate, ``saving`` minus the difference of the prices
+        (the better's minus the other's; a forecast without a price costs nothing extra), with its
+        mean, p05 and p95; ``prob_pays`` the share of replicate seasons in which the saving exceeds
+        that difference (a tie is not a gain); ``pays_on_average`` whether the mean net saving is
+        above zero. None when neither forecast has a price.
+        """
+        if self.better not in prices and self.other not in prices:
+            return None
+        better, other = float(prices.get(self.better, 0.0)), float(prices.get(self.other, 0.0))
+        net = self.saving - (better - other)
+        p05, p95 = np.quantile(net, [0.05, 0.95])
+        return {"better_price": better, "other_price": other,
+                "net_saving": {"mean": float(net.mean()), "p05": float(p05), "p95": float(p95)},
+                "prob_pays": float(cheaper(better - other, self.saving, self.tolerance).mean()),
+                "pays_on_average": bool(net.mean() > self.tolerance)}
+
+    def as_dict(self, prices: Mapping[str, float] | None = None) -> dict:
+        """This pair's entry in ``forecast_pairs``; with ``prices`` (per season, by forecast name)
+        that name either forecast, also ``at_prices`` (:meth:`at_prices`)."""
         p05, p95 = np.quantile(self.saving, [0.05, 0.95])
         mean = float(self.saving.mean())
-        return {"better": self.better, "other": self.other,
-                "saving": {"mean": mean, "p05": float(p05), "p95": float(p95), "prob_saving": self.prob_saving},
-                "worth_up_to": mean, "worth_up_to_confident": max(0.0, float(p05))}
+        out = {"better": self.better, "other": self.other,
+               "saving": {"mean": mean, "p05": float(p05), "p95": float(p95), "prob_saving": self.prob_saving},
+               "worth_up_to": mean, "worth_up_to_confident": max(0.0, float(p05))}
+        priced = self.at_prices(prices or {})
+        if priced is not None:
+            out["at_prices"] = priced
+        return out
 
 
 @dataclass(frozen=True)
@@ -145,10 +173,12 @@ class Comparison:
         return contest([f.name for f in self.forecasts], [f.decision.recommended_cutoff for f in self.forecasts],
                        [f.cost for f in self.forecasts])
 
-    def summary(self, currency: str) -> dict:
-        """The ``forecasts`` and ``forecast_pairs`` blocks of ``summary.json``."""
-        return {"forecasts": {f.name: f.as_dict(currency) for f in self.forecasts},
-                "forecast_pairs": [p.as_dict() for p in self.pairs]}
+    def summary(self, currency: str, prices: Mapping[str, float] | None = None) -> dict:
+        """The ``forecasts`` and ``forecast_pairs`` blocks of ``summary.json``; ``prices`` are the
+        scenario's ``[forecast_prices]`` (money per season, by forecast name)."""
+        prices = prices or {}
+        return {"forecasts": {f.name: f.as_dict(currency, prices.get(f.name)) for f in self.forecasts},
+                "forecast_pairs": [p.as_dict(prices) for p in self.pairs]}
 
     def table(self) -> pd.DataFrame:
         """``forecasts.csv``: one row per forecast and cutoff, its season cost distribution and its
@@ -203,6 +233,7 @@ def compare_forecasts(history: History, model_costs: Sequence[np.ndarray], refer
         if cheaper(b.cost.mean(), a.cost.mean(), tolerance):
             a, b = b, a
         pairs.append(ForecastPair(better=a.name, other=b.name, saving=b.cost - a.cost,
-                                  prob_saving=float(cheaper(a.cost, b.cost, tolerance).mean())))
+                                  prob_saving=float(cheaper(a.cost, b.cost, tolerance).mean()),
+                                  tolerance=tolerance))
     return Comparison(forecasts=tuple(results), pairs=tuple(pairs), cutoffs=cutoffs,
                       reference_cost=reference_cost)

@@ -276,7 +276,8 @@ def of_run(scenario: Scenario, history: History, calendar: Calendar, counts: Rep
     forecast (None: no verdict); ``band`` today's near-optimal band."""
     if why_not is not None or counts is None:
         return Sensitivity(costs=(), note=NOTES[why_not or "calibrated"])
-    ranges = scenario.cost_ranges() if hasattr(scenario, "cost_ranges") else None  # costs as ranges (issue 14.2)
+    # costs given as ranges with some width (one of zero width is the fixed cost, moved by 25%)
+    ranges = {key: r for key, r in scenario.cost_ranges().items() if r.high > r.low}
     verdict = None if rule is None else verdict_at(history, calendar, scenario.cutoffs, rule)
     return sensitivity(counts, scenario.costs, reference=scenario.simulation.reference,
                        objective=scenario.decision.objective, cutoffs=scenario.cutoffs, band=band,

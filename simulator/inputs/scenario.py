@@ -20,15 +20,16 @@ from pydantic import BaseModel, Field, ValidationError, field_validator, model_v
 
 from ..notation import decimals
 from .errors import InputError, did_you_mean, excerpt, printable, quoted, read_input_file
+from .ranges import CostRange, site_ranges, split_ranges
 from .scenario_changes import SiteSection, StressCase
 from .scenario_costs import Costs
 from .scenario_tables import (DecisionSection, EventSection, HistorySection, OperationsSection, SeasonSection,
                               SimulationSection)
-from .scenario_types import (MAX_CURRENCY, MAX_FORECASTS, MAX_SCENARIO_BYTES, MAX_SEASON_COSTS, MAX_TEXT, Name,
+from .scenario_types import (MAX_CURRENCY, MAX_FORECASTS, MAX_SCENARIO_BYTES, MAX_SEASON_COSTS, MAX_TEXT, Name, Price,
                              _Section)
 from .allowed_values import _allowed, _submodel
 
-__all__ = ["Scenario", "read_scenario", "scenario_from_text", "cutoff_grid", "check_workload"]
+__all__ = ["Scenario", "read_scenario", "scenario_from_text", "cutoff_grid", "check_workload", "CostRange"]
 
 
 class Scenario(_Section):
@@ -46,11 +47,23 @@ class Scenario(_Section):
     sites: dict[Name, SiteSection] = {}
     # several forecasts of the same event: display name -> probability column, in the order to show
     # them; the first is the main forecast (it becomes [history] probability_column)
-    forecasts: Annotated[dict[Name, Name], Field(max_length=MAX_FORECASTS,
-                                                 description=f"at most {MAX_FORECASTS} forecasts")] = {}
+    forecasts: Annotated[dict[Name, Name], Field(
+        max_length=MAX_FORECASTS, description=f"a probability column's name (text) for each of at most "
+                                              f"{MAX_FORECASTS} forecasts")] = {}
+    # the price of a forecast per season, by its name in [forecasts]: whether switching pays at it
+    forecast_prices: Annotated[dict[Name, Price], Field(
+        max_length=MAX_FORECASTS, description="money per season, a number from 0 to 1e12")] = {}
     # where the file was read from (not a user key): history paths are relative to it
     source: Path | None = Field(default=None, exclude=True)
     sha256: str = Field(default="", exclude=True)
+    # the costs written as ranges, by dotted key (not a user key: read by inputs/ranges.py, which
+    # puts each range's PERT mean in the cost's place)
+    ranges: dict[str, CostRange] = Field(default={}, exclude=True)
+
+    def cost_ranges(self) -> dict[str, CostRange]:
+        """The costs written as ranges, by dotted key: ``costs.miss``, ``sites.<site>.costs.miss``
+        (a site's own scenario, :meth:`for_site`, has its ranges as ``costs.*``)."""
+        return dict(self.ranges)
 
     @property
     def cutoffs(self) -> np.ndarray:
@@ -88,6 +101,19 @@ class Scenario(_Section):
                 raise ValueError('each forecast needs a name and a column, as "our model" = "p_ours"')
         return value
 
+    @field_validator("forecast_prices")
+    @classmethod
+    def _prices_name_forecasts(cls, value: dict[str, float], info) -> dict[str, float]:
+        """Every ``[forecast_prices]`` key names a forecast of ``[forecasts]``."""
+        forecasts = info.data.get("forecasts") or {}
+        for name in value:
+            if not forecasts:
+                raise ValueError(f"{quoted(name)}: a price compares several forecasts; list them under "
+                                 "[forecasts] first")
+            if name not in forecasts:
+                raise ValueError(f"{quoted(name)} is not a forecast of [forecasts]{did_you_mean(name, list(forecasts))}")
+        return value
+
     @property
     def forecast_columns(self) -> tuple[tuple[str, str], ...]:
         """(display name, probability column) of every forecast, the main one first: the
@@ -114,7 +140,8 @@ class Scenario(_Section):
         override = self.sites.get(name)
         if override is None:
             return self
-        update: dict[str, Any] = {"sites": {}}
+        update: dict[str, Any] = {"sites": {}, "ranges": site_ranges(
+            self.ranges, name, set(override.costs.given()) if override.costs is not None else set())}
         if override.costs is not None:
             update["costs"] = Costs(**{**self.costs.model_dump(), **override.costs.given()})
         if override.operations is not None:
@@ -184,10 +211,13 @@ def scenario_from_text(text: str, label: str = "scenario") -> Scenario:
                          "near that line") from None
     except RecursionError:
         raise InputError(f"{label}: not valid TOML (nested too deeply); check the file") from None
+    data, ranges = split_ranges(data, label)  # costs written as ranges: their PERT means in place
     try:
         scenario = Scenario.model_validate(data)
     except ValidationError as exc:
         raise InputError(_first_problem(exc, label)) from None
+    if ranges:
+        scenario = scenario.model_copy(update={"ranges": ranges})
     _check_sites(scenario, label)
     check_workload(scenario.simulation.replicates, len(scenario.cutoffs), f"{label} [simulation] replicates",
                    len(scenario.forecasts))
@@ -227,16 +257,19 @@ def _first_problem(exc: ValidationError, label: str) -> str:
         where = f"[{_table(loc[:-1])}]" if len(loc) > 1 else "top level"
         if loc[0] == "stress" and len(loc) > 2:
             where = f"[[stress]] table {int(loc[1]) + 1}" + (f" {'.'.join(loc[2:-1])}" if len(loc) > 3 else "")
-        valid = [k for k in model.model_fields if k not in ("source", "sha256")]
+        valid = [k for k in model.model_fields if k not in ("source", "sha256", "ranges")]
         return f"{label} {where}: unknown key {quoted(key)}{did_you_mean(key, valid)}"
     field, depth = _field_at(Scenario, loc)
     inside = len(loc) > depth  # the problem is inside the key's value (a list entry, a dict's key)
+    entry = loc[1] if loc[:1] in (["forecasts"], ["forecast_prices"]) and inside else None  # one forecast's
     loc = loc[:depth]
     section = [p for p in loc if not p.isdigit()]
     if section and section[0] == "stress" and len(loc) > 1 and loc[1].isdigit():
         where = f"[[stress]] table {int(loc[1]) + 1}" + (f" {'.'.join(loc[2:])}" if len(loc) > 2 else "")
     elif loc and loc[0] == "sites" and len(loc) > 1:
         where = f"[{_table(loc[:3])}]" + (f" {'.'.join(loc[3:])}" if len(loc) > 3 else "")
+    elif entry is not None:
+        where = f"[{loc[0]}] {quoted(entry)}"
     elif not section:
         where = "top level"
     elif section[0] in _SECTIONS:
@@ -266,7 +299,7 @@ def _what_is_wrong(err: dict, field: Any) -> str:
 
 
 _SECTIONS = ("history", "event", "decision", "costs", "season", "simulation", "operations", "stress",
-             "sites", "forecasts")
+             "sites", "forecasts", "forecast_prices")
 
 
 def _table(loc: list[str]) -> str:

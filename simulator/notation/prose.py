@@ -14,7 +14,7 @@ from collections.abc import Sequence
 from typing import Any
 
 __all__ = ["money", "money_exact", "signed_money", "share", "rate", "cutoff_text", "format_value",
-           "ranges_text", "money_range", "cutoff_decimals", "SIGNIFICANT"]
+           "ranges_text", "money_range", "cutoff_decimals", "score", "SIGNIFICANT"]
 
 SIGNIFICANT = 3  # significant figures of money written for a reader
 
@@ -85,6 +85,14 @@ def format_value(kind: str, value: Any, currency: str, decimals: int = 2) -> str
     if kind == "cutoff":
         return cutoff_text(value, decimals)
     raise ValueError(f"unknown kind of value {kind!r}")
+
+
+def score(value: float | None, decimals: int = 2) -> str:
+    """A quality score (Brier score, Brier skill score, ROC area) to ``decimals`` places: ``0.28``;
+    a dash when undefined."""
+    if value is None or not math.isfinite(value):
+        return "\u2013"
+    return f"{value:.{decimals}f}"
 
 
 def ranges_text(ranges: Sequence, decimals: int = 2) -> str:

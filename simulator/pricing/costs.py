@@ -18,13 +18,18 @@ from ..inputs.scenario_costs import Costs, break_even_probability
 from ..inputs.scenario_types import BASELINES
 from .contingency import Contingency
 from .counts import ReplicateCounts, SeasonCounter, as_extras
+from .draws import CostDrawer, DrawnCosts
 
 __all__ = ["price", "occasion_costs", "baseline_actions", "monthly_event_rate", "seasonal_actions", "SeasonPricer",
-           "PricedBlock"]
+           "PricedBlock", "MODEL_AT_MEANS"]
 
 
-def price(counts: Contingency, costs: Costs) -> np.ndarray:
-    """Cost of each classification matrix: hits*hit + false_alarms*false_alarm + ... (float64)."""
+def price(counts: Contingency, costs: Costs | DrawnCosts) -> np.ndarray:
+    """Cost of each classification matrix: hits*hit + false_alarms*false_alarm + ... (float64).
+
+    ``costs`` fixed, or drawn per replicate (:class:`~simulator.pricing.draws.DrawnCosts`, each
+    drawn cost (n_rep, 1) against counts (n_rep, n)).
+    """
     return (counts.hits * costs.hit + counts.false_alarms * costs.false_alarm
             + counts.misses * costs.miss + counts.correct_negatives * costs.correct_negative)
 
@@ -99,16 +104,21 @@ class SeasonPricer:
 
     The counts of each replicate at every cutoff and for every baseline come from a
     :class:`~simulator.pricing.counts.SeasonCounter` (:meth:`counts`); their season costs from
-    :func:`price`. With whole-number costs the costs are exact; with fractional costs each is the
-    sum of four products, each correctly rounded. With ``keep_counts`` each priced block also
-    carries its counts in its extras (:func:`~simulator.pricing.counts.as_extras`), for a run to
-    keep (``RunResult.replicate_counts``).
+    :func:`price`, with the fixed costs or, given a ``drawer`` that draws, with each replicate's
+    drawn costs (:class:`~simulator.pricing.draws.CostDrawer`; then the block's number is needed,
+    and the extras hold ``MODEL_AT_MEANS``: the model's costs with every cost at its fixed value,
+    the PERT mean of a range). With whole-number costs the costs are exact; with fractional costs
+    each is the sum of four products, each correctly rounded. With ``keep_counts`` each priced block
+    also carries its counts in its extras (:func:`~simulator.pricing.counts.as_extras`), for a run
+    to keep (``RunResult.replicate_counts``).
     """
 
-    def __init__(self, history: History, cutoffs: np.ndarray, costs: Costs, keep_counts: bool = False):
+    def __init__(self, history: History, cutoffs: np.ndarray, costs: Costs, drawer: CostDrawer | None = None,
+                 keep_counts: bool = False):
         self.costs = costs
         self.keep_counts = keep_counts
         self.n_cutoffs = int(cutoffs.size)
+        self.drawer = drawer if drawer is not None and drawer.draws else None
         self._counter = SeasonCounter(history.p, history.event, cutoffs, baseline_actions(history, costs),
                                       BASELINES)
 
@@ -116,12 +126,28 @@ class SeasonPricer:
         """Each replicate's classification counts at every cutoff and for every baseline."""
         return self._counter(rows)
 
-    def __call__(self, rows: np.ndarray) -> PricedBlock:
-        counts = self._counter(rows)
-        return PricedBlock(model=price(counts.model, self.costs), baselines=price(counts.baselines, self.costs),
-                           n_events=counts.n_events, extras=as_extras(counts) if self.keep_counts else {})
+    def costs_of(self, block: int | None, n_rep: int) -> Costs | DrawnCosts:
+        """The costs of the first ``n_rep`` replicates of block ``block``."""
+        if self.drawer is None:
+            return self.costs
+        if block is None:
+            raise ValueError("costs drawn per replicate need the block's number")
+        return self.drawer(block, n_rep)
 
-    def model_cost(self, rows: np.ndarray, baselines: np.ndarray | None = None) -> np.ndarray:
+    def __call__(self, rows: np.ndarray, block: int | None = None) -> PricedBlock:
+        counts = self._counter(rows)
+        costs = self.costs_of(block, rows.shape[0])
+        extras = {} if costs is self.costs else {MODEL_AT_MEANS: price(counts.model, self.costs)}
+        if self.keep_counts:
+            extras.update(as_extras(counts))
+        return PricedBlock(model=price(counts.model, costs), baselines=price(counts.baselines, costs),
+                           n_events=counts.n_events, extras=extras)
+
+    def model_cost(self, rows: np.ndarray, block: int | None = None) -> np.ndarray:
         """Season costs (n_rep, n_cutoffs) of acting on this pricer's probabilities at every
-        cutoff (``baselines`` is not needed: the counts hold the never-acting cost)."""
-        return price(self._counter.model(rows), self.costs)
+        cutoff (a later forecast's, on the rows and drawn costs of block ``block``)."""
+        return price(self._counter.model(rows), self.costs_of(block, rows.shape[0]))
+
+
+MODEL_AT_MEANS = "model_cost_at_mean_costs"
+"""Key of a priced block's extras: the model's season costs with costs fixed at their means."""
