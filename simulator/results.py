@@ -16,11 +16,13 @@ from .analysis.cost_spread import CostSpread
 from .analysis.forecasts import Comparison
 from .analysis.calibration import Calibration
 from .analysis.selection import Selection
+from .analysis.sensitivity import Sensitivity
 from .analysis.stress import StressResult
 from .analysis.verdict import SeasonCosts, Verdict
 from .analysis.winners import Contest
 from .inputs.history import History
 from .inputs.scenario import Scenario
+from .pricing.counts import ReplicateCounts
 from .pricing.decision import Decision, Distribution, distribution
 from .replay.resample import Calendar
 from .rules.operations_result import OperationsResult
@@ -155,6 +157,14 @@ class RunResult:
     events_without_action: np.ndarray | None = None
     # with two or more [forecasts]: each priced on the same replicates, and every pair compared
     comparison: Comparison | None = None
+    # each replicate's classification counts (the main forecast at every cutoff, and the baselines
+    # in BASELINES order), all replicates in replicate order, int32; they do not depend on the costs,
+    # so any other fixed costs reprice them (costs.price) without a replay. Single-site runs with
+    # fixed costs in the replay mode only; None with a site column, [operations] or mode = "calibrated"
+    replicate_counts: ReplicateCounts | None = None
+    # which cost estimate matters: each cost moved alone, its ends and switching values; or a note
+    # saying why a run has none (analysis/sensitivity.py)
+    sensitivity: Sensitivity | None = None
     # with costs given as ranges (one site): the spread of the recommended cutoff's season cost
     # split into the weather's part and the cost ranges' part
     cost_spread: CostSpread | None = None

@@ -28,6 +28,7 @@ import pandas as pd
 from .analysis.forecasts import compare_forecasts
 from .analysis.calibration import calibrate
 from .analysis.selection import select_honestly
+from .analysis.sensitivity import NOTES, Sensitivity, of_run
 from .analysis.stress import run_stress
 from .analysis.verdict import RULES, Verdict, best_rule, judge, season_costs, together
 from .execution.pool import prepare
@@ -39,6 +40,7 @@ from .inputs.scenario_types import BASELINES
 from .notation import decimals
 from .analysis.cost_spread import cost_spread
 from .pricing.costs import MODEL_AT_MEANS, PricedBlock, occasion_costs
+from .pricing.counts import from_extras
 from .pricing.decision import decide
 from .pricing.tables import cutoff_table, forecast_quality, history_table, with_replicates
 from .pricing.value import relative_value_from_costs
@@ -118,7 +120,7 @@ def run_history(scenario: Scenario, history: History, *, replicates: int | None 
     work = _Work(resampler=resampler, scenarios=(scenario,), cutoffs=cutoffs, seed=seed,
                  replicates=replicates, processes=tuple(processes),
                  outcome_probability=None if calibration is None else calibration.probability,
-                 n_forecasts=n_forecasts)
+                 n_forecasts=n_forecasts, keep_counts=scenario.operations is None and calibration is None)
     try:
         rules = _pricer(work, 0).rules if scenario.operations is not None else None  # checks them
         priced: dict[int, PricedBlock] = {}
@@ -128,11 +130,12 @@ def run_history(scenario: Scenario, history: History, *, replicates: int | None 
         _forget(work)
     block, forecast_costs = _forecast_costs(priced[0], n_forecasts)
     at_means = block.extras.pop(MODEL_AT_MEANS, None)  # costs drawn per replicate: the model at the means
+    counts, extras = from_extras(block.extras, block.n_events)
     model_cost = block.model
     baseline_cost = {name: block.baselines[:, i] for i, name in enumerate(BASELINES)}
     operations = None
     if scenario.operations is not None:
-        operations = OperationsResult(rules=rules, n_cutoffs=cutoffs.size, extras=block.extras,
+        operations = OperationsResult(rules=rules, n_cutoffs=cutoffs.size, extras=extras,
                                       section=scenario.operations)
 
     seasons_per_history = max(1, round(history.n_evaluated / calendar.n_occasions))
@@ -196,6 +199,9 @@ def run_history(scenario: Scenario, history: History, *, replicates: int | None 
         warnings += tuple(w for case in stress for w in case.warnings)
     unprotected = (_events_without_action(work, decision.recommended_index)
                    if scenario.event.hazard and calibration is None else None)
+    sensitivity = of_run(scenario, history, calendar, counts, decision.near_optimal_band,
+                         rule if verdict.n_seasons >= 2 else None,
+                         "operations" if scenario.operations is not None else None)
     return RunResult(scenario=scenario, history=history, calendar=calendar, cutoffs=cutoffs,
                      replicates=replicates, seed=seed, mean_block_days=mean_block * calendar.spacing_days,
                      theoretical_cutoff=p_star, decision=decision, model_cost=model_cost,
@@ -203,7 +209,8 @@ def run_history(scenario: Scenario, history: History, *, replicates: int | None 
                      value_curve=value_curve, reliability=reliability, warnings=warnings,
                      operations=operations, stress=stress, calibration=calibration,
                      selection=selection, comparison=comparison, verdict=verdict,
-                     events_without_action=unprotected, cost_spread=spread)
+                     events_without_action=unprotected, replicate_counts=counts, sensitivity=sensitivity,
+                     cost_spread=spread)
 
 
 def _priced_by_rules(table: pd.DataFrame, baseline_cost: dict[str, np.ndarray]) -> pd.DataFrame:
@@ -311,7 +318,7 @@ def _run_sites(scenario: Scenario, history: History, *, replicates: int, seed: i
                      baseline_cost=baseline_cost, table=table, quality=quality,
                      value_curve=value_curve, reliability=reliability,
                      warnings=tuple(warnings), portfolio=portfolio, events_without_action=unprotected,
-                     verdict=verdict)
+                     verdict=verdict, sensitivity=Sensitivity(costs=(), note=NOTES["sites"]))
 
 
 def _label(scenario: Scenario) -> str:

@@ -22,7 +22,7 @@ import numpy as np
 
 from .contingency import Contingency, counts_from_slots, cutoff_slots
 
-__all__ = ["ReplicateCounts", "SeasonCounter"]
+__all__ = ["ReplicateCounts", "SeasonCounter", "as_extras", "from_extras"]
 
 
 @dataclass(frozen=True)
@@ -30,7 +30,8 @@ class ReplicateCounts:
     """Counts of one block of replicates.
 
     ``model``: a :class:`Contingency` with fields (n_rep, n_cutoffs); ``baselines``: one with fields
-    (n_rep, n_baselines) in the order the counter was given them; ``n_events``: (n_rep,). All int64.
+    (n_rep, n_baselines) in the order the counter was given them; ``n_events``: (n_rep,). All int64
+    as counted; int32 as a run keeps them (:func:`from_extras`, ``RunResult.replicate_counts``).
     """
 
     model: Contingency
@@ -80,3 +81,34 @@ class SeasonCounter:
         n_rep = rows.shape[0]
         code = self._pattern[rows] + (np.arange(n_rep, dtype=np.int64) * self._n_patterns)[:, None]
         return np.bincount(code.ravel(), minlength=n_rep * self._n_patterns).reshape(n_rep, -1)
+
+
+# ------------------------------------------------------------------------------------------------
+# counts carried through a run's tasks in a priced block's extras (replicates first, int32)
+
+_MODEL_KEY, _BASELINES_KEY = "replicate_counts_model", "replicate_counts_baselines"
+
+
+def as_extras(counts: ReplicateCounts) -> dict[str, np.ndarray]:
+    """A block's counts as arrays with replicates first, for :attr:`PricedBlock.extras`:
+    (n_rep, 4, n_cutoffs) and (n_rep, 4, n_baselines), the cells in :class:`Contingency` order.
+    int32: a season holds far fewer than 2^31 occasions, and half the memory of int64 travels back."""
+    return {_MODEL_KEY: np.stack(list(_cells(counts.model)), axis=1).astype(np.int32),
+            _BASELINES_KEY: np.stack(list(_cells(counts.baselines)), axis=1).astype(np.int32)}
+
+
+def from_extras(extras: Mapping[str, np.ndarray], n_events: np.ndarray
+                ) -> tuple[ReplicateCounts | None, dict[str, np.ndarray]]:
+    """The counts :func:`as_extras` put in a (joined) block's extras, as :class:`ReplicateCounts`
+    of int32 arrays (views, no copy), and the extras without them; None when they were not kept."""
+    rest = {key: value for key, value in extras.items() if key not in (_MODEL_KEY, _BASELINES_KEY)}
+    if _MODEL_KEY not in extras:
+        return None, rest
+    model, baselines = extras[_MODEL_KEY], extras[_BASELINES_KEY]
+    return ReplicateCounts(model=Contingency(*(model[:, i] for i in range(4))),
+                           baselines=Contingency(*(baselines[:, i] for i in range(4))),
+                           n_events=np.asarray(n_events).astype(np.int32)), rest
+
+
+def _cells(counts: Contingency) -> tuple[np.ndarray, ...]:
+    return counts.hits, counts.false_alarms, counts.misses, counts.correct_negatives

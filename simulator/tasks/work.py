@@ -46,6 +46,9 @@ class _Work:
     processes: tuple = ()
     outcome_probability: np.ndarray | None = None
     n_forecasts: int = 1  # [forecasts] priced on the same rows (History.with_forecast), main first
+    # ship each replicate's classification counts back in the blocks' extras (int32; the main
+    # forecast's, with fixed costs only): RunResult.replicate_counts
+    keep_counts: bool = False
     token: str = field(default_factory=lambda: uuid.uuid4().hex)  # names this run's cached pricers
 
     @property
@@ -75,7 +78,8 @@ def _pricer(work: _Work, k: int, forecast: int = 0):
             pricer = OperationsPricer(history, work.resampler.calendar, work.cutoffs, scenario,
                                       work.processes)
         else:
-            pricer = SeasonPricer(history, work.cutoffs, scenario.costs, drawer)
+            pricer = SeasonPricer(history, work.cutoffs, scenario.costs, drawer,
+                                  keep_counts=work.keep_counts and forecast == 0)
         if len(_PRICERS) >= _MAX_PRICERS:
             _PRICERS.clear()
         _PRICERS[key] = pricer
