@@ -12,9 +12,11 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
+from .analysis.cost_spread import CostSpread
 from .analysis.forecasts import Comparison
 from .analysis.calibration import Calibration
 from .analysis.selection import Selection
+from .analysis.sensitivity import Sensitivity
 from .analysis.stress import StressResult
 from .analysis.verdict import SeasonCosts, Verdict
 from .analysis.winners import Contest
@@ -160,6 +162,12 @@ class RunResult:
     # so any other fixed costs reprice them (costs.price) without a replay. Single-site runs with
     # fixed costs in the replay mode only; None with a site column, [operations] or mode = "calibrated"
     replicate_counts: ReplicateCounts | None = None
+    # which cost estimate matters: each cost moved alone, its ends and switching values; or a note
+    # saying why a run has none (analysis/sensitivity.py)
+    sensitivity: Sensitivity | None = None
+    # with costs given as ranges (one site): the spread of the recommended cutoff's season cost
+    # split into the weather's part and the cost ranges' part
+    cost_spread: CostSpread | None = None
 
     @property
     def reference(self) -> str:

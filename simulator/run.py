@@ -28,6 +28,7 @@ import pandas as pd
 from .analysis.forecasts import compare_forecasts
 from .analysis.calibration import calibrate
 from .analysis.selection import select_honestly
+from .analysis.sensitivity import NOTES, Sensitivity, of_run
 from .analysis.stress import run_stress
 from .analysis.verdict import RULES, Verdict, best_rule, judge, season_costs, together
 from .execution.pool import prepare
@@ -37,7 +38,8 @@ from .inputs.scenario import Scenario, check_workload, read_scenario
 from .inputs.scenario_costs import break_even_probability, cost_warnings
 from .inputs.scenario_types import BASELINES
 from .notation import decimals
-from .pricing.costs import PricedBlock, occasion_costs
+from .analysis.cost_spread import cost_spread
+from .pricing.costs import MODEL_AT_MEANS, PricedBlock, occasion_costs
 from .pricing.counts import from_extras
 from .pricing.decision import decide
 from .pricing.tables import cutoff_table, forecast_quality, history_table, with_replicates
@@ -127,6 +129,7 @@ def run_history(scenario: Scenario, history: History, *, replicates: int | None 
     finally:
         _forget(work)
     block, forecast_costs = _forecast_costs(priced[0], n_forecasts)
+    at_means = block.extras.pop(MODEL_AT_MEANS, None)  # costs drawn per replicate: the model at the means
     counts, extras = from_extras(block.extras, block.n_events)
     model_cost = block.model
     baseline_cost = {name: block.baselines[:, i] for i, name in enumerate(BASELINES)}
@@ -138,6 +141,8 @@ def run_history(scenario: Scenario, history: History, *, replicates: int | None 
     seasons_per_history = max(1, round(history.n_evaluated / calendar.n_occasions))
     decision = decide(model_cost, baseline_cost[sim.reference], cutoffs, seasons_per_history,
                       block_rng(seed, 0, _INTERVAL_STREAM), scenario.decision.objective)
+    spread = (None if at_means is None else
+              cost_spread(model_cost[:, decision.recommended_index], at_means[:, decision.recommended_index]))
     table = cutoff_table([(history, costs)], cutoffs, p_star, model_cost, baseline_cost[sim.reference])
     if operations is not None:
         table = _priced_by_rules(pd.concat([table, pd.DataFrame(operations.per_cutoff())], axis=1), baseline_cost)
@@ -194,6 +199,9 @@ def run_history(scenario: Scenario, history: History, *, replicates: int | None 
         warnings += tuple(w for case in stress for w in case.warnings)
     unprotected = (_events_without_action(work, decision.recommended_index)
                    if scenario.event.hazard and calibration is None else None)
+    sensitivity = of_run(scenario, history, calendar, counts, decision.near_optimal_band,
+                         rule if verdict.n_seasons >= 2 else None,
+                         "operations" if scenario.operations is not None else None)
     return RunResult(scenario=scenario, history=history, calendar=calendar, cutoffs=cutoffs,
                      replicates=replicates, seed=seed, mean_block_days=mean_block * calendar.spacing_days,
                      theoretical_cutoff=p_star, decision=decision, model_cost=model_cost,
@@ -201,7 +209,8 @@ def run_history(scenario: Scenario, history: History, *, replicates: int | None 
                      value_curve=value_curve, reliability=reliability, warnings=warnings,
                      operations=operations, stress=stress, calibration=calibration,
                      selection=selection, comparison=comparison, verdict=verdict,
-                     events_without_action=unprotected, replicate_counts=counts)
+                     events_without_action=unprotected, replicate_counts=counts, sensitivity=sensitivity,
+                     cost_spread=spread)
 
 
 def _priced_by_rules(table: pd.DataFrame, baseline_cost: dict[str, np.ndarray]) -> pd.DataFrame:
@@ -309,7 +318,7 @@ def _run_sites(scenario: Scenario, history: History, *, replicates: int, seed: i
                      baseline_cost=baseline_cost, table=table, quality=quality,
                      value_curve=value_curve, reliability=reliability,
                      warnings=tuple(warnings), portfolio=portfolio, events_without_action=unprotected,
-                     verdict=verdict)
+                     verdict=verdict, sensitivity=Sensitivity(costs=(), note=NOTES["sites"]))
 
 
 def _label(scenario: Scenario) -> str:

@@ -26,8 +26,13 @@ def _readme_block(after: str) -> list[str]:
     return [line.rstrip() for line in block.splitlines()]
 
 
-def test_readme_shows_the_demo_headline_as_the_demo_prints_it(tmp_path):
-    result = run(read_scenario(write_demo_files(tmp_path)))
+@pytest.fixture(scope="module")
+def demo_run(tmp_path_factory):
+    return run(read_scenario(write_demo_files(tmp_path_factory.mktemp("demo"))))
+
+
+def test_readme_shows_the_demo_headline_as_the_demo_prints_it(demo_run, tmp_path):
+    result = demo_run
     console = Console(width=100, record=True, file=open(tmp_path / "out.txt", "w"))
     console.print(_headline(result))
     printed = [line.rstrip() for line in console.export_text().splitlines()]
@@ -104,4 +109,27 @@ def test_readme_quotes_the_bad_season_choice_as_the_run_makes_it(stress_run):
     quoted = (f"the cutoff moves from **{mean['cutoff']:.2f}** to **{tail['cutoff']:.2f}**,\n"
               f"a season costs {money(tail['mean_cost'] - mean['mean_cost'], 'EUR')} more on average, and the worst "
               f"10% of seasons cost {money(mean['shortfall10_cost'] - tail['shortfall10_cost'], 'EUR')} less each.")
+    assert quoted in README
+
+
+def test_readme_quotes_which_cost_estimate_matters_as_the_demo_finds_it(demo_run):
+    from simulator.notation.prose import money
+
+    top = demo_run.sensitivity.costs[0]
+    assert top.key == "costs.false_alarm"
+    section = README[README.index("### Which cost estimate matters"):README.index("### Another trade")]
+    flat = " ".join(section.split())
+    for value in (top.low.mean_saving, top.high.mean_saving, top.verdict_switch.down, top.verdict_switch.up,
+                  top.band_switch.down, top.band_switch.up):
+        assert money(value, "EUR").removesuffix(" EUR") in flat, value
+    assert f"falls to {top.low.cutoff:.2f}" in flat and f"rises to {top.high.cutoff:.2f}" in flat
+
+
+def test_readme_quotes_the_split_of_the_spread_as_the_run_makes_it(stress_run):
+    from simulator.notation.prose import share
+
+    spread = stress_run.cost_spread
+    quoted = (f"at its cutoff of {stress_run.decision.recommended_cutoff:.2f}, **{share(spread.share_weather)}** of "
+              f"the variance of the season cost comes from the weather\nand **{share(spread.share_costs)}** from "
+              "that range")
     assert quoted in README

@@ -287,7 +287,8 @@ def _run_variant(folder: Path, text: str):
 def test_stress_and_operations_sections_appear_only_when_present(minimal_run, tmp_path):
     result, _ = minimal_run
     plain = render_report(result, summary(result))
-    assert set(plain) == {"report.html"} | {f"figures/{n}.png" for n in CORE_FIGURES}
+    # a single-site run with fixed costs also draws which cost estimate matters (the tornado)
+    assert set(plain) == {"report.html"} | {f"figures/{n}.png" for n in (*CORE_FIGURES, "tornado")}
     assert b'id="stress"' not in plain["report.html"]
     assert b'id="operations"' not in plain["report.html"]
 

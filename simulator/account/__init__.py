@@ -1,6 +1,7 @@
 """The findings of a run and their renderings: summary.json, CSV files, figures, report, cautions.
 
-``findings`` states each finding once with its unit and basis; ``outputs`` turns a run's result
+``findings`` states each finding once with its unit and basis (``cost_doubt``: the costs given
+as ranges); ``outputs`` turns a run's result
 into the bytes of every file (``file_names`` lists them), which ``result_set`` writes as one set
 (staged, swapped in, never half-written) into a folder ``out_folder`` checked before any work.
 ``report`` draws the HTML report: ``report_sections`` builds what each section shows,

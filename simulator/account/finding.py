@@ -14,7 +14,7 @@ class Finding:
     """One finding of a run.
 
     ``key`` names it (``verdict``, ``cutoff``, ``season_cost``, ``saving``, ``beats_reference``,
-    ``events_without_action``,
+    ``events_without_action``, ``cost_doubt``,
     ``deadline``, ``completion``, ``safety_stop``, ``sites``, ``season``, ``baseline:<name>``,
     ``history``; with several forecasts ``forecast_choice``, ``forecast_switch``, ``forecast_price``,
     ``forecast_skill`` and ``forecast:<name>``, :mod:`simulator.account.forecast_choice`); ``label`` is what it is, ``text`` the finding with its units as a table row

@@ -20,7 +20,9 @@ from typing import Any
 from ..pricing.decision import OBJECTIVE_NAMES
 from .finding import Finding
 from .forecast_choice import SECTION_KEYS, forecast_findings
+from .cost_doubt import cost_doubt
 from ..inputs.history_calendar import season_start_month
+from .sensitivity_view import sensitivity_sentence
 from ..notation.prose import cutoff_decimals, cutoff_text, format_value, money, money_range, ranges_text, share
 
 __all__ = ["Finding", "Account", "account", "season_name", "seasons_text", "strategy_label",
@@ -180,6 +182,10 @@ def account(summary: Mapping[str, Any]) -> Account:
     if beats is not None:
         out.append(beats)
 
+    doubt = cost_doubt(s, cut, unit, Finding)  # costs given as ranges
+    if doubt is not None:
+        out.append(doubt)
+
     missed = s.get("events_without_action")
     if missed:  # a hazard: the event occasions the cutoff leaves without action
         where = f", all {s['portfolio']['sites']} sites together" if s.get("portfolio") else ""
@@ -237,6 +243,11 @@ def account(summary: Mapping[str, Any]) -> Account:
             f"Played on the history itself ({n:,} in-season {unit}s over {seasons} seasons), cutoff {at} would "
             f"have cost {money(rec['historical_cost'], cur)} in all: {money(rec['historical_cost'] / n, cur)} a {unit}.",
             f"total over the history at cutoff {at} (recommended.historical_cost)", first=False))
+    sensitivity = s.get("sensitivity")
+    if sensitivity:  # which cost estimate matters (analysis/sensitivity.py), or why a run has none
+        said = sensitivity_sentence(sensitivity, cur, decimals, unit)
+        out.append(Finding("sensitivity", "Which cost estimate matters", said, said,
+                           "per season against the reference, each cost moved alone (sensitivity.csv)", first=False))
     title = (f"{sc['name']}: {action} when the probability of \u201c{event}\u201d is at least the cutoff")
     return Account(title=title, findings=tuple(out))
 

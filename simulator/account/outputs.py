@@ -25,6 +25,7 @@ from .datapackage import datapackage
 from .file_names import table_names
 from .cautions import cautions
 from ..pricing.decision import distribution
+from .sensitivity_view import sensitivity_entry, sensitivity_frame
 from ..results import RunResult
 from ..analysis.calibration import Calibration
 from ..analysis.selection import Selection
@@ -122,8 +123,28 @@ def summary(result: RunResult) -> dict[str, Any]:
         out["verdict"] = result.verdict.as_dict(scenario.currency)
     if result.comparison is not None:  # two or more [forecasts]: "forecasts" and "forecast_pairs"
         out.update(result.comparison.summary(scenario.currency, scenario.forecast_prices))
+    out.update(_cost_ranges_entry(result))
+    if result.sensitivity is not None:  # which cost estimate matters (or why a run has no such table)
+        out["sensitivity"] = sensitivity_entry(result.sensitivity)
     out = _clean(out)
     out["account"] = [finding.as_dict() for finding in account(out).findings]
+    return out
+
+
+def _cost_ranges_entry(result: RunResult) -> dict[str, Any]:
+    """With costs given as ranges: ``cost_ranges`` (dotted key -> low, likely, high and PERT mean,
+    per occasion in the currency) and, when a cost was drawn, ``cost_spread``: how much of the
+    variance of the season cost at the recommended ``cutoff`` comes from the weather and how much
+    from the cost ranges (:mod:`simulator.analysis.cost_spread` says the method)."""
+    ranges = result.scenario.cost_ranges()
+    if not ranges:
+        return {}
+    out: dict[str, Any] = {"cost_ranges": {key: {**r.model_dump(), "mean": r.mean} for key, r in ranges.items()}}
+    if result.cost_spread is not None:
+        out["cost_spread"] = {"cutoff": result.decision.recommended_cutoff, **result.cost_spread.as_dict(),
+                              "method": "variance of the season cost over the simulated seasons, with every "
+                                        "cost fixed at its mean (the weather's part) against with the costs "
+                                        "drawn (the whole); the costs' part is the difference"}
     return out
 
 
@@ -162,6 +183,7 @@ def render_files(result: RunResult) -> dict[str, bytes]:
         "selection.csv": lambda: _csv(_selection_frame(result.selection)),
         "sites.csv": lambda: _csv(result.portfolio.table),
         "forecasts.csv": lambda: _csv(result.comparison.table()),
+        "sensitivity.csv": lambda: _csv(sensitivity_frame(contents["sensitivity"])),
     }
     scenario = result.scenario
     render["datapackage.json"] = lambda: datapackage(files, scenario.slug, scenario.name, scenario.currency)

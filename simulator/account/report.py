@@ -38,6 +38,8 @@ from .report_sections import (_completion_by_day, _explorer_rows, _matrix, _oper
                               _stress_cases, _zoomed, headline_numbers, recommendation)
 from .scenario_words import _months, _occasion_days, _rules_read_back
 from .file_names import table_names
+from .sensitivity_view import report_section
+from .tornado import tornado_chart
 from .report_forecasts import forecasts_section
 from .whatif import whatif_context
 
@@ -52,6 +54,7 @@ FILE_NOTES = {"summary.json": " (every headline number, full precision)", "cutof
               "stress.csv": " (every stress case)", "sites.csv": " (each site at its own cutoff)",
               "calibration.csv": " (the recalibration curve)",
               "forecasts.csv": " (each forecast at every cutoff, on the same replicate seasons)",
+              "sensitivity.csv": " (each cost moved alone: its ends and switching values)",
               "datapackage.json": " (what every column of the CSV files means, with its unit)"}
 
 
@@ -110,6 +113,10 @@ def render_report(result, summary: Mapping[str, Any]) -> dict[str, bytes]:
         draw["stress"] = partial(stress_chart, [c["name"] for c in stress], [c["mean"] for c in stress],
                                  [c["p05"] for c in stress], [c["p95"] for c in stress],
                                  [c["best_mean"] for c in stress], [c["reference_mean"] for c in stress], words)
+    sensitivity = report_section(summary.get("sensitivity"), currency, decimals, occasion)
+    if sensitivity and sensitivity["rows"]:
+        draw["tornado"] = partial(tornado_chart, sensitivity["labels"], sensitivity["change_low"],
+                                  sensitivity["change_high"], words)
     operations = _operations(summary, currency, getattr(scenario, "operations", None))
     if operations and operations["values"]:
         draw["operations_costs"] = partial(components_chart, operations["names"], operations["values"],
@@ -172,7 +179,7 @@ def render_report(result, summary: Mapping[str, Any]) -> dict[str, bytes]:
         "forward": (summary.get("selection") or {}).get("walk_forward"),
         "calibration": summary.get("calibration"),
         "portfolio": _portfolio(summary, currency, decimals),
-        "risk": risk, "forecasts": forecasts,
+        "risk": risk, "sensitivity": sensitivity, "forecasts": forecasts,
         "whatif": whatif_context(result, action, event, occasion, decimals),
     }
     html = _with_content_policy(_ENV.get_template("report.html.j2").render(context))

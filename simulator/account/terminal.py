@@ -23,15 +23,15 @@ def _plain(value):
     retitle the window. The one gate for user strings on their way to the terminal."""
     if isinstance(value, str):
         return printable(value)
-    if isinstance(value, dict):
-        return {k: _plain(v) for k, v in value.items()}
+    if isinstance(value, dict):  # keys too: a forecast's name is a key of "forecasts"
+        return {_plain(k): _plain(v) for k, v in value.items()}
     if isinstance(value, list | tuple):
         return type(value)(_plain(v) for v in value)
     return value
 
 
 def _headline(result: RunResult) -> Table:
-    """The run's account (:func:`simulator.account.account`) as a two-column table."""
+    """The run's account (:func:`simulator.account.findings.account`) as a two-column table."""
     told = account(_plain(summary(result)))
     table = Table(title=told.title, show_header=False, title_justify="left")
     table.add_column(style="bold")

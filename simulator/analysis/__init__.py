@@ -7,7 +7,8 @@ cutoff on training seasons and prices it on validation ones; ``calibration`` fit
 of the calibrated pricing mode on the training period; ``verdict`` holds
 each past season out in turn to say whether the forecast beats the best rule that ignores it;
 ``forecasts`` compares several forecasts on the same replicate seasons, and ``winners`` says
-which one wins a set of them (the base case, a stress case, a site).
+which one wins a set of them (the base case, a stress case, a site); ``cost_spread`` splits the
+spread of a season cost between the weather and costs given as ranges.
 
 May import: ``rules``, ``pricing``, ``replay``, ``inputs``, ``notation``.
 """

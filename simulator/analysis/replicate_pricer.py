@@ -8,8 +8,9 @@ import dataclasses
 
 import numpy as np
 
-from ..pricing.contingency import counts_from_slots, cutoff_slots
-from ..pricing.costs import PricedBlock, SeasonPricer, baseline_actions, occasion_costs, price
+from ..pricing.contingency import Contingency, counts_from_slots, cutoff_slots
+from ..pricing.costs import MODEL_AT_MEANS, PricedBlock, SeasonPricer, baseline_actions, price
+from ..pricing.draws import CostDrawer
 from ..inputs.history import History
 from ..inputs.scenario_costs import Costs
 from ..inputs.scenario_types import BASELINES
@@ -37,15 +38,17 @@ class ReplicatePricer:
         probabilities, for every replicate occasion (the calibrated mode); persistence then acts
         on the previous drawn outcome and the perfect forecast knows the drawn outcome.
     noise_sd, noise_key : log-odds noise (:func:`log_odds_noise`), seeded with ``noise_key``.
+    drawer : the costs given as ranges, drawn per replicate (as for ``SeasonPricer``); then the
+        extras hold ``MODEL_AT_MEANS`` as ``SeasonPricer``'s do.
 
     With none of these changes it is exactly ``SeasonPricer``.
     """
 
     def __init__(self, history: History, cutoffs: np.ndarray, costs: Costs, *, seed: int,
                  forecast: np.ndarray | None = None, outcome_probability: np.ndarray | None = None,
-                 noise_sd: float = 0.0, noise_key: int = 0):
+                 noise_sd: float = 0.0, noise_key: int = 0, drawer: CostDrawer | None = None):
         forecast = history.p if forecast is None else np.asarray(forecast, dtype=float)
-        self._season_pricer = SeasonPricer(dataclasses.replace(history, p=forecast), cutoffs, costs)
+        self._season_pricer = SeasonPricer(dataclasses.replace(history, p=forecast), cutoffs, costs, drawer)
         self._simple = outcome_probability is None and noise_sd == 0
         self._history, self._forecast, self._costs = history, forecast, costs
         self._cutoffs = cutoffs
@@ -56,7 +59,7 @@ class ReplicatePricer:
 
     def __call__(self, rows: np.ndarray, block: int) -> PricedBlock:
         if self._simple:
-            return self._season_pricer(rows)
+            return self._season_pricer(rows, block)
         p = self._forecast[rows]
         if self._noise_sd > 0:
             rng = block_rng(self._seed, block, NOISE_STREAM, self._noise_key)
@@ -70,8 +73,12 @@ class ReplicatePricer:
             previous = np.concatenate([self._history.prev_event[rows[:, :1]], event[:, :-1]], axis=1)
             acts[..., BASELINES.index("persistence")] = previous
             acts[..., BASELINES.index("perfect")] = event
-        n_cut = self._cutoffs.size
-        model = price(counts_from_slots(cutoff_slots(p, self._cutoffs), event, n_cut), self._costs)
-        baselines = occasion_costs(acts, event[..., None], self._costs).sum(axis=1)
-        return PricedBlock(model=model, baselines=baselines, n_events=event.sum(axis=1))
+        counts = counts_from_slots(cutoff_slots(p, self._cutoffs), event, self._cutoffs.size)
+        happened = event[..., None]
+        held = Contingency(*(cell.sum(axis=1) for cell in (acts & happened, acts & ~happened,
+                                                          ~acts & happened, ~acts & ~happened)))
+        costs = self._season_pricer.costs_of(block, rows.shape[0])
+        extras = {} if costs is self._costs else {MODEL_AT_MEANS: price(counts, self._costs)}
+        return PricedBlock(model=price(counts, costs), baselines=price(held, costs), n_events=event.sum(axis=1),
+                           extras=extras)
 

@@ -43,18 +43,20 @@ from __future__ import annotations
 
 import dataclasses
 import math
+from collections.abc import Callable
 from dataclasses import dataclass
 
 import numpy as np
 
-from ..pricing.contingency import count_at_cutoffs
+from ..pricing.contingency import Contingency, count_at_cutoffs
 from ..notation.prose import money  # the one formatter of money in prose (as stress.py uses it)
-from ..pricing.costs import baseline_actions, occasion_costs, price
+from ..pricing.costs import baseline_actions, monthly_event_rate, occasion_costs, price, seasonal_actions
 from ..inputs.history import History
 from ..replay.resample import Calendar
 from ..inputs.scenario import Scenario
+from ..inputs.scenario_costs import Costs
 
-__all__ = ["RULES", "RULE_WORDS", "CONFIDENCE", "SeasonCosts", "Verdict", "season_costs", "judge", "best_rule",
+__all__ = ["RULES", "RULE_WORDS", "CONFIDENCE", "SeasonCosts", "Verdict", "season_costs", "season_pricer", "judge", "best_rule",
            "together"]
 
 RULES = ("never_act", "always_act", "persistence", "seasonal_rate")
@@ -210,10 +212,9 @@ def season_costs(history: History, calendar: Calendar, cutoffs: np.ndarray, scen
     if rules_of is not None and scenario.operations is None:
         return dataclasses.replace(rules_of, model=_model_with_costs(history, cutoffs, scenario.costs, seasons),
                                    cutoffs=cutoffs)
-    learnt = [dataclasses.replace(history, evaluated=evaluated & (history.season != s),
-                                  validation=np.zeros_like(evaluated)) for s in seasons]
     if scenario.operations is None:
-        return _with_costs(history, cutoffs, scenario, seasons, learnt)
+        return season_pricer(history, cutoffs)(scenario.costs)
+    learnt = _learnt(history)
     from ..rules.vectorised_model import OperationsPricer
     from ..inputs.scenario_types import BASELINES
     from .selection import _seasons_on_calendar  # each past season laid on the priced calendar
@@ -235,22 +236,46 @@ def season_costs(history: History, calendar: Calendar, cutoffs: np.ndarray, scen
                        seasons=seasons, cutoffs=cutoffs)
 
 
-def _with_costs(history: History, cutoffs: np.ndarray, scenario: Scenario, seasons: np.ndarray,
-                learnt: list[History]) -> SeasonCosts:
-    costs = scenario.costs
+def season_pricer(history: History, cutoffs: np.ndarray) -> Callable[[Costs], SeasonCosts]:
+    """Without ``[operations]``: each evaluated season's costs (:func:`season_costs`) as a function
+    of the ``[costs]`` matrix. What does not depend on the costs (each season's classification
+    counts at every cutoff, each fold's monthly event rates) is made once, so other costs are priced
+    quickly (:mod:`simulator.analysis.sensitivity` prices many)."""
+    seasons = history.seasons
     evaluated = history.evaluated
-    index = np.searchsorted(seasons, history.season[evaluated])  # each evaluated row's season
-    event = history.event[evaluated]
     k = seasons.size
-    model = _model_with_costs(history, cutoffs, costs, seasons)
-    rules = np.empty((k, k, len(RULES)))
-    for f, h in enumerate(learnt):
-        actions = baseline_actions(h, costs)
+    index = np.searchsorted(seasons, history.season[evaluated])  # each evaluated row's season
+    p, event = history.p[evaluated], history.event[evaluated]
+    per_season = [count_at_cutoffs(p[index == i], event[index == i], cutoffs) for i in range(k)]
+    model_counts = Contingency(*(np.stack([getattr(c, cell) for c in per_season]) for cell in _CELLS))
+    fixed = {"never_act": np.zeros(event.size, dtype=bool), "always_act": np.ones(event.size, dtype=bool),
+             "persistence": history.prev_event[evaluated]}
+    month = monthly_event_rate(history)[0][evaluated]
+    rates = [monthly_event_rate(h)[1] for h in _learnt(history)]  # each fold's, without its season
+    occasions = np.bincount(index, minlength=k)
+
+    def at(costs: Costs) -> SeasonCosts:
+        rules = np.empty((k, k, len(RULES)))
         for r, name in enumerate(RULES):
-            cost = occasion_costs(actions[name][evaluated], event, costs)
-            rules[f, :, r] = np.bincount(index, weights=cost, minlength=k)
-    return SeasonCosts(model=model, rules=rules, occasions=np.bincount(index, minlength=k), seasons=seasons,
-                       cutoffs=cutoffs)
+            if name in fixed:  # the same whichever season is held out
+                rules[:, :, r] = np.bincount(index, weights=occasion_costs(fixed[name], event, costs), minlength=k)
+        seasonal = RULES.index("seasonal_rate")
+        for f, rate in enumerate(rates):
+            cost = occasion_costs(seasonal_actions(month, rate, costs), event, costs)
+            rules[f, :, seasonal] = np.bincount(index, weights=cost, minlength=k)
+        return SeasonCosts(model=price(model_counts, costs), rules=rules, occasions=occasions, seasons=seasons,
+                           cutoffs=cutoffs)
+    return at
+
+
+_CELLS = ("hits", "false_alarms", "misses", "correct_negatives")
+
+
+def _learnt(history: History) -> list[History]:
+    """The history as each fold learns it: without one season each, and no validation period."""
+    evaluated = history.evaluated
+    return [dataclasses.replace(history, evaluated=evaluated & (history.season != s),
+                                validation=np.zeros_like(evaluated)) for s in history.seasons]
 
 
 def _model_with_costs(history: History, cutoffs: np.ndarray, costs, seasons: np.ndarray) -> np.ndarray:

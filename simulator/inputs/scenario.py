@@ -20,6 +20,7 @@ from pydantic import BaseModel, Field, ValidationError, field_validator, model_v
 
 from ..notation import decimals
 from .errors import InputError, did_you_mean, excerpt, printable, quoted, read_input_file
+from .ranges import CostRange, site_ranges, split_ranges
 from .scenario_changes import SiteSection, StressCase
 from .scenario_costs import Costs
 from .scenario_tables import (DecisionSection, EventSection, HistorySection, OperationsSection, SeasonSection,
@@ -28,7 +29,7 @@ from .scenario_types import (MAX_CURRENCY, MAX_FORECASTS, MAX_SCENARIO_BYTES, MA
                              _Section)
 from .allowed_values import _allowed, _submodel
 
-__all__ = ["Scenario", "read_scenario", "scenario_from_text", "cutoff_grid", "check_workload"]
+__all__ = ["Scenario", "read_scenario", "scenario_from_text", "cutoff_grid", "check_workload", "CostRange"]
 
 
 class Scenario(_Section):
@@ -55,6 +56,14 @@ class Scenario(_Section):
     # where the file was read from (not a user key): history paths are relative to it
     source: Path | None = Field(default=None, exclude=True)
     sha256: str = Field(default="", exclude=True)
+    # the costs written as ranges, by dotted key (not a user key: read by inputs/ranges.py, which
+    # puts each range's PERT mean in the cost's place)
+    ranges: dict[str, CostRange] = Field(default={}, exclude=True)
+
+    def cost_ranges(self) -> dict[str, CostRange]:
+        """The costs written as ranges, by dotted key: ``costs.miss``, ``sites.<site>.costs.miss``
+        (a site's own scenario, :meth:`for_site`, has its ranges as ``costs.*``)."""
+        return dict(self.ranges)
 
     @property
     def cutoffs(self) -> np.ndarray:
@@ -131,7 +140,8 @@ class Scenario(_Section):
         override = self.sites.get(name)
         if override is None:
             return self
-        update: dict[str, Any] = {"sites": {}}
+        update: dict[str, Any] = {"sites": {}, "ranges": site_ranges(
+            self.ranges, name, set(override.costs.given()) if override.costs is not None else set())}
         if override.costs is not None:
             update["costs"] = Costs(**{**self.costs.model_dump(), **override.costs.given()})
         if override.operations is not None:
@@ -201,10 +211,13 @@ def scenario_from_text(text: str, label: str = "scenario") -> Scenario:
                          "near that line") from None
     except RecursionError:
         raise InputError(f"{label}: not valid TOML (nested too deeply); check the file") from None
+    data, ranges = split_ranges(data, label)  # costs written as ranges: their PERT means in place
     try:
         scenario = Scenario.model_validate(data)
     except ValidationError as exc:
         raise InputError(_first_problem(exc, label)) from None
+    if ranges:
+        scenario = scenario.model_copy(update={"ranges": ranges})
     _check_sites(scenario, label)
     check_workload(scenario.simulation.replicates, len(scenario.cutoffs), f"{label} [simulation] replicates",
                    len(scenario.forecasts))
@@ -244,7 +257,7 @@ def _first_problem(exc: ValidationError, label: str) -> str:
         where = f"[{_table(loc[:-1])}]" if len(loc) > 1 else "top level"
         if loc[0] == "stress" and len(loc) > 2:
             where = f"[[stress]] table {int(loc[1]) + 1}" + (f" {'.'.join(loc[2:-1])}" if len(loc) > 3 else "")
-        valid = [k for k in model.model_fields if k not in ("source", "sha256")]
+        valid = [k for k in model.model_fields if k not in ("source", "sha256", "ranges")]
         return f"{label} {where}: unknown key {quoted(key)}{did_you_mean(key, valid)}"
     field, depth = _field_at(Scenario, loc)
     inside = len(loc) > depth  # the problem is inside the key's value (a list entry, a dict's key)

@@ -267,6 +267,8 @@ def starter_scenario(layout: Layout, scenario_path: Path) -> str:
         "[costs]",
         "# Money per occasion, in the currency above, for each of the four outcomes; negative = income.",
         "# init never guesses money: gonogo check and run refuse this file until all four are numbers.",
+        "# A cost known only roughly may be a range, drawn for each simulated season:",
+        "#   miss = {low = 2000, likely = 2500, high = 4000}",
     ]
     meaning = {"hit": "acted, and the event happened", "false_alarm": "acted, and it did not happen",
                "miss": "did not act, and it happened", "correct_negative": "did not act, and it did not happen"}

@@ -18,12 +18,18 @@ from ..inputs.scenario_costs import Costs, break_even_probability
 from ..inputs.scenario_types import BASELINES
 from .contingency import Contingency
 from .counts import ReplicateCounts, SeasonCounter, as_extras
+from .draws import CostDrawer, DrawnCosts
 
-__all__ = ["price", "occasion_costs", "baseline_actions", "SeasonPricer", "PricedBlock"]
+__all__ = ["price", "occasion_costs", "baseline_actions", "monthly_event_rate", "seasonal_actions", "SeasonPricer",
+           "PricedBlock", "MODEL_AT_MEANS"]
 
 
-def price(counts: Contingency, costs: Costs) -> np.ndarray:
-    """Cost of each classification matrix: hits*hit + false_alarms*false_alarm + ... (float64)."""
+def price(counts: Contingency, costs: Costs | DrawnCosts) -> np.ndarray:
+    """Cost of each classification matrix: hits*hit + false_alarms*false_alarm + ... (float64).
+
+    ``costs`` fixed, or drawn per replicate (:class:`~simulator.pricing.draws.DrawnCosts`, each
+    drawn cost (n_rep, 1) against counts (n_rep, n)).
+    """
     return (counts.hits * costs.hit + counts.false_alarms * costs.false_alarm
             + counts.misses * costs.miss + counts.correct_negatives * costs.correct_negative)
 
@@ -49,25 +55,35 @@ def baseline_actions(history: History, costs: Costs) -> dict[str, np.ndarray]:
     - ``perfect``: act exactly when the event happens (the floor no forecast can beat).
     """
     n = history.n_rows
-    p_star = break_even_probability(costs)
+    month, rate = monthly_event_rate(history)
+    return {
+        "never_act": np.zeros(n, dtype=bool),
+        "always_act": np.ones(n, dtype=bool),
+        "persistence": history.prev_event.copy(),
+        "seasonal_rate": seasonal_actions(month, rate, costs),
+        "perfect": history.event.copy(),
+    }
+
+
+def monthly_event_rate(history: History) -> tuple[np.ndarray, np.ndarray]:
+    """Each history row's calendar month (0-11, (n_rows,)) and each month's event rate over the
+    training period ((12,); a month without training rows gets the overall rate): what the
+    seasonal-rate rule learns. It does not depend on the costs."""
     month = (history.dates.astype("datetime64[M]").astype(np.int64) % 12)
     train = history.training
     months_seen = np.bincount(month[train], minlength=12)
     events_seen = np.bincount(month[train], weights=history.event[train], minlength=12)
     overall = history.event[train].mean()
-    rate = np.where(months_seen > 0, events_seen / np.maximum(months_seen, 1), overall)
+    return month, np.where(months_seen > 0, events_seen / np.maximum(months_seen, 1), overall)
+
+
+def seasonal_actions(month: np.ndarray, rate: np.ndarray, costs: Costs) -> np.ndarray:
+    """Whether the seasonal-rate rule acts on rows of these months (bool, as ``month``): where the
+    month's rate reaches the break-even probability of ``costs``."""
+    p_star = break_even_probability(costs)
     if np.isnan(p_star):  # one action is always best: the climatological rule takes it
-        acts_anyway = costs.false_alarm - costs.correct_negative <= 0
-        seasonal = np.full(n, acts_anyway)
-    else:
-        seasonal = decimals.reaches(rate[month], p_star)
-    return {
-        "never_act": np.zeros(n, dtype=bool),
-        "always_act": np.ones(n, dtype=bool),
-        "persistence": history.prev_event.copy(),
-        "seasonal_rate": seasonal,
-        "perfect": history.event.copy(),
-    }
+        return np.full(month.shape, costs.false_alarm - costs.correct_negative <= 0)
+    return decimals.reaches(rate[month], p_star)
 
 
 @dataclass(frozen=True)
@@ -88,16 +104,21 @@ class SeasonPricer:
 
     The counts of each replicate at every cutoff and for every baseline come from a
     :class:`~simulator.pricing.counts.SeasonCounter` (:meth:`counts`); their season costs from
-    :func:`price`. With whole-number costs the costs are exact; with fractional costs each is the
-    sum of four products, each correctly rounded. With ``keep_counts`` each priced block also
-    carries its counts in its extras (:func:`~simulator.pricing.counts.as_extras`), for a run to
-    keep (``RunResult.replicate_counts``).
+    :func:`price`, with the fixed costs or, given a ``drawer`` that draws, with each replicate's
+    drawn costs (:class:`~simulator.pricing.draws.CostDrawer`; then the block's number is needed,
+    and the extras hold ``MODEL_AT_MEANS``: the model's costs with every cost at its fixed value,
+    the PERT mean of a range). With whole-number costs the costs are exact; with fractional costs
+    each is the sum of four products, each correctly rounded. With ``keep_counts`` each priced block
+    also carries its counts in its extras (:func:`~simulator.pricing.counts.as_extras`), for a run
+    to keep (``RunResult.replicate_counts``).
     """
 
-    def __init__(self, history: History, cutoffs: np.ndarray, costs: Costs, keep_counts: bool = False):
+    def __init__(self, history: History, cutoffs: np.ndarray, costs: Costs, drawer: CostDrawer | None = None,
+                 keep_counts: bool = False):
         self.costs = costs
         self.keep_counts = keep_counts
         self.n_cutoffs = int(cutoffs.size)
+        self.drawer = drawer if drawer is not None and drawer.draws else None
         self._counter = SeasonCounter(history.p, history.event, cutoffs, baseline_actions(history, costs),
                                       BASELINES)
 
@@ -105,12 +126,28 @@ class SeasonPricer:
         """Each replicate's classification counts at every cutoff and for every baseline."""
         return self._counter(rows)
 
-    def __call__(self, rows: np.ndarray) -> PricedBlock:
-        counts = self._counter(rows)
-        return PricedBlock(model=price(counts.model, self.costs), baselines=price(counts.baselines, self.costs),
-                           n_events=counts.n_events, extras=as_extras(counts) if self.keep_counts else {})
+    def costs_of(self, block: int | None, n_rep: int) -> Costs | DrawnCosts:
+        """The costs of the first ``n_rep`` replicates of block ``block``."""
+        if self.drawer is None:
+            return self.costs
+        if block is None:
+            raise ValueError("costs drawn per replicate need the block's number")
+        return self.drawer(block, n_rep)
 
-    def model_cost(self, rows: np.ndarray, baselines: np.ndarray | None = None) -> np.ndarray:
+    def __call__(self, rows: np.ndarray, block: int | None = None) -> PricedBlock:
+        counts = self._counter(rows)
+        costs = self.costs_of(block, rows.shape[0])
+        extras = {} if costs is self.costs else {MODEL_AT_MEANS: price(counts.model, self.costs)}
+        if self.keep_counts:
+            extras.update(as_extras(counts))
+        return PricedBlock(model=price(counts.model, costs), baselines=price(counts.baselines, costs),
+                           n_events=counts.n_events, extras=extras)
+
+    def model_cost(self, rows: np.ndarray, block: int | None = None) -> np.ndarray:
         """Season costs (n_rep, n_cutoffs) of acting on this pricer's probabilities at every
-        cutoff (``baselines`` is not needed: the counts hold the never-acting cost)."""
-        return price(self._counter.model(rows), self.costs)
+        cutoff (a later forecast's, on the rows and drawn costs of block ``block``)."""
+        return price(self._counter.model(rows), self.costs_of(block, rows.shape[0]))
+
+
+MODEL_AT_MEANS = "model_cost_at_mean_costs"
+"""Key of a priced block's extras: the model's season costs with costs fixed at their means."""

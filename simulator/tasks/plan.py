@@ -45,7 +45,6 @@ def _price_task(work: _Work, first_site: int, last_site: int, chunk: int | None)
     chunks = work.chunks if chunk is None else [work.chunks[chunk]]
     blocks = [b for first, count in chunks for b in range(first, first + count)]
     sites = range(first_site, last_site)
-    calibrated = work.outcome_probability is not None
 
     def drawn(b: int) -> np.ndarray:
         return work.resampler.draw_block(work.seed, b)[: min(BLOCK, work.replicates - b * BLOCK)]
@@ -63,10 +62,11 @@ def _price_task(work: _Work, first_site: int, last_site: int, chunk: int | None)
         priced = []
         for i, b in enumerate(blocks):
             own = work.resampler.site_rows(drawn(b) if rows is None else rows[i], k)
-            block = pricer(own, b) if calibrated else pricer(own)
+            # the block's number seeds its drawn outcomes and costs; the operating rules draw none
+            block = pricer(own) if work.scenarios[k].operations is not None else pricer(own, b)
             if others:  # every later forecast on the same rows: common random numbers
                 block = dataclasses.replace(block, extras={
-                    **block.extras, **{f"{_FORECAST_KEY}{j}": _later_forecast(other, own, block)
+                    **block.extras, **{f"{_FORECAST_KEY}{j}": _later_forecast(other, own, b)
                                        for j, other in others}})
             priced.append(block)
         block = _join(priced)
@@ -87,11 +87,12 @@ def _price_task(work: _Work, first_site: int, last_site: int, chunk: int | None)
     return out
 
 
-def _later_forecast(pricer, rows: np.ndarray, main: PricedBlock) -> np.ndarray:
-    """A later forecast's season costs at every cutoff on the rows the main forecast's ``main``
-    block was priced on: the baselines' costs are the main's (they do not depend on the forecast)."""
+def _later_forecast(pricer, rows: np.ndarray, block: int) -> np.ndarray:
+    """A later forecast's season costs at every cutoff on the rows (of seeded block ``block``) the
+    main forecast was priced on, with the same drawn costs: the baselines' costs are the main's
+    (they do not depend on the forecast)."""
     if isinstance(pricer, SeasonPricer):
-        return pricer.model_cost(rows, main.baselines)
+        return pricer.model_cost(rows, block)
     return pricer(rows).model  # the operating rules: every lane played again
 
 

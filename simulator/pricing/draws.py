@@ -1,0 +1,78 @@
+"""Costs drawn once per replicate season, for the costs known only as a range.
+
+Each range (:class:`~simulator.inputs.ranges.CostRange`) is drawn from its PERT distribution: a
+beta distribution on [low, high] (``scipy.stats.beta`` with the range's shapes, scaled; Malcolm et
+al. 1959). The draws of block ``b`` of a run come from ``SeedSequence(seed, spawn_key=(COST_STREAM,
+cost, b))``, a stream of their own for each of the four costs: they do not touch the streams of
+the bootstrap, the stress cases or the interval, so every strategy, cutoff and forecast is priced
+on the same replicate seasons with the same drawn costs (common random numbers), and a site
+whose range is the scenario's draws the same figures as every other such site (one figure, in
+doubt). A range with low = high draws nothing: the cost is fixed, and the run is the fixed run
+byte for byte.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from dataclasses import dataclass
+
+import numpy as np
+from scipy import stats
+
+from ..inputs.ranges import CostRange
+from ..inputs.scenario_costs import COST_KEYS, Costs
+from ..replay.resample import BLOCK, block_rng
+
+__all__ = ["COST_STREAM", "pert", "DrawnCosts", "CostDrawer"]
+
+COST_STREAM = 46  # seed stream of the cost draws (other streams: resample.py, run.py, stress.py, selection.py)
+
+
+def pert(cost_range: CostRange):
+    """The PERT distribution of a range with low < high, as a frozen ``scipy.stats.beta``."""
+    a, b = cost_range.shapes
+    return stats.beta(a, b, loc=cost_range.low, scale=cost_range.width)
+
+
+@dataclass(frozen=True)
+class DrawnCosts:
+    """The four costs of a block of replicate seasons: each a float, or (n_rep, 1) float64 for a
+    drawn cost, so :func:`~simulator.pricing.costs.price` of counts (n_rep, n) broadcasts."""
+
+    hit: float | np.ndarray
+    false_alarm: float | np.ndarray
+    miss: float | np.ndarray
+    correct_negative: float | np.ndarray
+
+
+class CostDrawer:
+    """Draws the costs given as ranges, block by block of replicates.
+
+    Parameters
+    ----------
+    costs : the fixed costs (a range's place holds its PERT mean).
+    ranges : dotted key -> range, as :meth:`Scenario.cost_ranges` of the scenario (or the site's
+        scenario) gives them; only ``costs.<cost>`` keys are drawn here.
+    seed : the run's seed.
+    """
+
+    def __init__(self, costs: Costs, ranges: Mapping[str, CostRange], seed: int):
+        self.costs, self.seed = costs, int(seed)
+        self._drawn = {name: pert(r) for name in COST_KEYS
+                       if (r := ranges.get(f"costs.{name}")) is not None and r.width > 0}
+
+    @property
+    def draws(self) -> bool:
+        """Whether any cost is drawn (else :meth:`__call__` gives the fixed costs)."""
+        return bool(self._drawn)
+
+    def __call__(self, block: int, n_rep: int) -> Costs | DrawnCosts:
+        """The costs of the first ``n_rep`` replicates of block ``block`` (a replicate's draw
+        depends on its number only: the whole block is drawn, then cut)."""
+        if not self._drawn:
+            return self.costs
+        values = {name: getattr(self.costs, name) for name in COST_KEYS}
+        for name, dist in self._drawn.items():
+            rng = block_rng(self.seed, block, COST_STREAM, COST_KEYS.index(name))
+            values[name] = dist.rvs(size=BLOCK, random_state=rng)[:n_rep, None]
+        return DrawnCosts(**values)
