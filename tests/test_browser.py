@@ -295,7 +295,8 @@ def test_report_from_names_full_of_markup_runs_nothing_injected_and_its_slider_w
 
     _open(page, out / "report.html")
     assert page.evaluate("typeof window.__pwned") == "undefined"
-    assert page.evaluate("document.querySelectorAll('img[src=x], script').length") == 2  # data + explorer
+    # the explorer's data and script, the what-if's data and script
+    assert page.evaluate("document.querySelectorAll('img[src=x], script').length") == 4
     data = page.evaluate("JSON.parse(document.getElementById('cutoff-data').textContent)")
     assert data["rows"][0]["mean_cost"].endswith("EUR <!--<script>")  # read back as written
     before = page.evaluate("document.getElementById('cutoff-shown').textContent")
@@ -305,6 +306,15 @@ def test_report_from_names_full_of_markup_runs_nothing_injected_and_its_slider_w
         slider.dispatchEvent(new Event('input', {bubbles: true}));
     })()""")
     assert page.evaluate("document.getElementById('cutoff-shown').textContent") != before
+    assert page.evaluate("typeof window.__pwned") == "undefined"
+    # the what-if's labels hold the hostile names as text, and its money the currency as written
+    assert "</script>" in page.evaluate("document.querySelector('label[for=whatif-hit]').textContent")
+    page.evaluate("""(() => {
+        const field = document.getElementById('whatif-miss');
+        field.value = String(Number(field.value) * 2);
+        field.dispatchEvent(new Event('input', {bubbles: true}));
+    })()""")
+    assert page.evaluate("document.getElementById('whatif-mean').textContent").endswith("EUR <!--<script>")
     assert page.evaluate("typeof window.__pwned") == "undefined"
     errors = [e for e in page.events if e.get("method") == "Runtime.exceptionThrown"
               or (e.get("method") == "Log.entryAdded" and e["params"]["entry"]["level"] == "error")]

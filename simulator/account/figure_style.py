@@ -136,10 +136,26 @@ def _figure(height: float, narrow: bool, narrow_height: float | None = None,
     return fig
 
 
+PALETTE_COLOURS = 128  # colours of a figure's PNG palette
+
+
 def _png(fig: Figure) -> bytes:
+    """The figure as a PNG of at most :data:`PALETTE_COLOURS` colours, without metadata.
+
+    A chart holds a few flat colours and their anti-aliased edges, so an adaptive palette (median
+    cut, no dithering; Pillow, which matplotlib itself requires) keeps it as it looks at a third of
+    the bytes of full colour: the report embeds every figure twice (wide and narrow) and stays
+    under 2 MB. Reducing a chart to a palette is common practice (no single source).
+    """
+    from PIL import Image  # matplotlib depends on Pillow
+
     buffer = io.BytesIO()
     fig.savefig(buffer, format="png", dpi=fig.dpi, metadata={"Software": None}, facecolor="white")
-    return buffer.getvalue()
+    image = Image.open(io.BytesIO(buffer.getvalue())).convert("RGB")
+    palette = image.quantize(colors=PALETTE_COLOURS, method=Image.Quantize.MEDIANCUT, dither=Image.Dither.NONE)
+    out = io.BytesIO()
+    palette.save(out, format="PNG", optimize=True)
+    return out.getvalue()
 
 
 def _label_above(ax, marks: list[tuple[float, str, dict]], span: float) -> None:

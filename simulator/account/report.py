@@ -41,6 +41,7 @@ from .file_names import table_names
 from .sensitivity_view import report_section
 from .tornado import tornado_chart
 from .report_forecasts import forecasts_section
+from .whatif import whatif_context
 
 __all__ = ["render_report", "CAUTION", "FILE_NOTES"]
 
@@ -179,6 +180,7 @@ def render_report(result, summary: Mapping[str, Any]) -> dict[str, bytes]:
         "calibration": summary.get("calibration"),
         "portfolio": _portfolio(summary, currency, decimals),
         "risk": risk, "sensitivity": sensitivity, "forecasts": forecasts,
+        "whatif": whatif_context(result, action, event, occasion, decimals),
     }
     html = _with_content_policy(_ENV.get_template("report.html.j2").render(context))
     files = {"report.html": html.encode("utf-8")}

@@ -1,0 +1,141 @@
+"""The meeting what-if: what the report's page needs to reprice a run at costs a reader types.
+
+A replicate season's classification counts (hits, false alarms, misses, correct negatives) at
+every cutoff do not depend on the costs (``RunResult.replicate_counts``), so any other four costs
+reprice them without a replay: season cost = hits * hit + false_alarms * false_alarm + misses *
+miss + correct_negatives * correct_negative, as :func:`simulator.pricing.costs.price` does. The
+page does that sum in plain JavaScript:
+
+- **exactly** for expected (mean) season costs, from the mean counts over all replicates at each
+  cutoff (the mean of a linear function is the function of the means: linearity of expectation),
+  so the cutoff with the lowest expected cost and the expected saving are those a run with the
+  typed costs gives, up to floating-point rounding;
+- **approximately** for everything that needs the distribution over seasons (the 90% range, the
+  95th percentile, the worst 10%, how often a cutoff saves against the reference): from the first
+  :data:`SAMPLE` replicates (a random sample: replicates are independent draws), their counts
+  written compactly as base64 of little-endian unsigned integers: one byte a count when a season
+  has at most 255 occasions, else two (uint16).
+
+The model's sample holds, per cutoff, the hits and false alarms of each sampled season, and per
+season its events and occasions (misses = events - hits, correct negatives = occasions - events
+- false alarms); the reference rule's sample holds its four counts per season.
+
+Nothing here is text from the scenario: names reach the page escaped by the template, and this
+data reaches it as JSON in a ``<script type="application/json">`` element (``report_page.script_json``).
+"""
+
+from __future__ import annotations
+
+import base64
+from functools import partial
+
+import numpy as np
+
+from ..inputs.scenario_types import BASELINES, MAX_MONEY
+from ..pricing.decision import OBJECTIVE_NAMES, SAME_MONEY, SHORTFALL_SHARE
+from .findings import strategy_label
+from .report_page import script_json
+
+__all__ = ["SAMPLE", "COST_KEYS", "whatif_data", "whatif_context", "unavailable"]
+
+SAMPLE = 1000  # replicate seasons per cutoff embedded in the page for ranges and the share saving
+COST_KEYS = ("hit", "false_alarm", "miss", "correct_negative")
+_CELLS = ("hits", "false_alarms", "misses", "correct_negatives")  # the counts each cost prices
+_UINT16_MAX = 65535
+
+
+def unavailable(result) -> str | None:
+    """Why the page cannot reprice this run at typed costs (one line for the reader), or None."""
+    if result.portfolio is not None:
+        return ("Each site has its own costs here: run one site's history alone to try other costs "
+                "in its report.")
+    if result.operations is not None:
+        return ("Under the operating rules a season is played day by day and priced by the rules, not by "
+                "four costs per day: change the rules' prices in the scenario and run it again.")
+    if result.scenario.simulation.mode == "calibrated":
+        return ("In the calibrated mode outcomes are drawn afresh for each season: change the costs in the "
+                "scenario and run it again.")
+    if result.replicate_counts is None:
+        return "This run did not keep its seasons' counts: change the costs in the scenario and run it again."
+    return None
+
+
+def _encode(values: np.ndarray, width: int) -> str:
+    """Whole counts as base64 of unsigned integers of ``width`` bytes, little-endian, row-major."""
+    return base64.b64encode(np.ascontiguousarray(values, dtype=f"<u{width}").tobytes()).decode("ascii")
+
+
+def whatif_data(result) -> dict:
+    """The what-if's data for the page's script: the scenario's costs, the schema's bounds, the
+    exact mean counts per cutoff, and the sample of replicate counts; ``{"reason": ...}`` alone
+    when :func:`unavailable` says why there is none.
+
+    Keys: ``costs`` (the scenario's four, for the fields and their reset), ``max_money`` (the
+    schema's bound on a cost's magnitude), ``objective``, ``shortfall_share``, ``same_money``
+    (:data:`~simulator.pricing.decision.SAME_MONEY`, the tolerance of equal money), ``cutoffs``,
+    ``replicates``; ``mean`` (mean hits, false alarms, misses, correct negatives at each cutoff over
+    all replicates) and ``reference_mean`` (the reference rule's four means); ``sample``: ``n``,
+    ``hits`` and ``false_alarms`` (n_cutoffs x n, cutoff-major), ``events``, ``occasions`` and the
+    reference's ``ref_hits``, ``ref_false_alarms``, ``ref_misses``, ``ref_correct_negatives`` (n each).
+    """
+    reason = unavailable(result)
+    if reason is not None:
+        return {"reason": reason}
+    counts = result.replicate_counts
+    model, baselines, ref_index = counts.model, counts.baselines, BASELINES.index(result.reference)
+    n = min(SAMPLE, result.replicates)
+    hits, false_alarms = np.asarray(model.hits)[:n].T, np.asarray(model.false_alarms)[:n].T
+    events = np.asarray(counts.n_events)[:n]
+    occasions = (np.asarray(model.hits)[:n, 0] + np.asarray(model.false_alarms)[:n, 0]
+                 + np.asarray(model.misses)[:n, 0] + np.asarray(model.correct_negatives)[:n, 0])
+    reference = [np.asarray(getattr(baselines, key))[:n, ref_index] for key in _CELLS]
+    longest = int(occasions.max(initial=0))
+    if longest > _UINT16_MAX:
+        return {"reason": "The seasons are too long for the page's sample: change the costs in the scenario "
+                          "and run it again."}
+    width = 1 if longest <= 255 else 2  # a season of up to 255 occasions: one byte a count
+    encode = partial(_encode, width=width)
+    scenario_costs = result.scenario.costs
+    return {
+        "costs": {key: float(getattr(scenario_costs, key)) for key in COST_KEYS},
+        "max_money": MAX_MONEY, "objective": result.decision.objective, "shortfall_share": SHORTFALL_SHARE,
+        "same_money": SAME_MONEY, "cutoffs": [float(c) for c in result.cutoffs],
+        "replicates": int(result.replicates),
+        "mean": {key: [float(v) for v in np.asarray(getattr(model, key), dtype=np.float64).mean(axis=0)]
+                 for key in _CELLS},
+        "reference_mean": {key: float(np.asarray(getattr(baselines, key), dtype=np.float64)[:, ref_index].mean())
+                           for key in _CELLS},
+        "sample": {"n": int(n), "width": width, "hits": encode(hits), "false_alarms": encode(false_alarms),
+                   "events": encode(events), "occasions": encode(occasions),
+                   **{f"ref_{key}": encode(cell) for key, cell in zip(_CELLS, reference)}},
+    }
+
+
+
+def _typed(value: float) -> str:
+    """A cost as the reader would type it: ``2400``, ``-150.5``."""
+    return str(int(value)) if float(value).is_integer() else repr(float(value))
+
+
+def whatif_context(result, action: str, event: str, occasion: str, decimals: int) -> dict:
+    """What the report's template (``whatif.html.j2``) shows of the what-if: the four fields with
+    the scenario's costs, the reason it is off (or None), and its data as script-safe JSON."""
+    data = whatif_data(result)
+    costs = result.scenario.costs
+    do = action[:1].upper() + action[1:]
+    what = {"hit": f"{do}, and \u201c{event}\u201d happened", "false_alarm": f"{do}, and it did not happen",
+            "miss": f"Did not {action}, and \u201c{event}\u201d happened",
+            "correct_negative": f"Did not {action}, and it did not happen"}
+    labels = {"hit": "Hit", "false_alarm": "False alarm", "miss": "Miss", "correct_negative": "Correct negative"}
+    reference = result.reference
+    return {
+        "reason": data.get("reason"),
+        "fields": [(key, labels[key], what[key], _typed(getattr(costs, key))) for key in COST_KEYS],
+        "objective": result.decision.objective, "objective_what": OBJECTIVE_NAMES[result.decision.objective],
+        "reference_label": strategy_label(reference, action, event, occasion),
+        "reference_note": ("The calendar-month rule keeps the months it acts in at the scenario's costs "
+                           "(their break-even probability)." if reference == "seasonal_rate" else ""),
+        "n_sample": (data.get("sample") or {}).get("n", 0),
+        "auto_block": result.scenario.simulation.block_days == "auto",
+        "json": script_json({**data, "currency": result.scenario.currency, "decimals": decimals}),
+    }
