@@ -37,7 +37,7 @@ class SiteResult:
     ``model_cost`` is the site's season cost at its own recommended cutoff and ``baseline_cost``
     that of each baseline, each (n_replicates,), on the replicates every site shares (the joint
     replay); ``table`` has the columns of ``cutoffs.csv`` for this site alone. ``missing_dates``
-    counts the joint dates the site has no row on (see :mod:`simulator.resample`). ``operations`` is
+    counts the joint dates the site has no row on (see :mod:`simulator.replay.resample`). ``operations`` is
     the ``operations`` block of a single-site ``summary.json`` for this site, when it has rules.
     """
 
@@ -57,7 +57,7 @@ class SiteResult:
     # single-site run of its rows makes them)
     selection: Selection | None = None
     stress: tuple[StressResult, ...] | None = None
-    # whether this site's forecast is worth using at all (simulator.verdict), on its own seasons,
+    # whether this site's forecast is worth using at all (simulator.analysis.verdict), on its own seasons,
     # and those seasons' costs (for the portfolio's verdict)
     verdict: Verdict | None = None
     season_costs: SeasonCosts | None = None

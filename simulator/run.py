@@ -66,12 +66,12 @@ def run(scenario: Scenario | str | Path, history_path: str | Path | None = None,
 
     Parameters
     ----------
-    scenario : a validated :class:`~simulator.scenario.Scenario`, or the path of a scenario file.
+    scenario : a validated :class:`~simulator.inputs.scenario.Scenario`, or the path of a scenario file.
     history_path : overrides the scenario's ``[history] path``.
     replicates, seed : override ``[simulation]``.
     progress : optional callback ``progress(step, done, total)``.
     processes : user-written simpy processes added to the ``[operations]`` rules (see
-        :class:`simulator.operations.Site`); every season is then played by the simpy model (slow)
+        :class:`simulator.rules.simpy_model.Site`); every season is then played by the simpy model (slow)
         in this process, or on the cluster when one is given.
     walk_forward : choose the cutoff season by season on earlier seasons and price the next
         (default: the scenario's ``[simulation] walk_forward``).
@@ -94,8 +94,8 @@ def run_history(scenario: Scenario, history: History, *, replicates: int | None 
                 seed: int | None = None, progress: Progress | None = None,
                 processes: Sequence[UserProcess] = (), walk_forward: bool | None = None,
                 workers: int | None = 1, cluster=None) -> RunResult:
-    """As :func:`run`, on a history already read (:func:`~simulator.history.read_history`, or
-    :func:`~simulator.history.history_from_frame` for a data frame)."""
+    """As :func:`run`, on a history already read (:func:`~simulator.inputs.history.read_history`, or
+    :func:`~simulator.inputs.history.history_from_frame` for a data frame)."""
     sim = scenario.simulation
     replicates = sim.replicates if replicates is None else int(replicates)
     seed = sim.seed if seed is None else int(seed)

@@ -138,7 +138,7 @@ def account(summary: Mapping[str, Any]) -> Account:
         advise = bool(verdict.get("use_forecast", True))
         best = strategy_label(verdict.get("best_rule_without_forecast") or ref, action, event, unit)
         text = ("use the forecast" if advise else f"keep to the rule that ignores it: {best}")
-        reason = str(verdict.get("reason") or "").strip()  # why (simulator.verdict)
+        reason = str(verdict.get("reason") or "").strip()  # why (simulator.analysis.verdict)
         said = f"{text}, because {reason[:1].lower()}{reason[1:]}" if reason else text + "."
         out.append(Finding("verdict", "Verdict", said, _capital(said),
                            "per season, each past season priced at the cutoff and rule chosen on the others"))

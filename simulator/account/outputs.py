@@ -57,7 +57,7 @@ def summary(result: RunResult) -> dict[str, Any]:
     """The contents of ``summary.json`` (schema 1).
 
     Among its keys: ``cautions``, every caution of the run as a list of strings (the hazard's
-    first, the general one, the operating rules'); ``verdict`` (:meth:`simulator.verdict.Verdict.as_dict`); with
+    first, the general one, the operating rules'); ``verdict`` (:meth:`simulator.analysis.verdict.Verdict.as_dict`); with
     ``[event] hazard = true``, ``events_without_action``: event occasions a season leaves without
     action at the recommended ``cutoff`` (all sites together), mean, p05, p50, p95 over the
     replicate seasons.
@@ -119,7 +119,7 @@ def summary(result: RunResult) -> dict[str, Any]:
         out["selection"] = _selection_entry(result.selection)
     if result.portfolio is not None:  # a site column: the run's numbers above are the portfolio's
         out["portfolio"] = _portfolio_entry(result)
-    if result.verdict is not None:  # whether to act on the forecast at all (simulator.verdict)
+    if result.verdict is not None:  # whether to act on the forecast at all (simulator.analysis.verdict)
         out["verdict"] = result.verdict.as_dict(scenario.currency)
     if result.comparison is not None:  # two or more [forecasts]: "forecasts" and "forecast_pairs"
         out.update(result.comparison.summary(scenario.currency, scenario.forecast_prices))

@@ -45,7 +45,7 @@ from .whatif import whatif_context
 
 __all__ = ["render_report", "CAUTION", "FILE_NOTES"]
 
-CAUTION = GENERAL  # the general caution (simulator.cautions); summary["cautions"] lists every one of a run
+CAUTION = GENERAL  # the general caution (simulator.account.cautions); summary["cautions"] lists every one of a run
 
 # what each file beside the report holds (the report lists the files actually written)
 FILE_NOTES = {"summary.json": " (every headline number, full precision)", "cutoffs.csv": " (one row per cutoff)",

@@ -52,7 +52,7 @@ class ForecastResult:
     (:data:`SCORES` and the event rate); ``value_curve`` its relative economic value across
     cost-loss ratios (Richardson 2000); ``validation`` its honest check, when the history has a
     validation period; ``verdict`` whether acting on it beats the best rule without it, judged on
-    held-out seasons (:mod:`simulator.verdict`; the main forecast's is the run's own verdict).
+    held-out seasons (:mod:`simulator.analysis.verdict`; the main forecast's is the run's own verdict).
     """
 
     name: str
@@ -100,7 +100,7 @@ class ForecastPair:
 
     ``saving`` (n_replicates,) is the other's season cost minus the better's; the better one is
     the one with the lower mean season cost (the first listed when the two are equal within
-    :func:`~simulator.decision.money_tolerance`). In :meth:`as_dict`, ``worth_up_to`` is the mean
+    :func:`~simulator.pricing.decision.money_tolerance`). In :meth:`as_dict`, ``worth_up_to`` is the mean
     saving (the most a season of the better forecast is worth on average) and
     ``worth_up_to_confident`` its 5th percentile, a price that still pays in 95% of the seasons;
     it is 0 when the 5th percentile is negative (no price pays that often).
@@ -214,7 +214,7 @@ def compare_forecasts(history: History, model_costs: Sequence[np.ndarray], refer
     decide_one : the run's decision for one forecast's costs (the same bootstrap draws for each).
     check : the honest check of a history with a validation period (None without one).
     main_quality : the main forecast's scores and value curve, when the run has them already.
-    judge_one : the verdict of one forecast's history (held-out seasons, :mod:`simulator.verdict`).
+    judge_one : the verdict of one forecast's history (held-out seasons, :mod:`simulator.analysis.verdict`).
     """
     results = []
     for j, name in enumerate(history.forecast_names):

@@ -26,7 +26,7 @@ OUTCOME_STREAM = 43  # outcomes drawn in the calibrated mode (shared by the base
 
 
 class ReplicatePricer:
-    """Prices replicate seasons like :class:`~simulator.costs.SeasonPricer`, with changes.
+    """Prices replicate seasons like :class:`~simulator.pricing.costs.SeasonPricer`, with changes.
 
     Parameters
     ----------

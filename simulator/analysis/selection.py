@@ -9,9 +9,9 @@ Two things are fitted on a training period and then used forward:
   on the past: actual against potential value (Atger 2001, as discussed by Richardson 2000).
 - the probabilities' calibration, for the ``calibrated`` pricing mode: see ``calibration.py``.
 
-A cutoff is chosen as the core chooses it (:func:`~simulator.decision.decide`): by the scenario's
+A cutoff is chosen as the core chooses it (:func:`~simulator.pricing.decision.decide`): by the scenario's
 objective (the lowest mean season cost, by default) over replicate seasons drawn
-(:class:`~simulator.resample.Resampler`) from the training period alone. The same replicates give the
+(:class:`~simulator.replay.resample.Resampler`) from the training period alone. The same replicates give the
 spread of the cost per occasion over a period as long as the one checked, so a period that does much
 worse than its training can be flagged.
 
@@ -160,7 +160,7 @@ def select_honestly(history: History, calendar: Calendar, cutoffs: np.ndarray, c
         season), under the rules. Without rules, periods are priced with the ``[costs]`` matrix on
         their historical occasions.
     objective : what the cutoff is chosen by on each training period's replicates, as in the base
-        run (:data:`simulator.decision.OBJECTIVES`). A priced period's own best cutoff (hindsight)
+        run (:data:`simulator.pricing.decision.OBJECTIVES`). A priced period's own best cutoff (hindsight)
         is its cheapest: one period has one cost, not a spread.
     """
     n_rep = max(20, min(int(replicates), SELECTION_REPLICATES))

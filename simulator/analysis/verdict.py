@@ -23,15 +23,15 @@ sets overlap (Bengio and Grandvalet 2004, from memory), so the rule is kept stri
 is worth using only when the lower end of that interval is above zero.
 
 Without ``[operations]`` each season is priced on its own historical occasions with the
-``[costs]`` matrix (:func:`~simulator.costs.price`); with them, each past season is laid on the
+``[costs]`` matrix (:func:`~simulator.pricing.costs.price`); with them, each past season is laid on the
 priced season's calendar and played under the rules, as the honest selection does
-(:mod:`simulator.selection`). The rules without the forecast are priced the same way, and the
+(:mod:`simulator.analysis.selection`). The rules without the forecast are priced the same way, and the
 seasonal rate learns its months from the training seasons only.
 
 References
 ----------
 Atger (2001) and Richardson (2000) on actual against potential value: as cited in
-:mod:`simulator.selection`.
+:mod:`simulator.analysis.selection`.
 Hastie, T., Tibshirani, R. and Friedman, J. (2009). The Elements of Statistical Learning, 2nd ed.
 Springer, section 7.10, cross-validation (from memory).
 Cochran, W. G. (1977). Sampling Techniques, 3rd ed. Wiley (ratio estimates; from memory).
@@ -198,7 +198,7 @@ def season_costs(history: History, calendar: Calendar, cutoffs: np.ndarray, scen
 
     Without ``[operations]``: the season's historical occasions priced with ``[costs]``. With them:
     the season laid on ``calendar`` and played under the rules
-    (:class:`~simulator.operations_fast.OperationsPricer`).
+    (:class:`~simulator.rules.vectorised_model.OperationsPricer`).
 
     ``rules_of``: the season costs of another forecast of the same history (the same rows,
     outcomes, seasons and costs; ``History.with_forecast``). The rules ignore the forecast, so

@@ -149,7 +149,7 @@ def read_history(scenario: Scenario, path: str | Path | None = None) -> History:
     """Read and check the history named by ``path`` or by the scenario's ``[history] path``.
 
     CSV (any common separator, decimal mark and encoding), Excel ``.xlsx`` and Parquet are read by
-    :func:`simulator.sheets.read_table`, with what ``[history]`` says of the file's dialect.
+    :func:`simulator.inputs.sheets.read_table`, with what ``[history]`` says of the file's dialect.
     """
     if path is None:
         path = scenario.history_path()

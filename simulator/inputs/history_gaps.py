@@ -44,7 +44,7 @@ def _every(frequency: Frequency) -> str:
 MISSING_DATE_RULE = ("on such a date a replicate season gives the site its row of the nearest date in "
                      "the same season (else of the same day in the nearest season it has)")
 """How the joint replay treats a site without a row on a date that other sites have
-(:class:`~simulator.resample.Resampler`); quoted in the warning."""
+(:class:`~simulator.replay.resample.Resampler`); quoted in the warning."""
 
 
 def _missing_site_dates(union: np.ndarray, site_dates: list[np.ndarray], names: tuple[str, ...],

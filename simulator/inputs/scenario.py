@@ -161,7 +161,7 @@ class Scenario(_Section):
 
 def cutoff_grid(lo: float, hi: float, step: float) -> np.ndarray:
     """Cutoffs from ``lo`` to ``hi`` by ``step``, both ends included, each the float nearest its
-    decimal (:func:`simulator.decimals.grid`)."""
+    decimal (:func:`simulator.notation.decimals.grid`)."""
     return decimals.grid(lo, hi, step)
 
 

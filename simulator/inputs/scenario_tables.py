@@ -36,7 +36,7 @@ class HistorySection(_Section):
     side: Literal["above", "below"] | None = None
     direction: Literal["up", "down"] | None = None
     validation_from: date | None = None
-    # how the file is written; each found from the file when not given (simulator.sheets)
+    # how the file is written; each found from the file when not given (simulator.inputs.sheets)
     sheet: Name | None = None  # an .xlsx workbook's sheet; default the first
     separator: Literal[",", ";", "\t"] | None = None
     decimal: Literal[".", ","] | None = None
@@ -197,7 +197,7 @@ class OperationsSection(_Section):
 
     Money is in the scenario's currency; a crew-day is one crew's work for one day. Every key is
     described in ``scenarios/line_marking_rules.toml``; the rules are played by
-    :mod:`simulator.operations` (the event-level statement) and :mod:`simulator.operations_fast`.
+    :mod:`simulator.rules` (the event-level statement) and :mod:`simulator.rules.vectorised_model`.
     """
 
     crews: Annotated[int, Field(ge=1, le=1000)] = 1

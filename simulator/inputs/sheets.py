@@ -5,7 +5,7 @@ or without a byte-order mark, UTF-16 with one, else the Western single-byte code
 office exports) are found from the file unless ``[history] separator``, ``decimal`` or
 ``encoding`` say them; an Excel workbook (``.xlsx``) is read from its first sheet unless
 ``[history] sheet`` names one. Every cell of a CSV or a workbook comes back as text, numbers with a
-decimal point (and a CSV's percentages, "35%", as the numbers they stand for, "0.35"), so that :mod:`simulator.history` parses one kind of frame whatever the file was;
+decimal point (and a CSV's percentages, "35%", as the numbers they stand for, "0.35"), so that :mod:`simulator.inputs.history` parses one kind of frame whatever the file was;
 what was found is returned beside it (:class:`Dialect`) for ``gonogo init`` and ``check`` to show.
 
 Only a regular file is read, and at most :data:`MAX_BYTES` of it and :data:`MAX_ROWS` rows.

@@ -1,10 +1,10 @@
 """``gonogo init``: from a planner's history file to a commented starter scenario.
 
-:func:`find_layout` reads the file as :func:`simulator.sheets.read_table` does and finds, by the
+:func:`find_layout` reads the file as :func:`simulator.inputs.sheets.read_table` does and finds, by the
 contents of the columns, the date column and its format, the probability column(s), the outcome
 (or a numeric column to put a threshold on), a site column, and the months and weekdays present.
 :func:`starter_scenario` writes TOML that states what was found and marks each choice made. It
-never invents money: the costs are written as :data:`~simulator.scenario.COST_PLACEHOLDER`, which
+never invents money: the costs are written as :data:`~simulator.inputs.scenario_costs.COST_PLACEHOLDER`, which
 the schema refuses until the user fills them in.
 """
 

@@ -49,7 +49,7 @@ class Contingency:
 
 def cutoff_slots(p: np.ndarray, cutoffs: np.ndarray) -> np.ndarray:
     """How many cutoffs each probability reaches: ``#{k : p >= cutoffs[k]}`` as decimals (compared
-    in whole units of 10^-12, :mod:`simulator.decimals`); cutoffs ascending."""
+    in whole units of 10^-12, :mod:`simulator.notation.decimals`); cutoffs ascending."""
     return decimals.slots(p, cutoffs)
 
 

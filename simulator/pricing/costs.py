@@ -89,7 +89,7 @@ def seasonal_actions(month: np.ndarray, rate: np.ndarray, costs: Costs) -> np.nd
 @dataclass(frozen=True)
 class PricedBlock:
     """Season costs of one block of replicates: ``model`` (n_rep, n_cutoffs), ``baselines``
-    (n_rep, n_baselines) in :data:`~simulator.scenario.BASELINES` order, ``n_events`` (n_rep,)."""
+    (n_rep, n_baselines) in :data:`~simulator.inputs.scenario_types.BASELINES` order, ``n_events`` (n_rep,)."""
 
     model: np.ndarray
     baselines: np.ndarray

@@ -254,7 +254,7 @@ def _bin_edges(n_bins: int) -> np.ndarray:
 
 def _bin_index(p: np.ndarray, n_bins: int) -> np.ndarray:
     """Uniform bin of each p: bins [lower, upper), the last one [lower, 1], edges compared as
-    decimals (:func:`simulator.decimals.bins`)."""
+    decimals (:func:`simulator.notation.decimals.bins`)."""
     _bin_edges(n_bins)  # checks n_bins
     return decimals.bins(p, n_bins)
 

@@ -2,7 +2,7 @@
 the forecast's quality (scores, reliability, relative value across cost-loss ratios).
 
 Pure functions of a checked history (or each site's) and the cutoffs; money goes through
-:func:`simulator.costs.price`.
+:func:`simulator.pricing.costs.price`.
 """
 
 from __future__ import annotations
@@ -37,7 +37,7 @@ def cutoff_table(parts: Sequence[tuple[History, Costs]], cutoffs: np.ndarray, p_
 
 def with_replicates(table: pd.DataFrame, model_cost: np.ndarray, reference_cost: np.ndarray) -> pd.DataFrame:
     """A :func:`history_table` with the replicate seasons' cost and savings at each cutoff
-    (:func:`simulator.decision.per_cutoff`) added on the right."""
+    (:func:`simulator.pricing.decision.per_cutoff`) added on the right."""
     return pd.concat([table, pd.DataFrame(per_cutoff(model_cost, reference_cost))], axis=1)
 
 

@@ -21,7 +21,7 @@ Many sites are replayed jointly: the runs are drawn over the calendar of dates t
 the drawn date, so weather that struck several sites on one day strikes them together in the
 replicates too. A site with no row on a drawn date takes its row of the nearest date in the same
 season (ties to the earlier), or, when it has no row in that season at all, of the nearest day of
-the nearest season it has (:data:`~simulator.history.MISSING_DATE_RULE`; the history warns). A site
+the nearest season it has (:data:`~simulator.inputs.history_gaps.MISSING_DATE_RULE`; the history warns). A site
 whose dates are all the dates is replayed exactly as it would be alone.
 """
 
@@ -70,10 +70,10 @@ class Calendar:
 def season_calendar(history: History, rule: SeasonSection) -> Calendar:
     """The calendar of the season to price: ``[season] year``, else the one after the history.
 
-    The occasions are the dates of the history's own calendar (:class:`~simulator.history.Frequency`:
+    The occasions are the dates of the history's own calendar (:class:`~simulator.inputs.history_calendar.Frequency`:
     every day or the weekdays it has rows on, weekly, monthly, ...) from the season's first day to
     the next season's, that fall in the season's months, on its weekdays and not on its holidays
-    (:func:`~simulator.history.season_mask`). They never depend on the spacing of the history's rows
+    (:func:`~simulator.inputs.history_calendar.season_mask`). They never depend on the spacing of the history's rows
     inside the season.
     """
     start_month = season_start_month(rule.months)

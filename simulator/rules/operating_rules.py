@@ -39,7 +39,7 @@ The rules, on each occasion of the priced season (the core's calendar, one occas
 
 With no ``work`` (no backlog limit), no deadline, no overtime, no retention rule and no safety stop,
 every occasion costs a fixed amount by its decision and outcome, and the season cost equals the
-core's (:class:`~simulator.costs.SeasonPricer`) for the matching cost matrix; the tests check it.
+core's (:class:`~simulator.pricing.costs.SeasonPricer`) for the matching cost matrix; the tests check it.
 
 Why operating rules move the cost-optimal cutoff away from the break-even probability: Katz,
 Murphy and Winkler (1982), "Assessing the value of frost forecasts to orchardists: a dynamic
@@ -212,7 +212,7 @@ def safety_stops(history: History, scenario: Scenario) -> np.ndarray:
     The hazard's probability is the history's probability column as written in the file
     (``safety_probability = "as_in_file"``, the default: undone from ``flip``) or that of the
     scenario's event (``"of_event"``). Both the flip and its undoing are exact decimals, and the
-    stop compares as decimals too (:mod:`simulator.decimals`), so a file's 0.9 stops at 0.9.
+    stop compares as decimals too (:mod:`simulator.notation.decimals`), so a file's 0.9 stops at 0.9.
     """
     section = scenario.operations
     if section is None or section.safety_stop_at is None:

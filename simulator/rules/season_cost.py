@@ -69,7 +69,7 @@ class RulesPricer:
     baselines' actions, the outcomes that spoil a day out and the safety stops.
 
     Lanes: a replicate season is played once per lane, the ``n_cutoffs`` cutoffs first, then the
-    baselines in :data:`~simulator.scenario.BASELINES` order. Extras of the priced blocks are
+    baselines in :data:`~simulator.inputs.scenario_types.BASELINES` order. Extras of the priced blocks are
     (n_rep, n_lanes).
     """
 

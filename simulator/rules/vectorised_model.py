@@ -109,7 +109,7 @@ def play_seasons(rules: Rules, wish_at: Callable[[int], np.ndarray], spoiled: np
 class OperationsPricer(RulesPricer):
     """Prices replicate seasons under the ``[operations]`` rules: rows (n_rep, n_occ) -> PricedBlock.
 
-    Callable like :class:`~simulator.costs.SeasonPricer`: ``model`` holds the season costs at every
+    Callable like :class:`~simulator.pricing.costs.SeasonPricer`: ``model`` holds the season costs at every
     cutoff, ``baselines`` those of the five baselines played under the same rules on the same
     replicates, and ``extras`` the cost components and day counts of every lane,
     (n_rep, n_cutoffs + n_baselines). With user-written ``processes`` every season is played by the

@@ -189,7 +189,7 @@ def _sites_table(sites: Sequence[SiteResult], common: int) -> pd.DataFrame:
                "mean_cost_at_common_cutoff": _cell(site.table, common, "mean_cost")}
         if site.contest is not None:  # several [forecasts]: the best one here, against the runner-up
             row.update(site.contest.row())
-        if site.verdict is not None:  # simulator.verdict, on the site's own seasons
+        if site.verdict is not None:  # simulator.analysis.verdict, on the site's own seasons
             v = site.verdict
             row.update({"use_forecast": v.use_forecast, "best_rule_without_forecast": v.best_rule,
                         "saving_against_best_rule_mean": v.mean, "saving_against_best_rule_p05": v.p05,
