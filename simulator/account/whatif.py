@@ -135,6 +135,10 @@ def whatif_context(result, action: str, event: str, occasion: str, decimals: int
         "reference_label": strategy_label(reference, action, event, occasion),
         "reference_note": ("The calendar-month rule keeps the months it acts in at the scenario's costs "
                            "(their break-even probability)." if reference == "seasonal_rate" else ""),
+        # costs given as ranges are typed in at their PERT mean; the run above drew them per season
+        "ranges_note": ("Costs given as ranges start here at their PERT mean, fixed; the run above drew "
+                        "them season by season, so its figures differ a little from these."
+                        if any(r.high > r.low for r in result.scenario.cost_ranges().values()) else ""),
         "n_sample": (data.get("sample") or {}).get("n", 0),
         "auto_block": result.scenario.simulation.block_days == "auto",
         "json": script_json({**data, "currency": result.scenario.currency, "decimals": decimals}),
