@@ -158,6 +158,18 @@ def _png(fig: Figure) -> bytes:
     return out.getvalue()
 
 
+def _money_bars_done(fig: Figure, ax, words, xlabel: str, title: str, narrow: bool, ncol: int) -> "Chart":
+    """The end shared by the horizontal money-bar charts (stress cases, operating rules' costs):
+    money on the x axis (three ticks when narrow), the title, the legend below, the PNG."""
+    ax.set_xlabel(f"{xlabel} ({words.currency})")
+    _money_axis(ax.xaxis)
+    if narrow:
+        ax.xaxis.set_major_locator(MaxNLocator(3))
+    _title(ax, f"{title} ({words.currency} per season)", narrow)
+    fig.legend(loc="outside lower center", ncol=ncol)
+    return Chart(_png(fig))
+
+
 def _label_above(ax, marks: list[tuple[float, str, dict]], span: float) -> None:
     """Short labels just above the axes at vertical lines; a label too close to the one before it
     moves up a row. Labels stay out of the layout, which is fixed by the axes."""

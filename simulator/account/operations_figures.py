@@ -11,9 +11,8 @@ from collections.abc import Sequence
 import matplotlib as mpl
 import numpy as np
 from matplotlib import dates as mdates
-from matplotlib.ticker import MaxNLocator
 
-from .figure_style import _STYLE, OKABE_ITO, Chart, Words, _figure, _layout, _money_axis, _png, _title, user_text
+from .figure_style import _STYLE, OKABE_ITO, Chart, Words, _figure, _layout, _money_bars_done, _png, _title, user_text
 
 __all__ = ["components_chart", "completion_chart"]
 
@@ -35,13 +34,7 @@ def components_chart(names: Sequence[str], values: Sequence[float], reference: S
                     edgecolor="white", label="The reference rule")
         ax.set_yticks(y, [user_text(n) for n in names])
         ax.grid(axis="y", visible=False)
-        ax.set_xlabel(f"Expected cost in a season ({words.currency})")
-        _money_axis(ax.xaxis)
-        if narrow:
-            ax.xaxis.set_major_locator(MaxNLocator(3))
-        _title(ax, f"Where the money goes under the operating rules ({words.currency} per season)", narrow)
-        fig.legend(loc="outside lower center", ncol=ncol)
-        return Chart(_png(fig))
+        return _money_bars_done(fig, ax, words, "Expected cost in a season", "Where the money goes under the operating rules", narrow, ncol)
 
 
 def completion_chart(dates: Sequence[str], shares: Sequence[float], reference: Sequence[float] | None,

@@ -10,10 +10,9 @@ from collections.abc import Sequence
 
 import matplotlib as mpl
 import numpy as np
-from matplotlib.ticker import MaxNLocator
 
-from .figure_style import (_GREY, _STYLE, BASELINE_STYLE, OKABE_ITO, Chart, Words, _figure, _layout, _money_axis, _png,
-                           _title, _wrap, user_text)
+from .figure_style import (_GREY, _STYLE, BASELINE_STYLE, OKABE_ITO, Chart, Words, _figure, _layout,
+                           _money_bars_done, _wrap, user_text)
 
 __all__ = ["stress_chart"]
 
@@ -39,10 +38,4 @@ def stress_chart(names: Sequence[str], mean: Sequence[float], p05: Sequence[floa
         ax.set_yticks(y, [_wrap(user_text(n), 22 if narrow else 34) for n in names])
         ax.grid(axis="y", visible=False)
         ax.set_ylim(-0.6, len(names) - 0.4)
-        ax.set_xlabel(f"Season cost ({words.currency})")
-        _money_axis(ax.xaxis)
-        if narrow:
-            ax.xaxis.set_major_locator(MaxNLocator(3))
-        _title(ax, f"What if next season is different? ({words.currency} per season)", narrow)
-        fig.legend(loc="outside lower center", ncol=ncol)
-        return Chart(_png(fig))
+        return _money_bars_done(fig, ax, words, "Season cost", "What if next season is different?", narrow, ncol)
