@@ -32,6 +32,7 @@ from simulator.replay.resample import Resampler, season_calendar
 from simulator.run import run_history
 from simulator.inputs.history import history_from_frame
 from simulator.inputs.scenario_tables import OperationsSection
+from simulator.inputs.scenario_types import BASELINES
 
 REPO = Path(__file__).resolve().parent.parent
 RULES_DEMO = REPO / "scenarios" / "line_marking_rules.toml"
@@ -358,6 +359,26 @@ def test_run_reports_operations_components_that_add_up(small_history, make_scena
     # without [operations] the summary has no operations block
     plain = make_scenario(season=SEASON, simulation={"replicates": 20})
     assert "operations" not in summary(run_history(plain, history_from_frame(small_history, plain)))
+
+
+def test_played_seasons_priced_again_equal_a_run_at_those_prices(small_history, make_scenario):
+    """How the crews work does not depend on the prices, so the kept day counts priced again at
+    other prices give bit for bit what a run at those prices gives (a property of the model as
+    stated in rules/operating_rules.py: no rule reads a price)."""
+    keys = dict(season=SEASON, decision={"cutoffs": [0.0, 1.0, 0.05]}, simulation={"replicates": 30, "seed": 5})
+    base = run_history(*_run_inputs(small_history, make_scenario(operations=RULES, **keys)))
+    np.testing.assert_array_equal(base.operations.season_cost_at()[:, : base.cutoffs.size], base.model_cost)
+    moved = {"day_rate": 650, "standby_rate": 90, "spoilage_cost": 0, "damages_per_day_late": 2500,
+             "unfinished_cost": 1200.5}
+    other = run_history(*_run_inputs(small_history, make_scenario(operations={**RULES, **moved}, **keys)))
+    priced = base.operations.season_cost_at(base.operations.rules.prices.moved(**moved))
+    np.testing.assert_array_equal(priced[:, : base.cutoffs.size], other.model_cost)
+    for i, name in enumerate(BASELINES):
+        np.testing.assert_array_equal(priced[:, base.cutoffs.size + i], other.baseline_cost[name])
+
+
+def _run_inputs(frame, scenario):
+    return scenario, history_from_frame(frame, scenario, label="history.csv")
 
 
 def test_rules_demo_documents_every_key_and_runs():

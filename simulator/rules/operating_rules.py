@@ -51,7 +51,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -62,8 +62,8 @@ from ..inputs.scenario import Scenario
 from ..inputs.scenario_tables import OperationsSection
 from ..inputs.scenario_types import WEEKDAYS
 
-__all__ = ["COMPONENTS", "COUNTS", "OFF", "REGULAR", "OVERTIME", "WORK_UNIT", "Rules", "make_rules",
-           "safety_stops"]
+__all__ = ["COMPONENTS", "COUNTS", "OFF", "REGULAR", "OVERTIME", "WORK_UNIT", "PRICE_KEYS", "RulePrices", "Rules",
+           "make_rules", "safety_stops"]
 
 OFF, REGULAR, OVERTIME = 0, 1, 2
 WORK_UNIT = 1000  # work is counted in whole thousandths of a crew-day, so its sums are exact
@@ -97,6 +97,38 @@ safety_stop_days       working days the safety stop kept the crews in when the d
 """
 
 
+PRICE_KEYS = ("day_rate", "standby_rate", "spoilage_cost", "damages_per_day_late", "unfinished_cost")
+"""The money of the rules, as ``[operations]`` names it: what a played season's day counts are
+priced at. How the crews work (who goes out, overtime, retention) never depends on these, so a
+played season can be priced again at other prices without playing it again."""
+
+
+@dataclass(frozen=True)
+class RulePrices:
+    """The rules' prices (:data:`PRICE_KEYS`), per crew and day except ``damages_per_day_late``
+    (per calendar day late) and ``unfinished_cost`` (per crew-day left). Each is a float, or a
+    (n_rep, 1) float64 array for a price drawn per replicate season, so prices of day counts
+    (n_rep, n_lanes) broadcast. ``standby_rate`` is the rate paid: ``day_rate`` when the scenario
+    gives none."""
+
+    day_rate: float | np.ndarray
+    standby_rate: float | np.ndarray
+    spoilage_cost: float | np.ndarray
+    damages_per_day_late: float | np.ndarray
+    unfinished_cost: float | np.ndarray
+
+    @classmethod
+    def of(cls, section: OperationsSection) -> "RulePrices":
+        """The prices the scenario's ``[operations]`` gives (a range's place holds its mean)."""
+        return cls(day_rate=section.day_rate, standby_rate=section.standby_day_rate,
+                   spoilage_cost=section.spoilage_cost, damages_per_day_late=section.damages_per_day_late,
+                   unfinished_cost=section.unfinished_cost)
+
+    def moved(self, **prices) -> "RulePrices":
+        """These prices with some replaced (keys of :data:`PRICE_KEYS`)."""
+        return replace(self, **prices)
+
+
 # ------------------------------------------------------------------------------------------------
 # the rules on the priced season's calendar
 
@@ -105,13 +137,9 @@ class Rules:
     """The operating rules laid on the priced season's occasions; arrays are (n_occasions,)."""
 
     crews: int
-    day_rate: float
-    standby_rate: float
-    spoilage_cost: float
+    prices: RulePrices  # the money; the rest is how the crews work
     progress_when_spoiled: int  # work units one crew completes on a spoiled day out
     work: int  # work units to do; UNLIMITED when there is no backlog limit
-    damages_per_day_late: float
-    unfinished_cost: float
     overtime_multiple: float
     max_overtime_days_per_week: int
     max_standby_days: int | None
@@ -190,11 +218,9 @@ def make_rules(section: OperationsSection, dates: np.ndarray, season_weekdays: S
     counted = (kind == REGULAR) & (day <= target)
     # regular working days strictly after each occasion, up to the target
     regular_after = (np.cumsum(counted[::-1])[::-1] - counted).astype(np.int64)
-    return Rules(crews=section.crews, day_rate=section.day_rate, standby_rate=section.standby_day_rate,
-                 spoilage_cost=section.spoilage_cost,
+    return Rules(crews=section.crews, prices=RulePrices.of(section),
                  progress_when_spoiled=round((1.0 - section.work_lost_when_spoiled) * WORK_UNIT),
                  work=UNLIMITED if section.work is None else max(1, round(section.work * WORK_UNIT)),
-                 damages_per_day_late=section.damages_per_day_late, unfinished_cost=section.unfinished_cost,
                  overtime_multiple=section.overtime_multiple,
                  max_overtime_days_per_week=section.max_overtime_days_per_week,
                  max_standby_days=section.max_standby_days, dates=dates, kind=kind, day=day,

@@ -10,7 +10,8 @@ import numpy as np
 
 from ..inputs.scenario_tables import OperationsSection
 from ..inputs.scenario_types import BASELINES
-from .operating_rules import COMPONENTS, COUNTS, Rules, _iso
+from .operating_rules import COMPONENTS, COUNTS, RulePrices, Rules, _iso
+from .season_cost import reprice
 
 __all__ = ["CAUTION", "OperationsResult"]
 
@@ -32,6 +33,12 @@ class OperationsResult:
     def lane(self, key: str, index: int) -> np.ndarray:
         """``key`` at one lane (a cutoff index, or ``n_cutoffs + i`` for baseline i), (n_rep,)."""
         return self.extras[key][:, index]
+
+    def season_cost_at(self, prices: RulePrices | None = None) -> np.ndarray:
+        """Every replicate season's cost in every lane (n_rep, n_cutoffs + n_baselines), priced
+        again at ``prices`` without playing the seasons again (:func:`~simulator.rules.season_cost.reprice`);
+        at the rules' own prices, bit for bit the run's season costs."""
+        return reprice(self.rules, self.extras, prices)[0]
 
     @property
     def cost_keys(self) -> list[str]:

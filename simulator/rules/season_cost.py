@@ -5,6 +5,11 @@
 bit-identical costs), :func:`days_late` counts the days past the deadline, and :class:`RulesPricer`
 lays the lanes (every cutoff, then every baseline) on the replicate seasons and turns their played
 outcomes into a :class:`~simulator.pricing.costs.PricedBlock`.
+
+How the crews work never depends on the rules' prices (:class:`~simulator.rules.operating_rules.RulePrices`),
+so the day counts a played season keeps (a priced block's extras, ``OperationsResult.extras``) can
+be priced again at other prices without playing the season again: :func:`reprice`, through the
+same :func:`price_outcome`, gives bit for bit what a run at those prices gives.
 """
 
 from __future__ import annotations
@@ -20,9 +25,9 @@ from ..inputs.history import History
 from ..inputs.scenario import Scenario
 from ..inputs.scenario_types import BASELINES
 from ..replay.resample import Calendar
-from .operating_rules import COMPONENTS, COUNTS, WORK_UNIT, Rules, make_rules, safety_stops
+from .operating_rules import COMPONENTS, COUNTS, WORK_UNIT, RulePrices, Rules, make_rules, safety_stops
 
-__all__ = ["price_outcome", "days_late", "RulesPricer"]
+__all__ = ["price_outcome", "season_total", "played_outcome", "reprice", "days_late", "RulesPricer"]
 
 
 def days_late(rules: Rules, completion_index):
@@ -37,27 +42,63 @@ def days_late(rules: Rules, completion_index):
     return np.maximum(finished_on - rules.deadline_day, 0)
 
 
-def price_outcome(rules: Rules, outcome: Mapping[str, np.ndarray | int | float]) -> dict[str, np.ndarray]:
-    """Money of each of :data:`COMPONENTS` from a season's counts (scalars or arrays alike).
+def price_outcome(rules: Rules, outcome: Mapping[str, np.ndarray | int | float],
+                  prices: RulePrices | None = None) -> dict[str, np.ndarray]:
+    """Money of each of :data:`COMPONENTS` from a season's counts (scalars or arrays alike), at
+    ``prices`` (the rules' own when None; a price drawn per replicate is (n_rep, 1) and broadcasts
+    over lanes).
 
     Day counts times crews are whole numbers, priced by one multiplication each, so the simpy model
     and the fast twin give bit-identical costs from identical counts.
     """
+    prices = rules.prices if prices is None else prices
     n = rules.crews
     good = np.asarray(outcome["days_out"]) - outcome["spoiled_days"]
     spoiled_any = np.asarray(outcome["spoiled_days"]) + outcome["spoiled_overtime_days"]
     left = np.asarray(outcome["left_units"])
-    unfinished = (left * rules.unfinished_cost / WORK_UNIT if rules.limited
+    unfinished = (left * prices.unfinished_cost / WORK_UNIT if rules.limited
                   else np.zeros(left.shape))
     return {
-        "productive_labour": good * n * rules.day_rate,
-        "spoiled_labour": np.asarray(outcome["spoiled_days"]) * n * rules.day_rate,
-        "spoilage": spoiled_any * n * rules.spoilage_cost,
-        "standby": np.asarray(outcome["standby_days"]) * n * rules.standby_rate,
-        "overtime": np.asarray(outcome["overtime_days"]) * n * (rules.day_rate * rules.overtime_multiple),
-        "late_damages": days_late(rules, outcome["completion_index"]) * rules.damages_per_day_late,
+        "productive_labour": good * n * prices.day_rate,
+        "spoiled_labour": np.asarray(outcome["spoiled_days"]) * n * prices.day_rate,
+        "spoilage": spoiled_any * n * prices.spoilage_cost,
+        "standby": np.asarray(outcome["standby_days"]) * n * prices.standby_rate,
+        "overtime": np.asarray(outcome["overtime_days"]) * n * (prices.day_rate * rules.overtime_multiple),
+        "late_damages": days_late(rules, outcome["completion_index"]) * prices.damages_per_day_late,
         "unfinished_work": unfinished,
     }
+
+
+def season_total(components: Mapping[str, np.ndarray], other_cost=None) -> np.ndarray:
+    """The season cost: the components added in :data:`COMPONENTS` order (then ``other_cost``, the
+    money of user-written processes), the one order every total is added in."""
+    total = 0.0
+    for name in COMPONENTS:
+        total = total + components[name]
+    if other_cost is not None:
+        total = total + other_cost
+    return np.asarray(total, dtype=float)
+
+
+def played_outcome(rules: Rules, extras: Mapping[str, np.ndarray]) -> dict[str, np.ndarray]:
+    """The counts :func:`price_outcome` prices, from a priced block's extras (the work left is kept
+    in crew-days; its whole work units are recovered exactly)."""
+    out = {name: extras[name] for name in ("days_out", "spoiled_days", "spoiled_overtime_days", "standby_days",
+                                             "overtime_days", "completion_index")}
+    left = extras["work_left"]
+    out["left_units"] = (np.rint(left * WORK_UNIT).astype(np.int64) if rules.limited
+                         else np.zeros(np.shape(left), dtype=np.int64))
+    return out
+
+
+def reprice(rules: Rules, extras: Mapping[str, np.ndarray], prices: RulePrices | None = None
+            ) -> tuple[np.ndarray, dict[str, np.ndarray]]:
+    """Played seasons priced again at ``prices``: the season cost (n_rep, n_lanes) and each
+    component's money, without playing them again (the play does not depend on the prices).
+    ``extras`` are a priced block's (``OperationsResult.extras``); money of user-written processes
+    (``other_cost``) is kept as played."""
+    components = price_outcome(rules, played_outcome(rules, extras), prices)
+    return season_total(components, extras.get("other_cost")), components
 
 
 
@@ -103,17 +144,17 @@ class RulesPricer:
                                base.transpose(0, 2, 1)], axis=1)
         return acts if self._out_on_acting else ~acts
 
-    def priced_block(self, rows: np.ndarray, outcome: Mapping[str, np.ndarray]) -> PricedBlock:
-        """A :class:`PricedBlock` from the lanes' outcomes, each (n_rep, n_lanes)."""
-        costs = price_outcome(self.rules, outcome)
-        total = np.zeros(np.shape(outcome["days_out"]))
-        extras: dict[str, np.ndarray] = {}
-        for name in COMPONENTS:
-            total = total + costs[name]
-            extras[f"{name}_cost"] = costs[name]
+    def priced_block(self, rows: np.ndarray, outcome: Mapping[str, np.ndarray],
+                     prices: RulePrices | None = None) -> PricedBlock:
+        """A :class:`PricedBlock` from the lanes' outcomes, each (n_rep, n_lanes), at ``prices``
+        (the rules' own when None)."""
+        costs = price_outcome(self.rules, outcome, prices)
+        shape = np.shape(outcome["days_out"])
+        extras: dict[str, np.ndarray] = {f"{name}_cost": np.broadcast_to(costs[name], shape).astype(float)
+                                         for name in COMPONENTS}
         if "other_cost" in outcome:
-            total = total + outcome["other_cost"]
             extras["other_cost"] = np.asarray(outcome["other_cost"], dtype=float)
+        total = np.broadcast_to(season_total(costs, outcome.get("other_cost")), shape)
         for name in (*COUNTS, "completion_index", *(("closed_days",) if "closed_days" in outcome else ())):
             extras[name] = np.asarray(outcome[name]).astype(np.int32)
         extras["days_late"] = days_late(self.rules, outcome["completion_index"]).astype(np.int32)
