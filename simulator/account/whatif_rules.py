@@ -65,7 +65,7 @@ def rules_fields(result) -> list[tuple[str, str, str, str]]:
     return [(key, _LABELS[key], what[key], typed_number(getattr(prices, key))) for key in _given(result)]
 
 
-def rules_whatif_data(result, sample: int = SAMPLE) -> dict:
+def rules_whatif_data(result, sample: int | None = None) -> dict:
     """The what-if's data under ``[operations]`` (``kind = "rules"``); ``{"reason": ...}`` alone
     when the sample's counts cannot be written.
 
@@ -76,7 +76,8 @@ def rules_whatif_data(result, sample: int = SAMPLE) -> dict:
     priced count, its mean at each cutoff over all replicates), ``reference_mean`` (the reference
     rule's), ``other_mean`` and ``reference_other_mean`` (money of user-written processes, or
     None); ``sample``: ``n``, ``counts`` (per priced count, ``encode_counts`` of (n_cutoffs + 1) x n,
-    lane-major, the reference rule last) and ``other`` (float64, same layout, or None).
+    lane-major, the reference rule last) and ``other`` (float64, same layout, or None). ``sample``
+    replicates are embedded (:data:`SAMPLE` when None), or all when there are fewer.
     """
     operations = result.operations
     rules, extras, k = operations.rules, operations.extras, operations.n_cutoffs
@@ -84,7 +85,7 @@ def rules_whatif_data(result, sample: int = SAMPLE) -> dict:
     used = list(dict.fromkeys(count for pairs in terms.values() for count, _ in pairs))
     lanes = [*range(k), k + BASELINES.index(result.reference)]
     counts = {name: value[:, lanes] for name, value in price_counts(rules, extras).items() if name in used}
-    n = min(sample, result.replicates)
+    n = min(SAMPLE if sample is None else sample, result.replicates)
     packed = {name: encode_counts(value[:n].T) for name, value in counts.items()}
     if any(p is None for p in packed.values()):
         return {"reason": "The seasons' counts are too large for the page's sample: change the prices in the "
