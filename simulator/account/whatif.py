@@ -20,6 +20,10 @@ The model's sample holds, per cutoff, the hits and false alarms of each sampled 
 season its events and occasions (misses = events - hits, correct negatives = occasions - events
 - false alarms); the reference rule's sample holds its four counts per season.
 
+Under ``[operations]`` the fields are the rules' prices instead, and
+:mod:`~simulator.account.whatif_rules` makes the data (``kind = "rules"``; this module's is
+``kind = "costs"``); the page's script holds one model of each kind behind the same figures.
+
 Nothing here is text from the scenario: names reach the page escaped by the template, and this
 data reaches it as JSON in a ``<script type="application/json">`` element (``report_page.script_json``).
 """
