@@ -147,3 +147,28 @@ def test_without_work_or_deadline_their_prices_are_no_fields(tmp_path):
     shown = page_figures(data, prices)
     assert shown["reference_mean"] == pytest.approx(expected[:, lane].mean(), rel=1e-12)
     assert shown["mean"] == pytest.approx(expected[:, shown["best"]].mean(), rel=1e-12)
+
+
+def test_money_charged_by_a_user_process_is_kept_as_played(tmp_path):
+    """A user-written simpy process's money (``other_cost``) does not move with the prices: the page
+    adds its mean as a constant, and each sampled season's own amount."""
+
+    def machine_hire(env, site):  # the example of simulator/rules/simpy_model.py's Site
+        while True:
+            report = yield site.day_done
+            if report.out:
+                site.charge(150.0)
+
+    path = tmp_path / "hire.toml"
+    path.write_text(_scenario_text(**{"cutoffs = [0.0, 1.0, 0.01]": "cutoffs = [0.0, 1.0, 0.1]"}), encoding="utf-8")
+    result = run(read_scenario(path), HISTORY, replicates=12, processes=[machine_hire])
+    data = rules_whatif_data(result)
+    assert data["other_mean"] is not None and data["sample"]["other"] is not None
+    prices = {"day_rate": 950.0, "unfinished_cost": 0.0}
+    expected = result.operations.season_cost_at(result.operations.rules.prices.moved(**prices))
+    shown = page_figures(data, prices)
+    assert shown["mean"] == pytest.approx(expected[:, shown["best"]].mean(), rel=1e-12)
+    k = result.operations.n_cutoffs
+    lane = k + BASELINES.index(result.reference)
+    assert shown["p95"] == pytest.approx(np.quantile(expected[:, shown["best"]], 0.95), rel=1e-12)
+    assert shown["reference_mean"] == pytest.approx(expected[:, lane].mean(), rel=1e-12)
