@@ -66,6 +66,27 @@ def _run(tmp_path: Path, text: str, name: str):
     return run(read_scenario(path), HISTORY, replicates=REPLICATES)
 
 
+def check_against_run(shown: dict, other, n: int, rel: float = 1e-12) -> None:
+    """The what-if's figures ``shown`` against ``other``, a run at the typed prices or costs on the
+    same seeds: its cutoff and expected season cost and saving exactly (to the cent); the range and
+    the share of seasons that save equal to those of its first ``n`` seasons (within ``rel``), and
+    within the sample's error of all its seasons (module docstring)."""
+    best = other.decision.recommended_index
+    assert shown["cutoff"] == pytest.approx(other.decision.recommended_cutoff, abs=1e-12)
+    assert shown["mean"] == pytest.approx(other.table["mean_cost"][best], rel=1e-12, abs=0.005)
+    reference = other.baseline_cost[other.reference]
+    assert shown["saving"] == pytest.approx(reference.mean() - other.model_cost[:, best].mean(), abs=0.005)
+    at, ref = other.model_cost[:n, best], reference[:n]
+    assert shown["p05"] == pytest.approx(np.quantile(at, 0.05), rel=rel)
+    assert shown["p95"] == pytest.approx(np.quantile(at, 0.95), rel=rel)
+    assert shown["prob"] == pytest.approx(cheaper(at, ref).mean(), abs=1e-12)
+    everything = other.model_cost[:, best]
+    spread = 4 * math.sqrt(0.95 * 0.05 / n)
+    assert np.quantile(everything, 0.95 - spread) <= shown["p95"] <= np.quantile(everything, min(1.0, 0.95 + spread))
+    full = float(cheaper(everything, reference).mean())
+    assert abs(shown["prob"] - full) <= 4 * math.sqrt(max(full * (1 - full), 1e-4) / n)
+
+
 @pytest.fixture(scope="module")
 def runs(tmp_path_factory):
     folder = tmp_path_factory.mktemp("whatif_rules")
@@ -90,22 +111,8 @@ def test_typed_prices_give_the_expected_costs_and_cutoff_of_a_run_at_those_price
     data = whatif_data(base)
     assert data["kind"] == "rules" and data["sample"]["n"] == SAMPLE
     shown = page_figures(data, TYPED)
-    best = other.decision.recommended_index
-    assert shown["best"] == best
-    np.testing.assert_allclose(page_figures(data, TYPED)["mean"], other.table["mean_cost"][best], rtol=1e-12)
-    reference = other.baseline_cost[other.reference]
-    assert shown["saving"] == pytest.approx(reference.mean() - other.model_cost[:, best].mean(), abs=0.005)
-    # the sample: exactly the first SAMPLE seasons of the run at those prices
-    at, ref = other.model_cost[:SAMPLE, best], reference[:SAMPLE]
-    assert shown["p05"] == pytest.approx(np.quantile(at, 0.05), rel=1e-12)
-    assert shown["p95"] == pytest.approx(np.quantile(at, 0.95), rel=1e-12)
-    assert shown["prob"] == pytest.approx(cheaper(at, ref).mean(), abs=1e-12)
-    # and within the sample's error of all the run's seasons
-    everything = other.model_cost[:, best]
-    spread = 4 * math.sqrt(0.95 * 0.05 / SAMPLE)
-    assert np.quantile(everything, 0.95 - spread) <= shown["p95"] <= np.quantile(everything, min(1.0, 0.95 + spread))
-    full = float(cheaper(everything, reference).mean())
-    assert abs(shown["prob"] - full) <= 4 * math.sqrt(max(full * (1 - full), 1e-4) / SAMPLE)
+    assert shown["best"] == other.decision.recommended_index
+    check_against_run(shown, other, SAMPLE)
 
 
 def test_at_the_scenarios_prices_the_page_shows_the_runs_own_figures(runs):

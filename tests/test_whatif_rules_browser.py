@@ -17,22 +17,20 @@ against :func:`simulator.account.whatif_rules.page_figures`, its Python statemen
 from __future__ import annotations
 
 import json
-import math
 import re
 import shutil
 from pathlib import Path
 
-import numpy as np
 import pytest
 from typer.testing import CliRunner
 
 from simulator.account import whatif_rules
 from simulator.account.whatif_rules import page_figures
 from simulator.cli import app
-from simulator.pricing.decision import cheaper
 from test_browser import HOSTILE_NAMES, _open, page  # noqa: F401  (the browser fixture)
 from test_whatif_browser import _read, _type
-from test_whatif_rules import HISTORY, REPLICATES, SAMPLE, TYPED, _priced_text, _run, _scenario_text
+from test_whatif_rules import (HISTORY, REPLICATES, SAMPLE, TYPED, _priced_text, _run, _scenario_text,
+                               check_against_run)
 
 
 def _report(folder: Path, text: str, monkeypatch) -> Path:
@@ -59,22 +57,7 @@ def test_typed_prices_give_the_figures_of_a_run_at_those_prices(tmp_path, page, 
     _type(page, {key: f"{value:g}" for key, value in TYPED.items()})
     shown = _read(page)
     assert shown["error"] == ""
-    best = other.decision.recommended_index
-    # exact: the expected season cost and the cutoff it chooses, to the cent
-    assert shown["cutoff"] == pytest.approx(other.decision.recommended_cutoff, abs=1e-12)
-    assert shown["mean"] == pytest.approx(other.table["mean_cost"][best], abs=0.005)
-    reference = other.baseline_cost[other.reference]
-    assert shown["saving"] == pytest.approx(reference.mean() - other.model_cost[:, best].mean(), abs=0.005)
-    # the sample: the first SAMPLE seasons of the run at those prices
-    at, ref = other.model_cost[:SAMPLE, best], reference[:SAMPLE]
-    assert shown["p05"] == pytest.approx(np.quantile(at, 0.05), rel=1e-9)
-    assert shown["p95"] == pytest.approx(np.quantile(at, 0.95), rel=1e-9)
-    assert shown["prob"] == pytest.approx(cheaper(at, ref).mean(), abs=1e-12)
-    everything = other.model_cost[:, best]
-    spread = 4 * math.sqrt(0.95 * 0.05 / SAMPLE)
-    assert np.quantile(everything, 0.95 - spread) <= shown["p95"] <= np.quantile(everything, min(1.0, 0.95 + spread))
-    full = float(cheaper(everything, reference).mean())
-    assert abs(shown["prob"] - full) <= 4 * math.sqrt(max(full * (1 - full), 1e-4) / SAMPLE)
+    check_against_run(shown, other, SAMPLE, rel=1e-9)  # exact for means, the sample's error for the rest
     # the page's script and its Python statement agree
     found = re.search(r'<script type="application/json" id="whatif-data">(.*?)</script>',
                       report.read_text(encoding="utf-8"), re.S)
