@@ -29,7 +29,7 @@ import numpy as np
 
 from ..inputs.scenario_types import BASELINES, MAX_MONEY
 from ..pricing.decision import SAME_MONEY, SHORTFALL_SHARE, cheaper, lowest, objective_cost
-from ..rules.operating_rules import PRICE_KEYS, _iso
+from ..rules.operating_rules import PRICE_KEYS, RulePrices, _iso
 from ..rules.price_terms import price_counts, price_terms, priced_by_terms
 from .page_codec import decode_counts, decode_float64, encode_counts, encode_float64, typed_number
 
@@ -52,12 +52,12 @@ def _given(result) -> list[str]:
 def rules_fields(result) -> list[tuple[str, str, str, str]]:
     """(key, label, what it prices, the scenario's value as typed) for each field."""
     rules, section = result.operations.rules, result.scenario.operations
-    prices = rules.prices
+    prices = RulePrices.of(section)  # the scenario's (a range's PERT mean), never a per-season draw
     day = "per crew and working day, out" + (" or on standby" if section.standby_rate is None else "")
     if rules.n_overtime_days:
         day += f"; overtime days at {section.overtime_multiple:g} times it"
     what = {"day_rate": day, "standby_rate": "per crew and working day on standby",
-            "spoilage_cost": "per crew and spoiled day out, on top of the day rate",
+            "spoilage_cost": "per crew and spoiled day out, on top of the pay",
             "damages_per_day_late": ("per calendar day past the deadline"
                                      + (f" ({_iso(rules.dates[0] + rules.deadline_day)})"
                                         if rules.deadline_day is not None else "")),
@@ -95,7 +95,7 @@ def rules_whatif_data(result, sample: int | None = None) -> dict:
     section = result.scenario.operations
     return {
         "kind": "rules", "keys": _given(result),
-        "prices": {key: float(getattr(rules.prices, key)) for key in terms},
+        "prices": {key: float(getattr(RulePrices.of(section), key)) for key in terms},
         "follows": {"standby_rate": "day_rate"} if section.standby_rate is None else {},
         "terms": {key: [[count, float(factor)] for count, factor in pairs] for key, pairs in terms.items()},
         "min_money": 0.0, "max_money": MAX_MONEY, "objective": result.decision.objective,
