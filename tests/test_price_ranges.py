@@ -26,6 +26,7 @@ import re
 from pathlib import Path
 
 import numpy as np
+import pandas as pd
 import pytest
 from scipy import stats
 
@@ -301,3 +302,50 @@ def test_a_stress_case_prices_the_same_drawn_prices_times_its_multipliers():
     prices = RulePrices.of(scenario.operations).moved(day_rate=833.25, standby_rate=833.25)
     np.testing.assert_array_equal(fixed_day.views[0].model_cost_at_base,
                                   result.operations.season_cost_at(prices)[:, k])
+
+
+def test_each_site_draws_its_own_price_ranges_as_a_run_of_that_site_alone_does():
+    """Many sites: a site's season costs with the scenario's price range and its own are those of a
+    single-site run of its rows with the same ranges (invented correlated sites, tests/test_sites.py)."""
+
+    from test_sites import SITES_TOML, correlated_sites
+
+    frame = correlated_sites(20270415, years=3)
+    rules = ('[operations]\ncrews = 2\ncrews_out_on = "not_acting"\nspoiled_on = "event"\n'
+             "day_rate = {low = 700, likely = 800, high = 1100}\nspoilage_cost = 300\nwork = 150\n"
+             "unfinished_cost = 2000\n")
+    text = SITES_TOML.replace("replicates = 400", "replicates = 150") + rules
+    own = "spoilage_cost = {low = 200, likely = 300, high = 700}\n"
+    scenario = scenario_from_text(text + f'[sites."South".operations]\n{own}')
+    assert set(scenario.cost_ranges()) == {"operations.day_rate", "sites.South.operations.spoilage_cost"}
+    result = run_history(scenario, history_from_frame(frame, scenario, label="history.csv"))
+    for k, name in enumerate(("North", "South")):
+        alone_text = text.replace('site_column = "site"\n', "")
+        if name == "South":
+            alone_text = alone_text.replace("spoilage_cost = 300\n", own)
+        alone_scenario = scenario_from_text(alone_text)
+        rows = frame[frame["site"] == name].drop(columns="site").reset_index(drop=True)
+        alone = run_history(alone_scenario, history_from_frame(rows, alone_scenario, label="history.csv"))
+        site = result.sites[k]
+        # a site's table leaves the money priced by [costs] on the history as it is (a single-site
+        # run under [operations] empties it); the season costs are the same
+        priced = [c for c in alone.table.columns if "historical" not in c and c not in ("net_benefit", "relative_value")]
+        pd.testing.assert_frame_equal(site.table[priced], alone.table[priced], check_exact=True)
+        np.testing.assert_array_equal(site.model_cost, alone.model_cost[:, alone.decision.recommended_index])
+        assert alone.cost_spread is not None and 0 < alone.cost_spread.share_costs < 1
+    written = summary(result)
+    assert set(written["cost_ranges"]) == {"operations.day_rate", "sites.South.operations.spoilage_cost"}
+    said = account(written).get("cost_doubt")
+    assert "spoilage cost at \u201cSouth\u201d: 200 to 700 EUR per crew per spoiled day out" in said.sentence
+
+
+def test_the_readme_quotes_the_rules_demos_spread_as_the_run_gives_it():
+    root = Path(__file__).resolve().parents[1]
+    readme = " ".join((root / "README.md").read_text().split())
+    result = run(read_scenario(root / "scenarios" / "line_marking_rules.toml"))
+    spread = result.cost_spread
+    assert f"{result.decision.recommended_cutoff:.2f}" == "0.38"
+    assert (f"at its cutoff of 0.38, **{spread.share_weather:.0%}** of the variance of the season cost comes from "
+            f"the weather and **{spread.share_costs:.0%}** from that range") in readme
+    assert result.scenario.cost_ranges() == {"operations.day_rate": CostRange(low=720, likely=790, high=920)}
+    assert result.scenario.operations.day_rate == 800  # (720 + 4 x 790 + 920) / 6, Malcolm et al. 1959
