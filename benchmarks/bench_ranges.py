@@ -68,7 +68,6 @@ def rules_demo(ranged: bool):
     from pathlib import Path
 
     from simulator.inputs.history import read_history
-    from simulator.inputs.scenario import read_scenario
 
     path = Path(__file__).resolve().parent.parent / "scenarios" / "line_marking_rules.toml"
     text = re.sub(r"^day_rate = \{[^}]*\}", "day_rate = 800", path.read_text(), flags=re.M)
@@ -76,9 +75,7 @@ def rules_demo(ranged: bool):
         for key, value in PRICES.items():
             text = re.sub(rf"^{key} = \S+", f"{key} = {value}", text, flags=re.M)
     text = text.replace('path = "line_marking_history.csv"', f'path = "{path.parent / "line_marking_history.csv"}"')
-    copy = Path(f"/tmp/bench_ranges_rules_{'ranged' if ranged else 'fixed'}.toml")
-    copy.write_text(text)
-    scenario = read_scenario(copy)
+    scenario = scenario_from_text(text, label=path.name)
     return scenario, read_history(scenario)
 
 
