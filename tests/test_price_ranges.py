@@ -29,11 +29,13 @@ import numpy as np
 import pandas as pd
 import pytest
 from scipy import stats
+from typer.testing import CliRunner
 
 from realdata import seattle_rain
 from simulator import read_scenario, run
 from simulator.account.findings import account
 from simulator.account.outputs import summary
+from simulator.cli import app
 from simulator.inputs.errors import InputError
 from simulator.inputs.history import history_from_frame
 from simulator.inputs.ranges import CostRange, split_ranges
@@ -349,3 +351,21 @@ def test_the_readme_quotes_the_rules_demos_spread_as_the_run_gives_it():
             f"the weather and **{spread.share_costs:.0%}** from that range") in readme
     assert result.scenario.cost_ranges() == {"operations.day_rate": CostRange(low=720, likely=790, high=920)}
     assert result.scenario.operations.day_rate == 800  # (720 + 4 x 790 + 920) / 6, Malcolm et al. 1959
+
+
+@pytest.mark.parametrize("old, new, words", [
+    ("day_rate = {low = 720,", "day_rate = {low = -20,", "[operations] day_rate: low must be a number from 0 to"),
+    ("hit = 2400", "hit = {low = 2000, likely = 2400, high = 2600}",
+     "[costs] hit: with [operations] the rules price the seasons"),
+])
+def test_a_wrong_price_range_stops_the_command_line_in_one_line_writing_nothing(tmp_path, old, new, words):
+    root = Path(__file__).resolve().parents[1] / "scenarios"
+    text = (root / "line_marking_rules.toml").read_text()
+    assert old in text
+    text = text.replace(old, new).replace('path = "line_marking_history.csv"',
+                                          f'path = "{root / "line_marking_history.csv"}"')
+    (tmp_path / "rules.toml").write_text(text)
+    out = tmp_path / "out"
+    result = CliRunner().invoke(app, ["run", str(tmp_path / "rules.toml"), "--out", str(out), "--replicates", "40"])
+    assert result.exit_code == 2 and words in result.output and "Traceback" not in result.output
+    assert len(result.output.strip().splitlines()) == 1 and not out.exists()
