@@ -7,6 +7,11 @@ are the fixed run's costs. Target (issue 14): the ranges add less than 50%.
 
 Prints both CPU times (best of ``--repeat`` interleaved runs each after a small warm-up
 run, default 1: the machine is shared) and their ratio. Run: ``python benchmarks/bench_ranges.py``.
+
+``--rules``: the same comparison under ``[operations]``, on the rules demo
+(``scenarios/line_marking_rules.toml``, invented; 2,000 replicates by default) with its five prices
+fixed at their PERT means against all five given as ranges (drawn per replicate season; the days
+are played once either way, only the pricing of the played block changes).
 """
 
 from __future__ import annotations
@@ -50,10 +55,50 @@ def seconds(scenario, history, replicates: int | None = None) -> float:
     return time.process_time() - start
 
 
+# the rules demo's five prices: PERT means 800, 400, 800, 3,000 and 2,000 EUR, the fixed run's
+PRICES = {"day_rate": "{low = 720, likely = 790, high = 920}", "standby_rate": "{low = 340, likely = 400, high = 460}",
+          "spoilage_cost": "{low = 500, likely = 800, high = 1100}",
+          "damages_per_day_late": "{low = 2400, likely = 2850, high = 4200}",
+          "unfinished_cost": "{low = 1600, likely = 1950, high = 2600}"}
+
+
+def rules_demo(ranged: bool):
+    """The rules demo's scenario and history, its prices fixed (at the ranges' PERT means) or ranges."""
+    import re
+    from pathlib import Path
+
+    from simulator.inputs.history import read_history
+
+    path = Path(__file__).resolve().parent.parent / "scenarios" / "line_marking_rules.toml"
+    text = re.sub(r"^day_rate = \{[^}]*\}", "day_rate = 800", path.read_text(), flags=re.M)
+    if ranged:
+        for key, value in PRICES.items():
+            text = re.sub(rf"^{key} = \S+", f"{key} = {value}", text, flags=re.M)
+    text = text.replace('path = "line_marking_history.csv"', f'path = "{path.parent / "line_marking_history.csv"}"')
+    scenario = scenario_from_text(text, label=path.name)
+    return scenario, read_history(scenario)
+
+
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--repeat", type=int, default=1)
+    parser.add_argument("--rules", action="store_true", help="the rules demo, its five prices fixed or ranges")
+    parser.add_argument("--replicates", type=int, default=2000, help="with --rules (default 2,000)")
     args = parser.parse_args()
+    if args.rules:
+        fixed, ranged = rules_demo(False), rules_demo(True)
+        seconds(*fixed, replicates=100), seconds(*ranged, replicates=100)  # warm up
+        times = {"fixed": [], "ranged": []}
+        for _ in range(args.repeat):
+            times["fixed"].append(seconds(*fixed, replicates=args.replicates))
+            times["ranged"].append(seconds(*ranged, replicates=args.replicates))
+        a, b = min(times["fixed"]), min(times["ranged"])
+        print(f"rules demo, {args.replicates:,} replicates x 101 cutoffs, one worker, CPU time, best of "
+              f"{args.repeat} interleaved runs each:")
+        print(f"  five prices fixed:        {a:7.2f} s")
+        print(f"  five prices as ranges:    {b:7.2f} s")
+        print(f"  ratio ranges / fixed:     {b / a:7.2f}")
+        return
     frame = synthetic_frame()
     fixed, ranged = prepared(FIXED, frame), prepared(RANGES, frame)
     seconds(*fixed, replicates=500), seconds(*ranged, replicates=500)  # warm up: imports, caches

@@ -122,7 +122,7 @@ def run_history(scenario: Scenario, history: History, *, replicates: int | None 
                  outcome_probability=None if calibration is None else calibration.probability,
                  n_forecasts=n_forecasts, keep_counts=scenario.operations is None and calibration is None)
     try:
-        rules = _pricer(work, 0).rules if scenario.operations is not None else None  # checks them
+        rules_pricer = _pricer(work, 0) if scenario.operations is not None else None  # checks the rules
         priced: dict[int, PricedBlock] = {}
         with _executor(work, workers, cluster) as executor:
             _price_all(work, executor, lambda k, block: priced.__setitem__(k, block), None, progress)
@@ -135,8 +135,10 @@ def run_history(scenario: Scenario, history: History, *, replicates: int | None 
     baseline_cost = {name: block.baselines[:, i] for i, name in enumerate(BASELINES)}
     operations = None
     if scenario.operations is not None:
-        operations = OperationsResult(rules=rules, n_cutoffs=cutoffs.size, extras=extras,
+        operations = OperationsResult(rules=rules_pricer.rules, n_cutoffs=cutoffs.size, extras=extras,
                                       section=scenario.operations)
+        if rules_pricer.draws_prices:  # prices drawn per replicate: the same seasons at the mean prices
+            at_means = operations.season_cost_at()[:, : cutoffs.size]
 
     seasons_per_history = max(1, round(history.n_evaluated / calendar.n_occasions))
     decision = decide(model_cost, baseline_cost[sim.reference], cutoffs, seasons_per_history,

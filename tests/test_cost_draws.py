@@ -83,9 +83,9 @@ def test_split_ranges_puts_the_mean_in_place_and_keeps_the_range():
     assert out["sites"]["North"]["costs"]["hit"] == 200
     assert set(ranges) == {"costs.miss", "sites.North.costs.hit"}
     assert isinstance(data["costs"]["miss"], dict)  # the input is left as it was
-    north = site_ranges(ranges, "North", {"hit"})
+    north = site_ranges(ranges, "North", {"costs.hit"})
     assert north == {"costs.miss": ranges["costs.miss"], "costs.hit": ranges["sites.North.costs.hit"]}
-    assert site_ranges(ranges, "North", {"miss"}) == {"costs.hit": ranges["sites.North.costs.hit"]}
+    assert site_ranges(ranges, "North", {"costs.miss"}) == {"costs.hit": ranges["sites.North.costs.hit"]}
 
 
 @pytest.mark.parametrize("written, words", [
@@ -104,14 +104,14 @@ def test_a_wrong_range_is_one_line_naming_its_key(written, words):
     assert message.startswith("s.toml ") and words in message and "\n" not in message
 
 
-def test_ranges_beside_operating_rules_are_refused_in_one_line():
-    data = {"costs": {"hit": 1, "false_alarm": 2, "miss": 3},
-            "operations": {"day_rate": {"low": 1, "likely": 2, "high": 3}}}
-    with pytest.raises(InputError, match=r"\[operations\] day_rate: prices of the operating rules cannot be"):
-        split_ranges(data, "s.toml")
+def test_cost_ranges_beside_operating_rules_are_refused_in_one_line():
     data = {"costs": {"hit": 1, "false_alarm": 2, "miss": {"low": 1, "likely": 2, "high": 3}},
             "operations": {"day_rate": 5}}
-    with pytest.raises(InputError, match=r"\[costs\] miss: with \[operations\] the rules price the seasons"):
+    with pytest.raises(InputError, match=r"^s\.toml \[costs\] miss: with \[operations\] the rules price the seasons"):
+        split_ranges(data, "s.toml")
+    data = {"costs": {"hit": 1, "false_alarm": 2, "miss": 3}, "operations": {"day_rate": 5},
+            "sites": {"North": {"costs": {"miss": {"low": 1, "likely": 2, "high": 3}}}}}
+    with pytest.raises(InputError, match=r'^s\.toml \[sites\."North"\.costs\] miss: with \[operations\] the rules'):
         split_ranges(data, "s.toml")
 
 

@@ -143,8 +143,9 @@ def _cost_ranges_entry(result: RunResult) -> dict[str, Any]:
     if result.cost_spread is not None:
         out["cost_spread"] = {"cutoff": result.decision.recommended_cutoff, **result.cost_spread.as_dict(),
                               "method": "variance of the season cost over the simulated seasons, with every "
-                                        "cost fixed at its mean (the weather's part) against with the costs "
-                                        "drawn (the whole); the costs' part is the difference"}
+                                        "cost (or price of the operating rules) given as a range fixed at its "
+                                        "mean (the weather's part) against with them drawn (the whole); the "
+                                        "ranges' part is the difference"}
     return out
 
 

@@ -115,8 +115,21 @@ def _rules_read_back(scenario) -> list[tuple[str, list[tuple[str, str]]]]:
     words = (scenario.currency, scenario.decision.action, scenario.event.name)
     rules = getattr(scenario, "operations", None)
     if rules is not None:
-        rows.append(("Operating rules", _read_back(rules, *words)))
+        ranges = scenario.cost_ranges() if hasattr(scenario, "cost_ranges") else {}
+        rows.append(("Operating rules", [_ranged(label, value, ranges, scenario.currency)
+                                         for label, value in _read_back(rules, *words)]))
     for case in getattr(scenario, "stress", None) or ():
         rows.append((f"Stress case \u201c{case.name}\u201d",
                      [(k, v) for k, v in _read_back(case, *words) if k != "name"]))
     return rows
+
+
+def _ranged(label: str, value: str, ranges: Mapping[str, Any], currency: str) -> tuple[str, str]:
+    """A rules' price given as a range (``operations.<price>`` in ``Scenario.cost_ranges()``) read
+    back as the range, drawn per season, with its PERT mean; any other setting as it is."""
+    r = ranges.get("operations." + label.replace(" ", "_"))
+    if r is None or r.high <= r.low:
+        return label, value
+    return label, (f"{money_exact(r.low, currency)} to {money_exact(r.high, currency)}, most likely "
+                   f"{money_exact(r.likely, currency)}; drawn for each simulated season (PERT mean "
+                   f"{money_exact(r.mean, currency)})")

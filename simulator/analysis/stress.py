@@ -42,6 +42,8 @@ from ..pricing.costs import PricedBlock, occasion_costs
 from ..pricing.decision import OBJECTIVE_NAMES, Decision, Distribution, cheaper, decide, distribution, objective_cost
 from ..inputs.errors import InputError
 from ..inputs.history import History
+from ..pricing.draws import CostDrawer
+from ..rules.price_draws import PriceDraws
 from ..rules.vectorised_model import OperationsPricer
 from ..replay.resample import Calendar, Resampler
 from ..inputs.scenario import Scenario
@@ -238,7 +240,8 @@ def _run_case(case: StressCase, base: _Base) -> StressResult:
     else:  # every season played under the rules, with the case's prices and forecast
         rules = base.scenario.model_copy(update={
             "costs": costs, "operations": case.changed_operations(base.scenario.operations)})
-        pricers = [[_rules_pricer(dataclasses.replace(history, p=p), base, rules) for _, p in own] for own in each]
+        pricers = [[_rules_pricer(dataclasses.replace(history, p=p), base, rules, case) for _, p in own]
+                   for own in each]
 
     parts: list[list[PricedBlock]] = [[] for _ in views]
     later: list[list[list[np.ndarray]]] = [[[] for _ in views] for _ in each[1:]]  # at each own cutoff
@@ -279,10 +282,14 @@ def _run_case(case: StressCase, base: _Base) -> StressResult:
                         warnings=tuple(warnings))
 
 
-def _rules_pricer(history: History, base: _Base, scenario: Scenario) -> Callable[[np.ndarray, int], PricedBlock]:
-    """The operating-rules pricer of a case, called like :class:`ReplicatePricer`."""
-    pricer = OperationsPricer(history, base.calendar, base.cutoffs, scenario)
-    return lambda rows, block: pricer(rows)
+def _rules_pricer(history: History, base: _Base, scenario: Scenario, case: StressCase) -> OperationsPricer:
+    """The operating-rules pricer of a case (``scenario``: the base's with the case's changes),
+    called like :class:`ReplicatePricer`. Prices the base draws per replicate season from ranges
+    are drawn again on the same streams (common random numbers) with the case's changes laid over
+    them."""
+    own = base.scenario
+    drawn = PriceDraws(own.operations, CostDrawer(own.costs, own.cost_ranges(), base.seed), case.changes_of)
+    return OperationsPricer(history, base.calendar, base.cutoffs, scenario, prices=drawn)
 
 
 def _case_resampler(case: StressCase, base: _Base, warnings: list[str]) -> tuple[Resampler, tuple | None]:

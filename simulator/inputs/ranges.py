@@ -4,8 +4,9 @@ A cost written as a range is read here, before the scenario's schema sees it: th
 checked (three finite numbers, low <= likely <= high, within the schema's money limits) and the
 schema gets its PERT mean in its place, so everything that needs one fixed number (the break-even
 probability, relative value, the theoretical cutoff, the seasonal-rate baseline) uses the mean.
-The ranges themselves are kept by dotted key ("costs.miss", "sites.<site>.costs.miss") and drawn
-once per replicate season by :mod:`simulator.pricing.draws`.
+The ranges themselves are kept by dotted key ("costs.miss", "sites.<site>.costs.miss",
+"operations.day_rate", "sites.<site>.operations.day_rate") and drawn once per replicate season by
+:mod:`simulator.pricing.draws`.
 
 The PERT distribution: a beta distribution on [low, high] with shape parameters
 ``1 + 4 (likely - low) / (high - low)`` and ``1 + 4 (high - likely) / (high - low)``, whose mean is
@@ -14,8 +15,11 @@ technique for research and development program evaluation", Operations Research 
 the shape parameters as in Vose 2008, "Risk Analysis", 3rd ed., section on the PERT distribution,
 from memory).
 
-Ranges are read in ``[costs]`` and ``[sites."<name>".costs]``. Under ``[operations]`` the rules
-price the seasons; ranges there (and in ``[costs]`` beside them) are refused in one line for now.
+Ranges are read in ``[costs]`` and ``[sites."<name>".costs]`` for the four costs, and in
+``[operations]`` and ``[sites."<name>".operations]`` for the rules' prices
+(:data:`~simulator.inputs.scenario_tables.PRICE_KEYS`; a price's range must not go below 0). With
+``[operations]`` the rules price the seasons, so a range in ``[costs]`` beside them is refused in
+one line (it would never be drawn); so is a range in a ``[[stress]]`` case, which takes one number.
 """
 
 from __future__ import annotations
@@ -25,12 +29,12 @@ from typing import Any
 
 from .errors import InputError, did_you_mean, excerpt, quoted
 from .scenario_costs import COST_KEYS
+from .scenario_tables import PRICE_KEYS
 from .scenario_types import MAX_MONEY, Money, _Section
 
 __all__ = ["CostRange", "split_ranges", "RANGE_KEYS", "site_ranges"]
 
 RANGE_KEYS = ("low", "likely", "high")
-_OPERATIONS_PRICES = ("day_rate", "standby_rate", "spoilage_cost", "damages_per_day_late", "unfinished_cost")
 
 
 class CostRange(_Section):
@@ -61,8 +65,9 @@ class CostRange(_Section):
         return (1 + 4 * (self.likely - self.low) / self.width, 1 + 4 * (self.high - self.likely) / self.width)
 
 
-def _read_range(value: dict, where: str, money: float) -> CostRange:
-    """One written range checked, or an :class:`InputError` naming ``where``."""
+def _read_range(value: dict, where: str, money: float, least: float | None = None) -> CostRange:
+    """One written range checked, or an :class:`InputError` naming ``where``; ``least`` is the
+    lowest value allowed (0 for a price), else ``-money``."""
     unknown = [k for k in value if k not in RANGE_KEYS]
     if unknown:
         hint = did_you_mean(str(unknown[0]), RANGE_KEYS) or "; write {low = .., likely = .., high = ..}"
@@ -75,8 +80,9 @@ def _read_range(value: dict, where: str, money: float) -> CostRange:
         v = value[key]
         if isinstance(v, bool) or not isinstance(v, int | float) or not math.isfinite(v):
             raise InputError(f"{where}: {key} must be a finite number (got {excerpt(v)})")
-        if abs(v) > money:
-            raise InputError(f"{where}: {key} must be a number from -{money:.0e} to {money:.0e} (got {excerpt(v)})")
+        if abs(v) > money or (least is not None and v < least):
+            lowest = f"-{money:.0e}" if least is None else f"{least:g}"
+            raise InputError(f"{where}: {key} must be a number from {lowest} to {money:.0e} (got {excerpt(v)})")
         numbers[key] = float(v)
     if not numbers["low"] <= numbers["likely"] <= numbers["high"]:
         raise InputError(f"{where}: a range needs low <= likely <= high (got low {numbers['low']:g}, likely "
@@ -86,34 +92,38 @@ def _read_range(value: dict, where: str, money: float) -> CostRange:
 
 def split_ranges(data: dict[str, Any], label: str, money: float = MAX_MONEY
                  ) -> tuple[dict[str, Any], dict[str, CostRange]]:
-    """The scenario's raw TOML data with every cost range replaced by its PERT mean, and the ranges
-    by dotted key. ``data`` is not changed. Ranges under ``[operations]``, or in ``[costs]`` when
-    there are ``[operations]``, are refused (:class:`InputError`, one line)."""
+    """The scenario's raw TOML data with every range (a cost's or a rules' price's) replaced by its
+    PERT mean, and the ranges by dotted key. ``data`` is not changed. Ranges in ``[[stress]]``
+    cases, or in ``[costs]`` when there are ``[operations]``, are refused (:class:`InputError`,
+    one line)."""
     ranges: dict[str, CostRange] = {}
+    written: dict[str, str] = {}  # dotted key -> where the file has it, for messages
 
-    def costs_table(table: Any, prefix: str, where: str) -> Any:
+    def means_of(table: Any, keys: tuple[str, ...], prefix: str, where: str, least: float | None) -> Any:
         if not isinstance(table, dict):
             return table  # the schema says what it wanted
         out = dict(table)
-        for key in COST_KEYS:
+        for key in keys:
             if isinstance(table.get(key), dict):
-                r = _read_range(table[key], f"{label} [{where}] {key}", money)
+                written[f"{prefix}{key}"] = f"{label} [{where}] {key}"
+                r = _read_range(table[key], written[f"{prefix}{key}"], money, least)
                 ranges[f"{prefix}{key}"] = r
                 out[key] = r.mean
         return out
 
-    def refuse_in_operations(table: Any, where: str) -> None:
-        if isinstance(table, dict):
-            for key in _OPERATIONS_PRICES:
-                if isinstance(table.get(key), dict):
-                    raise InputError(f"{label} [{where}] {key}: prices of the operating rules cannot be ranges "
-                                     "yet; give one number (for example the most likely value)")
+    def read(table: dict, prefix: str, where: str) -> dict:
+        """A table holding ``costs`` and ``operations`` (the scenario, or one site's)."""
+        out = dict(table)
+        if "costs" in table:
+            out["costs"] = means_of(table["costs"], COST_KEYS, f"{prefix}costs.", f"{where}costs", None)
+        if "operations" in table:
+            out["operations"] = means_of(table["operations"], PRICE_KEYS, f"{prefix}operations.",
+                                         f"{where}operations", 0.0)
+        return out
 
-    out = dict(data)
     if "ranges" in data:
         raise InputError(f"{label} top level: unknown key \"ranges\"; write a cost as a range in its own "
                          "place, for example miss = {low = 2000, likely = 2500, high = 4000} under [costs]")
-    refuse_in_operations(data.get("operations"), "operations")
     cases = data.get("stress") if isinstance(data.get("stress"), list) else []
     for i, case in enumerate(cases):
         for table in ("costs", "operations"):
@@ -122,30 +132,24 @@ def split_ranges(data: dict[str, Any], label: str, money: float = MAX_MONEY
             if ranged:
                 raise InputError(f"{label} [[stress]] table {i + 1} {table}.{ranged[0]}: a stress case takes one "
                                  "number, not a range; give the changed value")
-    if "costs" in data:
-        out["costs"] = costs_table(data["costs"], "costs.", "costs")
+    out = read(data, "", "")
     sites = data.get("sites")
     if isinstance(sites, dict):
-        out["sites"] = {}
-        for name, site in sites.items():
-            if isinstance(site, dict):
-                site = dict(site)
-                refuse_in_operations(site.get("operations"), f"sites.{quoted(str(name))}.operations")
-                if "costs" in site:
-                    site["costs"] = costs_table(site["costs"], f"sites.{name}.costs.",
-                                                f"sites.{quoted(str(name))}.costs")
-            out["sites"][name] = site
-    if ranges and "operations" in data:
-        first = next(iter(ranges))
-        raise InputError(f"{label} [{first.rsplit('.', 1)[0]}] {first.rsplit('.', 1)[1]}: with [operations] the "
-                         "rules price the seasons, so a cost range here would not be drawn; give one number")
+        out["sites"] = {name: read(site, f"sites.{name}.", f"sites.{quoted(str(name))}.")
+                        if isinstance(site, dict) else site for name, site in sites.items()}
+    costs = [key for key in ranges if key.rsplit(".", 2)[-2] == "costs"]
+    if costs and "operations" in data:
+        raise InputError(f"{written[costs[0]]}: with [operations] the rules price the seasons, so a cost "
+                         "range here would not be drawn; give one number")
     return out, ranges
 
 
 def site_ranges(ranges: dict[str, CostRange], site: str, overridden: set[str]) -> dict[str, CostRange]:
-    """The ranges as they apply to ``site``: the scenario's ``costs.*`` ranges less the costs the
-    site gives itself (``overridden``), plus the site's own ranges, keyed ``costs.<cost>``."""
-    prefix = f"sites.{site}.costs."
-    out = {k: r for k, r in ranges.items() if k.startswith("costs.") and k[len("costs."):] not in overridden}
-    out.update({"costs." + k[len(prefix):]: r for k, r in ranges.items() if k.startswith(prefix)})
+    """The ranges as they apply to ``site``: the scenario's ``costs.*`` and ``operations.*`` ranges
+    less the keys the site gives itself (``overridden``, dotted: ``costs.hit``,
+    ``operations.day_rate``), plus the site's own ranges, keyed as the scenario's
+    (``costs.<cost>``, ``operations.<price>``)."""
+    prefix = f"sites.{site}."
+    out = {k: r for k, r in ranges.items() if not k.startswith("sites.") and k not in overridden}
+    out.update({k[len(prefix):]: r for k, r in ranges.items() if k.startswith(prefix)})
     return out

@@ -61,8 +61,10 @@ class Scenario(_Section):
     ranges: dict[str, CostRange] = Field(default={}, exclude=True)
 
     def cost_ranges(self) -> dict[str, CostRange]:
-        """The costs written as ranges, by dotted key: ``costs.miss``, ``sites.<site>.costs.miss``
-        (a site's own scenario, :meth:`for_site`, has its ranges as ``costs.*``)."""
+        """The costs and the rules' prices written as ranges, by dotted key: ``costs.miss``,
+        ``sites.<site>.costs.miss``, ``operations.day_rate``, ``sites.<site>.operations.day_rate``
+        (a site's own scenario, :meth:`for_site`, has its ranges as ``costs.*`` and
+        ``operations.*``, its own overriding the scenario's)."""
         return dict(self.ranges)
 
     @property
@@ -140,8 +142,10 @@ class Scenario(_Section):
         override = self.sites.get(name)
         if override is None:
             return self
-        update: dict[str, Any] = {"sites": {}, "ranges": site_ranges(
-            self.ranges, name, set(override.costs.given()) if override.costs is not None else set())}
+        overridden = {f"costs.{key}" for key in (override.costs.given() if override.costs is not None else {})}
+        overridden |= {f"operations.{key}" for key in (override.operations.model_dump(exclude_unset=True)
+                                                       if override.operations is not None else {})}
+        update: dict[str, Any] = {"sites": {}, "ranges": site_ranges(self.ranges, name, overridden)}
         if override.costs is not None:
             update["costs"] = Costs(**{**self.costs.model_dump(), **override.costs.given()})
         if override.operations is not None:

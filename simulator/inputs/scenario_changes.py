@@ -9,7 +9,8 @@ rules for that site only. Both name keys of :class:`~simulator.inputs.scenario_c
 from __future__ import annotations
 
 import typing
-from typing import Annotated
+from collections.abc import Mapping
+from typing import Annotated, Any
 
 from pydantic import Field, create_model, model_validator
 
@@ -95,17 +96,23 @@ class StressCase(_Section):
                              "(operations_multipliers); keep one")
         return self
 
+    def changes_of(self, values: Mapping[str, Any]) -> dict[str, Any]:
+        """The keys of ``values`` (``[operations]`` keys) this case changes, with their new values:
+        a new value replaces, a multiplier multiplies (``standby_rate`` None is the day rate). A
+        value may be a float or an array of prices drawn per replicate season (the multiplier then
+        multiplies each replicate's draw)."""
+        out = {k: v for k, v in (self.operations.given() if self.operations else {}).items() if k in values}
+        for key, factor in (self.operations_multipliers.given() if self.operations_multipliers else {}).items():
+            current = values.get(key)
+            if current is None and key == "standby_rate":
+                current = values["day_rate"]
+            if current is not None:
+                out[key] = current * factor
+        return out
+
     def changed_operations(self, base: "OperationsSection") -> "OperationsSection":
         """``base`` with this case's new operating-rule prices and multipliers applied."""
-        values = {}
-        values.update(self.operations.given() if self.operations else {})
-        for key, factor in (self.operations_multipliers.given() if self.operations_multipliers else {}).items():
-            current = getattr(base, key)
-            if current is None and key == "standby_rate":
-                current = base.day_rate
-            if current is not None:
-                values[key] = current * factor
-        return base.model_copy(update=values)
+        return base.model_copy(update=self.changes_of(base.model_dump()))
 
     def changed_costs(self, base: Costs) -> Costs:
         """``base`` with this case's new values and multipliers applied."""

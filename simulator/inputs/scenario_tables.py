@@ -21,7 +21,7 @@ from .errors import quoted
 from .scenario_types import (MAX_PATH, MAX_SEASON_DAYS, WEEKDAYS, YEARS, Days, Holidays, Money, Name, Price,
                              WeekdayList, Work, _date_list, _Section, _weekdays)
 
-__all__ = ["HistorySection", "EventSection", "DecisionSection", "SeasonSection", "SimulationSection",
+__all__ = ["PRICE_KEYS", "HistorySection", "EventSection", "DecisionSection", "SeasonSection", "SimulationSection",
            "OperationsSection"]
 
 
@@ -190,6 +190,11 @@ class SimulationSection(_Section):
     window_days: Annotated[int, Field(ge=0, le=60)] = 10
     mode: Literal["replay", "calibrated"] = "replay"
     walk_forward: bool = False
+
+
+PRICE_KEYS = ("day_rate", "standby_rate", "spoilage_cost", "damages_per_day_late", "unfinished_cost")
+"""The money of the operating rules, as ``[operations]`` names it (each may be written as a range,
+:mod:`~simulator.inputs.ranges`); the other keys say how the crews work."""
 
 
 class OperationsSection(_Section):

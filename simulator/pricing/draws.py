@@ -1,11 +1,14 @@
-"""Costs drawn once per replicate season, for the costs known only as a range.
+"""Costs and the operating rules' prices drawn once per replicate season, for those known only
+as a range.
 
 Each range (:class:`~simulator.inputs.ranges.CostRange`) is drawn from its PERT distribution: a
 beta distribution on [low, high] (``scipy.stats.beta`` with the range's shapes, scaled; Malcolm et
 al. 1959). The draws of block ``b`` of a run come from ``SeedSequence(seed, spawn_key=(COST_STREAM,
-cost, b))``, a stream of their own for each of the four costs: they do not touch the streams of
-the bootstrap, the stress cases or the interval, so every strategy, cutoff and forecast is priced
-on the same replicate seasons with the same drawn costs (common random numbers), and a site
+index, b))``, a stream of their own for each of the four costs (index 0 to 3, in
+:data:`~simulator.inputs.scenario_costs.COST_KEYS` order) and each of the rules' prices (index 4
+to 8, in :data:`~simulator.inputs.scenario_tables.PRICE_KEYS` order): they do not touch the streams
+of the bootstrap, the stress cases or the interval, so every strategy, cutoff and forecast is
+priced on the same replicate seasons with the same drawn costs (common random numbers), and a site
 whose range is the scenario's draws the same figures as every other such site (one figure, in
 doubt). A range with low = high draws nothing: the cost is fixed, and the run is the fixed run
 byte for byte.
@@ -21,11 +24,13 @@ from scipy import stats
 
 from ..inputs.ranges import CostRange
 from ..inputs.scenario_costs import COST_KEYS, Costs
+from ..inputs.scenario_tables import PRICE_KEYS
 from ..replay.resample import BLOCK, block_rng
 
-__all__ = ["COST_STREAM", "pert", "DrawnCosts", "CostDrawer"]
+__all__ = ["COST_STREAM", "PRICE_INDEX", "pert", "DrawnCosts", "CostDrawer"]
 
 COST_STREAM = 46  # seed stream of the cost draws (other streams: resample.py, run.py, stress.py, selection.py)
+PRICE_INDEX = {name: len(COST_KEYS) + i for i, name in enumerate(PRICE_KEYS)}  # the prices' streams: 4 to 8
 
 
 def pert(cost_range: CostRange):
@@ -46,13 +51,14 @@ class DrawnCosts:
 
 
 class CostDrawer:
-    """Draws the costs given as ranges, block by block of replicates.
+    """Draws the costs and the rules' prices given as ranges, block by block of replicates.
 
     Parameters
     ----------
     costs : the fixed costs (a range's place holds its PERT mean).
     ranges : dotted key -> range, as :meth:`Scenario.cost_ranges` of the scenario (or the site's
-        scenario) gives them; only ``costs.<cost>`` keys are drawn here.
+        scenario) gives them; only ``costs.<cost>`` and ``operations.<price>`` keys are drawn here
+        (a site's own scenario has its ranges under these keys).
     seed : the run's seed.
     """
 
@@ -60,11 +66,25 @@ class CostDrawer:
         self.costs, self.seed = costs, int(seed)
         self._drawn = {name: pert(r) for name in COST_KEYS
                        if (r := ranges.get(f"costs.{name}")) is not None and r.width > 0}
+        self._prices = {name: pert(r) for name in PRICE_KEYS
+                        if (r := ranges.get(f"operations.{name}")) is not None and r.width > 0}
 
     @property
     def draws(self) -> bool:
         """Whether any cost is drawn (else :meth:`__call__` gives the fixed costs)."""
         return bool(self._drawn)
+
+    @property
+    def draws_prices(self) -> bool:
+        """Whether any of the rules' prices is drawn (else :meth:`prices` gives none)."""
+        return bool(self._prices)
+
+    def prices(self, block: int, n_rep: int) -> dict[str, np.ndarray]:
+        """The rules' prices drawn for the first ``n_rep`` replicates of block ``block``, each
+        (n_rep, 1) float64, by name (:data:`PRICE_KEYS`); the prices not drawn are not listed."""
+        return {name: dist.rvs(size=BLOCK, random_state=block_rng(self.seed, block, COST_STREAM,
+                                                                  PRICE_INDEX[name]))[:n_rep, None]
+                for name, dist in self._prices.items()}
 
     def __call__(self, block: int, n_rep: int) -> Costs | DrawnCosts:
         """The costs of the first ``n_rep`` replicates of block ``block`` (a replicate's draw

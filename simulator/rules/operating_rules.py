@@ -59,7 +59,7 @@ from ..notation import decimals
 from ..inputs.errors import InputError
 from ..inputs.history import History
 from ..inputs.scenario import Scenario
-from ..inputs.scenario_tables import OperationsSection
+from ..inputs.scenario_tables import PRICE_KEYS, OperationsSection
 from ..inputs.scenario_types import WEEKDAYS
 
 __all__ = ["COMPONENTS", "COUNTS", "OFF", "REGULAR", "OVERTIME", "WORK_UNIT", "PRICE_KEYS", "RulePrices", "Rules",
@@ -97,10 +97,9 @@ safety_stop_days       working days the safety stop kept the crews in when the d
 """
 
 
-PRICE_KEYS = ("day_rate", "standby_rate", "spoilage_cost", "damages_per_day_late", "unfinished_cost")
-"""The money of the rules, as ``[operations]`` names it: what a played season's day counts are
-priced at. How the crews work (who goes out, overtime, retention) never depends on these, so a
-played season can be priced again at other prices without playing it again."""
+# PRICE_KEYS (said once, in inputs/scenario_tables.py): the money of the rules, what a played
+# season's day counts are priced at. How the crews work (who goes out, overtime, retention) never
+# depends on these, so a played season can be priced again at other prices without playing it again.
 
 
 @dataclass(frozen=True)

@@ -26,6 +26,7 @@ from ..inputs.scenario import Scenario
 from ..inputs.scenario_types import BASELINES
 from ..replay.resample import Calendar
 from .operating_rules import COMPONENTS, COUNTS, WORK_UNIT, RulePrices, Rules, make_rules, safety_stops
+from .price_draws import PriceDraws
 
 __all__ = ["price_outcome", "season_total", "played_outcome", "reprice", "days_late", "RulesPricer"]
 
@@ -112,9 +113,14 @@ class RulesPricer:
     Lanes: a replicate season is played once per lane, the ``n_cutoffs`` cutoffs first, then the
     baselines in :data:`~simulator.inputs.scenario_types.BASELINES` order. Extras of the priced blocks are
     (n_rep, n_lanes).
+
+    ``prices``: the rules' prices drawn per replicate season where ``[operations]`` gives ranges
+    (:class:`~simulator.rules.price_draws.PriceDraws`); a block is then priced at its replicates'
+    prices (:meth:`prices_of`, which needs the block's number), else at the rules' own.
     """
 
-    def __init__(self, history: History, calendar: Calendar, cutoffs: np.ndarray, scenario: Scenario):
+    def __init__(self, history: History, calendar: Calendar, cutoffs: np.ndarray, scenario: Scenario,
+                 prices: PriceDraws | None = None):
         section = scenario.operations
         if section is None:
             raise ValueError("scenario has no [operations] section")
@@ -132,6 +138,21 @@ class RulesPricer:
         self._out_on_acting = section.crews_out_on == "acting"
         self._spoiled = history.event.copy() if section.spoiled_on == "event" else ~history.event
         self._stopped = safety_stops(history, scenario)
+        self._prices = prices if prices is not None and prices.draws else None
+
+    @property
+    def draws_prices(self) -> bool:
+        """Whether some of the rules' prices are drawn per replicate season."""
+        return self._prices is not None
+
+    def prices_of(self, block: int | None, n_rep: int) -> RulePrices | None:
+        """The prices of the first ``n_rep`` replicates of block ``block``: None (the rules' own)
+        when none is drawn."""
+        if self._prices is None:
+            return None
+        if block is None:
+            raise ValueError("prices drawn per replicate need the block's number")
+        return self._prices(block, n_rep)
 
     def occasion_inputs(self, rows: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
         """Slots (n_rep, n_occ), baseline actions (n_rep, n_occ, 5), spoiled and stopped (n_rep, n_occ)."""

@@ -22,6 +22,7 @@ from ..inputs.history import History
 from ..inputs.scenario import Scenario
 from ..replay.resample import Calendar
 from .operating_rules import COUNTS, OFF, OVERTIME, WORK_UNIT, Rules
+from .price_draws import PriceDraws
 from .season_cost import RulesPricer, days_late, price_outcome
 
 __all__ = ["SHIFT_DAYS", "UserProcess", "Site", "DayReport", "work_the_season", "crew_shift",
@@ -209,8 +210,8 @@ class SimpyPricer(RulesPricer):
     """
 
     def __init__(self, history: History, calendar: Calendar, cutoffs: np.ndarray, scenario: Scenario,
-                 processes: Sequence[UserProcess] = ()):
-        super().__init__(history, calendar, cutoffs, scenario)
+                 processes: Sequence[UserProcess] = (), prices: PriceDraws | None = None):
+        super().__init__(history, calendar, cutoffs, scenario, prices)
         self.processes = tuple(processes)
 
     def play_pairs(self, rows: np.ndarray, pairs: Iterable[tuple[int, int]]) -> list[dict]:
@@ -220,12 +221,12 @@ class SimpyPricer(RulesPricer):
         return [play_season(self.rules, wishes[r, lane], spoiled[r], stopped[r], self.processes)
                 for r, lane in pairs]
 
-    def __call__(self, rows: np.ndarray) -> PricedBlock:
+    def __call__(self, rows: np.ndarray, block: int | None = None) -> PricedBlock:
         n_rep = rows.shape[0]
         pairs = [(r, lane) for r in range(n_rep) for lane in range(self.n_lanes)]
         played = self.play_pairs(rows, pairs)
         keys = (*COUNTS, "completion_index", "closed_days", "done_units", "left_units", "other_cost")
         outcome = {key: np.array([season[key] for season in played]).reshape(n_rep, self.n_lanes)
                    for key in keys}
-        return self.priced_block(rows, outcome)
+        return self.priced_block(rows, outcome, self.prices_of(block, n_rep))
 

@@ -22,6 +22,7 @@ import numpy as np
 from ..pricing.costs import PricedBlock
 from ..inputs.history import History
 from .operating_rules import COUNTS, OFF, REGULAR, WORK_UNIT, Rules
+from .price_draws import PriceDraws
 from .season_cost import RulesPricer
 from .simpy_model import SimpyPricer, UserProcess
 from ..replay.resample import Calendar
@@ -113,17 +114,19 @@ class OperationsPricer(RulesPricer):
     cutoff, ``baselines`` those of the five baselines played under the same rules on the same
     replicates, and ``extras`` the cost components and day counts of every lane,
     (n_rep, n_cutoffs + n_baselines). With user-written ``processes`` every season is played by the
-    simpy model instead (slow: milliseconds a season).
+    simpy model instead (slow: milliseconds a season). ``prices``: the rules' prices drawn per
+    replicate (:class:`~simulator.rules.season_cost.RulesPricer`); the block's number ``block``
+    is then needed.
     """
 
     def __init__(self, history: History, calendar: Calendar, cutoffs: np.ndarray, scenario: Scenario,
-                 processes: Sequence[UserProcess] = ()):
-        super().__init__(history, calendar, cutoffs, scenario)
-        self._simpy = SimpyPricer(history, calendar, cutoffs, scenario, processes) if processes else None
+                 processes: Sequence[UserProcess] = (), prices: PriceDraws | None = None):
+        super().__init__(history, calendar, cutoffs, scenario, prices)
+        self._simpy = SimpyPricer(history, calendar, cutoffs, scenario, processes, prices) if processes else None
 
-    def __call__(self, rows: np.ndarray) -> PricedBlock:
+    def __call__(self, rows: np.ndarray, block: int | None = None) -> PricedBlock:
         if self._simpy is not None:
-            return self._simpy(rows)
+            return self._simpy(rows, block)
         slots, base, spoiled, stopped = self.occasion_inputs(rows)
         n_cut = self.n_cutoffs
         below = np.arange(n_cut)
@@ -139,4 +142,4 @@ class OperationsPricer(RulesPricer):
             return wish
 
         outcome = play_seasons(self.rules, wish_at, spoiled, stopped, self.n_lanes)
-        return self.priced_block(rows, outcome)
+        return self.priced_block(rows, outcome, self.prices_of(block, rows.shape[0]))

@@ -62,8 +62,7 @@ def _price_task(work: _Work, first_site: int, last_site: int, chunk: int | None)
         priced = []
         for i, b in enumerate(blocks):
             own = work.resampler.site_rows(drawn(b) if rows is None else rows[i], k)
-            # the block's number seeds its drawn outcomes and costs; the operating rules draw none
-            block = pricer(own) if work.scenarios[k].operations is not None else pricer(own, b)
+            block = pricer(own, b)  # the block's number seeds its drawn outcomes, costs and prices
             if others:  # every later forecast on the same rows: common random numbers
                 block = dataclasses.replace(block, extras={
                     **block.extras, **{f"{_FORECAST_KEY}{j}": _later_forecast(other, own, b)
@@ -89,11 +88,11 @@ def _price_task(work: _Work, first_site: int, last_site: int, chunk: int | None)
 
 def _later_forecast(pricer, rows: np.ndarray, block: int) -> np.ndarray:
     """A later forecast's season costs at every cutoff on the rows (of seeded block ``block``) the
-    main forecast was priced on, with the same drawn costs: the baselines' costs are the main's
-    (they do not depend on the forecast)."""
+    main forecast was priced on, with the same drawn costs or prices: the baselines' costs are the
+    main's (they do not depend on the forecast)."""
     if isinstance(pricer, SeasonPricer):
         return pricer.model_cost(rows, block)
-    return pricer(rows).model  # the operating rules: every lane played again
+    return pricer(rows, block).model  # the operating rules: every lane played again
 
 
 @contextmanager

@@ -21,6 +21,7 @@ from ..pricing.contingency import cutoff_slots
 from ..pricing.costs import PricedBlock, SeasonPricer
 from ..pricing.draws import CostDrawer
 from ..replay.resample import Resampler, n_blocks
+from ..rules.price_draws import PriceDraws
 from ..rules.vectorised_model import OperationsPricer
 
 Progress = Callable[[str, int, int], None]
@@ -70,13 +71,13 @@ def _pricer(work: _Work, k: int, forecast: int = 0):
     if pricer is None:
         history = work.resampler.history.for_site(k).with_forecast(forecast)
         scenario = work.scenarios[k]
-        drawer = CostDrawer(scenario.costs, scenario.cost_ranges(), work.seed)  # costs given as ranges
+        drawer = CostDrawer(scenario.costs, scenario.cost_ranges(), work.seed)  # costs/prices given as ranges
         if work.outcome_probability is not None:  # outcomes drawn afresh from recalibrated probabilities
             pricer = ReplicatePricer(history, work.cutoffs, scenario.costs, seed=work.seed,
                                      outcome_probability=work.outcome_probability, drawer=drawer)
         elif scenario.operations is not None:  # the rules played day by day
             pricer = OperationsPricer(history, work.resampler.calendar, work.cutoffs, scenario,
-                                      work.processes)
+                                      work.processes, PriceDraws(scenario.operations, drawer))
         else:
             pricer = SeasonPricer(history, work.cutoffs, scenario.costs, drawer,
                                   keep_counts=work.keep_counts and forecast == 0)
