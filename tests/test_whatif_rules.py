@@ -42,8 +42,14 @@ TYPED = {"day_rate": 950.0, "standby_rate": 300.0, "spoilage_cost": 650.0, "dama
          "unfinished_cost": 4000.0}
 
 
+FIXED_DAY_RATE = {"day_rate = {low = 720, likely = 790, high = 920}": "day_rate = 800"}
+"""The demo gives the day rate as a range; these tests fix it at its PERT mean, (720 + 4 x 790 +
+920) / 6 = 800, so a run's figures are exactly the page's at the scenario's prices."""
+
+
 def _scenario_text(**replace: str) -> str:
     text = RULES.read_text(encoding="utf-8")
+    replace = {**FIXED_DAY_RATE, **replace}
     for old, new in replace.items():
         assert old in text, old
         text = text.replace(old, new)
@@ -121,6 +127,16 @@ def test_at_the_scenarios_prices_the_page_shows_the_runs_own_figures(runs):
     assert shown["best"] == base.decision.recommended_index
     assert shown["mean"] == pytest.approx(base.strategies["model"].mean, rel=1e-12)
     assert shown["reference_mean"] == pytest.approx(base.baseline_cost[base.reference].mean(), rel=1e-12)
+
+
+def test_a_price_given_as_a_range_starts_at_its_pert_mean_with_a_note(tmp_path):
+    """The rules demo as shipped: its day rate is a range, drawn per season by the run; the field
+    starts at the PERT mean (Malcolm et al. 1959: (low + 4 likely + high) / 6) and the page says
+    the run's figures drew it."""
+    ranged = run(read_scenario(RULES), HISTORY, replicates=REPLICATES)
+    assert whatif_data(ranged)["prices"]["day_rate"] == 800.0
+    context = whatif_context(ranged, "send the crews out", "dry day", "day", 2)
+    assert "PERT mean" in context["ranges_note"]
 
 
 def test_without_a_standby_rate_standby_follows_the_day_rate_typed(tmp_path):
