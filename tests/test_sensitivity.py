@@ -77,10 +77,12 @@ def test_run_keeps_every_replicates_counts_which_price_to_its_season_costs(case,
         assert np.array_equal(baselines[:, i], result.baseline_cost[name])
 
 
-def test_operating_rules_keep_no_counts_and_say_why_there_is_no_sensitivity():
+def test_operating_rules_keep_no_counts_and_move_the_rules_prices_instead():
+    # under [operations] the [costs] matrix prices no season: tests/test_rules_sensitivity.py
     result = run_history(*_rules(), replicates=40)
     assert result.replicate_counts is None
-    assert result.sensitivity.costs == () and "[operations]" in result.sensitivity.note
+    assert result.sensitivity.moved == "operations" and result.sensitivity.note is None
+    assert all(c.key.startswith("operations.") for c in result.sensitivity.costs)
 
 
 def _rules():
