@@ -13,6 +13,8 @@ import pytest
 from rich.console import Console
 
 from simulator import read_scenario, run
+from simulator.account.whatif_rules import page_figures, rules_whatif_data
+from simulator.notation.prose import money
 from simulator.account.terminal import _headline
 from simulator.demo.generator import write_demo_files
 
@@ -41,11 +43,24 @@ def test_readme_shows_the_demo_headline_as_the_demo_prints_it(demo_run, tmp_path
     assert shown[: len(table)] == table
 
 
-@pytest.mark.parametrize("scenario, quoted", [("line_marking_rules.toml", "0.38")])
-def test_readme_quotes_the_operating_rules_cutoff(scenario, quoted):
+@pytest.fixture(scope="module")
+def rules_run():
+    return run(read_scenario(ROOT / "scenarios" / "line_marking_rules.toml"))
+
+
+def test_readme_quotes_the_operating_rules_cutoff(rules_run):
+    quoted = "0.38"
     assert re.search(rf"falls from 0\.80 to about \*\*{re.escape(quoted)}\*\*", README)
-    result = run(read_scenario(ROOT / "scenarios" / scenario))
-    assert f"{result.decision.recommended_cutoff:.2f}" == quoted
+    assert f"{rules_run.decision.recommended_cutoff:.2f}" == quoted
+
+
+def test_readme_quotes_the_rules_what_if_as_the_page_computes_it(rules_run):
+    base = page_figures(rules_whatif_data(rules_run))
+    dearer = page_figures(rules_whatif_data(rules_run), {"day_rate": 950.0})
+    quoted = (f"a day rate of 950 EUR instead of 800 moves the recommended cutoff from {base['cutoff']:.2f} to "
+              f"{dearer['cutoff']:.2f} and its expected season cost from {money(base['mean'], '')} to "
+              f"{money(dearer['mean'], 'EUR')}")
+    assert quoted in " ".join(README.split())
 
 
 def test_readme_python_example_runs(monkeypatch):

@@ -93,13 +93,17 @@ def test_counts_kept_by_the_run_hold_every_replicate_and_baseline(runs):
     assert (total == base.calendar.n_occasions).all()
 
 
-def test_a_run_under_operating_rules_says_why_the_fields_are_off(tmp_path):
+def test_rules_report_embeds_its_prices_and_sample_and_stays_under_2_mb(tmp_path):
     result = CliRunner().invoke(app, ["run", "scenarios/line_marking_rules.toml", "--out", str(tmp_path / "r"),
-                                      "--replicates", "100", "--quiet"])
+                                      "--replicates", "1000", "--quiet"])
     assert result.exit_code == 0, result.output
-    html = (tmp_path / "r" / "report.html").read_text()
-    assert 'id="whatif-reason"' in html and "operating rules" in html
-    assert html.count("disabled>") == 4 and 'id="whatif-data"' not in html
+    page = (tmp_path / "r" / "report.html").read_bytes()
+    assert len(page) < 2_000_000, len(page)  # 2 MB (issue 14); the rules' sample adds about 0.8 MB of it
+    found = re.search(rb'<script type="application/json" id="whatif-data">(.*?)</script>', page, re.S)
+    data = json.loads(found.group(1))
+    assert data["kind"] == "rules" and data["sample"]["n"] == 1000
+    assert data["keys"] == ["day_rate", "standby_rate", "spoilage_cost", "damages_per_day_late", "unfinished_cost"]
+    assert b'id="whatif-reason"' not in page and page.count(b"disabled>") == 0
 
 
 def test_demo_page_embeds_its_sample_and_stays_under_2_mb(tmp_path):

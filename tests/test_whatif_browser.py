@@ -13,10 +13,8 @@ Nonparametric Statistics, section 3.2, from memory), and a sample share within 4
 
 from __future__ import annotations
 
-import math
 from pathlib import Path
 
-import numpy as np
 import pytest
 from typer.testing import CliRunner
 
@@ -26,9 +24,10 @@ from simulator.account.whatif import SAMPLE
 from simulator.cli import app
 from simulator.inputs.history import history_from_frame
 from simulator.inputs.scenario import scenario_from_text
-from simulator.pricing.decision import OBJECTIVE_COLUMN, cheaper, lowest, objective_cost
+from simulator.pricing.decision import OBJECTIVE_COLUMN, lowest, objective_cost
 from simulator.run import run_history
 from test_browser import _open, page  # noqa: F401  (the browser fixture)
+from test_whatif_rules import check_against_run
 
 REPLICATES, SEED = 2000, 5
 TYPED = {"hit": 500, "false_alarm": 1200, "miss": 4000, "correct_negative": 100}
@@ -87,24 +86,9 @@ def test_typed_costs_give_the_figures_of_a_run_with_those_costs(tmp_path, page):
     _type(page, TYPED)
     shown = _read(page)
     assert shown["error"] == ""
-    best = other.decision.recommended_index
-    # exact: the expected costs and the cheapest cutoff by expected cost
-    assert shown["cutoff"] == pytest.approx(other.decision.recommended_cutoff, abs=1e-12)
-    assert shown["mean"] == pytest.approx(other.table["mean_cost"][best], rel=1e-12)
-    reference = other.baseline_cost["always_act"]
-    assert shown["saving"] == pytest.approx(reference.mean() - other.model_cost[:, best].mean(), rel=1e-9)
-    # the sample: exactly the first 1,000 seasons of the run with these costs
-    n = SAMPLE
-    at, ref = other.model_cost[:n, best], reference[:n]
-    assert shown["p05"] == pytest.approx(np.quantile(at, 0.05), rel=1e-12)
-    assert shown["p95"] == pytest.approx(np.quantile(at, 0.95), rel=1e-12)
-    assert shown["prob"] == pytest.approx(cheaper(at, ref).mean(), abs=1e-12)
-    # and within the sample's error of all the run's seasons
-    everything = other.model_cost[:, best]
-    spread = 4 * math.sqrt(0.95 * 0.05 / n)
-    assert np.quantile(everything, 0.95 - spread) <= shown["p95"] <= np.quantile(everything, 0.95 + spread)
-    full = float(cheaper(everything, reference).mean())
-    assert abs(shown["prob"] - full) <= 4 * math.sqrt(max(full * (1 - full), 1e-4) / n)
+    # exact: the expected costs and the cheapest cutoff by expected cost; the sample: exactly the
+    # first 1,000 seasons of the run with these costs, and within its error of all the run's seasons
+    check_against_run(shown, other, SAMPLE)
 
     # a typing slip: a plain message, the figures left as they were
     _type(page, {"miss": "4,000x"})

@@ -32,6 +32,25 @@ def costs(rng) -> list[np.ndarray]:
             weather + rng.normal(250, 400, 400)]
 
 
+def test_under_a_risk_objective_the_forecast_with_the_lowest_bad_season_cost_wins():
+    """A forecast that is cheaper on average but with a fatter tail loses when the cutoffs were
+    chosen by the 95th percentile or the worst 10% (expected shortfall; Rockafellar and Uryasev
+    2000); numpy's quantile and a sort give the reference scores."""
+    rng = np.random.default_rng(7)
+    steady = 10_000 + rng.normal(0, 200, 1000)
+    cheap_but_wild = 9_800 + np.where(rng.random(1000) < 0.1, 3_000.0, 0.0) - 300  # mean 9,800, bad tail
+    names, cutoffs = ["steady", "wild"], [0.3, 0.4]
+    assert contest(names, cutoffs, [steady, cheap_but_wild]).winner == "wild"
+    assert np.quantile(cheap_but_wild, 0.95) > np.quantile(steady, 0.95)
+    for objective in ("p95", "shortfall10"):
+        c = contest(names, cutoffs, [steady, cheap_but_wild], objective)
+        assert (c.winner, c.runner_up, c.objective) == ("steady", "wild", objective)
+        np.testing.assert_array_equal(c.saving, cheap_but_wild - steady)
+        assert "has the lowest" in c.sentence("EUR")
+    worst = np.sort(cheap_but_wild)[-100:].mean()  # the worst 10% of 1,000 seasons, independently
+    assert worst > np.sort(steady)[-100:].mean()
+
+
 def test_the_cheapest_on_average_wins_and_its_saving_is_paired_against_the_runner_up(costs):
     c = contest(["a", "b", "c"], [0.3, 0.4, 0.5], costs)
     assert (c.winner, c.runner_up) == ("b", "c")

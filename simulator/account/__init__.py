@@ -8,7 +8,8 @@ into the bytes of every file (``file_names`` lists them), which ``result_set`` w
 ``scenario_words`` reads the scenario back in words, ``report_page`` holds the page machinery
 (templates, escaping, embedded figures). The figures share ``figure_style`` and are drawn by theme:
 ``cost_figures``, ``quality_figures``, ``stress_figures``, ``operations_figures``.
-``datapackage`` describes the CSV files; ``cautions`` holds the safety texts; ``terminal`` makes the
+``whatif`` (fixed costs) and ``whatif_rules`` (the operating rules' prices) make the data of the
+report's meeting what-if, written compactly by ``page_codec``; ``datapackage`` describes the CSV files; ``cautions`` holds the safety texts; ``terminal`` makes the
 headline and tables that ``cli`` prints.
 
 May import: ``results`` (run's results) and everything below it; nothing below imports this.

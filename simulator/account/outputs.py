@@ -232,7 +232,7 @@ def _stress_frame(result: RunResult) -> pd.DataFrame:
         d = result.decision
         savings = result.baseline_cost[result.reference] - result.model_cost[:, d.recommended_index]
         return _stress_rows(result.strategies, d, savings, result.stress,
-                            None if result.comparison is None else result.comparison.contest())
+                            None if result.comparison is None else result.comparison.contest(result.decision.objective))
     frames = [_stress_rows(site.strategies, site.decision, site.baseline_cost[site.reference] - site.model_cost,
                            site.stress, site.contest).assign(site=site.name)
               for site in result.portfolio.sites if site.stress is not None]

@@ -20,13 +20,16 @@ The model's sample holds, per cutoff, the hits and false alarms of each sampled 
 season its events and occasions (misses = events - hits, correct negatives = occasions - events
 - false alarms); the reference rule's sample holds its four counts per season.
 
+Under ``[operations]`` the fields are the rules' prices instead, and
+:mod:`~simulator.account.whatif_rules` makes the data (``kind = "rules"``; this module's is
+``kind = "costs"``); the page's script holds one model of each kind behind the same figures.
+
 Nothing here is text from the scenario: names reach the page escaped by the template, and this
 data reaches it as JSON in a ``<script type="application/json">`` element (``report_page.script_json``).
 """
 
 from __future__ import annotations
 
-import base64
 from functools import partial
 
 import numpy as np
@@ -34,7 +37,9 @@ import numpy as np
 from ..inputs.scenario_types import BASELINES, MAX_MONEY
 from ..pricing.decision import OBJECTIVE_NAMES, SAME_MONEY, SHORTFALL_SHARE
 from .findings import strategy_label
+from .page_codec import encode_uint, typed_number
 from .report_page import script_json
+from .whatif_rules import rules_fields, rules_whatif_data
 
 __all__ = ["SAMPLE", "COST_KEYS", "whatif_data", "whatif_context", "unavailable"]
 
@@ -50,19 +55,13 @@ def unavailable(result) -> str | None:
         return ("Each site has its own costs here: run one site's history alone to try other costs "
                 "in its report.")
     if result.operations is not None:
-        return ("Under the operating rules a season is played day by day and priced by the rules, not by "
-                "four costs per day: change the rules' prices in the scenario and run it again.")
+        return None  # the rules' prices instead of the four costs (whatif_rules)
     if result.scenario.simulation.mode == "calibrated":
         return ("In the calibrated mode outcomes are drawn afresh for each season: change the costs in the "
                 "scenario and run it again.")
     if result.replicate_counts is None:
         return "This run did not keep its seasons' counts: change the costs in the scenario and run it again."
     return None
-
-
-def _encode(values: np.ndarray, width: int) -> str:
-    """Whole counts as base64 of unsigned integers of ``width`` bytes, little-endian, row-major."""
-    return base64.b64encode(np.ascontiguousarray(values, dtype=f"<u{width}").tobytes()).decode("ascii")
 
 
 def whatif_data(result) -> dict:
@@ -81,6 +80,8 @@ def whatif_data(result) -> dict:
     reason = unavailable(result)
     if reason is not None:
         return {"reason": reason}
+    if result.operations is not None:
+        return rules_whatif_data(result)
     counts = result.replicate_counts
     model, baselines, ref_index = counts.model, counts.baselines, BASELINES.index(result.reference)
     n = min(SAMPLE, result.replicates)
@@ -94,11 +95,12 @@ def whatif_data(result) -> dict:
         return {"reason": "The seasons are too long for the page's sample: change the costs in the scenario "
                           "and run it again."}
     width = 1 if longest <= 255 else 2  # a season of up to 255 occasions: one byte a count
-    encode = partial(_encode, width=width)
+    encode = partial(encode_uint, width=width)
     scenario_costs = result.scenario.costs
     return {
+        "kind": "costs", "keys": list(COST_KEYS),
         "costs": {key: float(getattr(scenario_costs, key)) for key in COST_KEYS},
-        "max_money": MAX_MONEY, "objective": result.decision.objective, "shortfall_share": SHORTFALL_SHARE,
+        "min_money": -MAX_MONEY, "max_money": MAX_MONEY, "objective": result.decision.objective, "shortfall_share": SHORTFALL_SHARE,
         "same_money": SAME_MONEY, "cutoffs": [float(c) for c in result.cutoffs],
         "replicates": int(result.replicates),
         "mean": {key: [float(v) for v in np.asarray(getattr(model, key), dtype=np.float64).mean(axis=0)]
@@ -112,34 +114,55 @@ def whatif_data(result) -> dict:
 
 
 
-def _typed(value: float) -> str:
-    """A cost as the reader would type it: ``2400``, ``-150.5``."""
-    return str(int(value)) if float(value).is_integer() else repr(float(value))
-
-
 def whatif_context(result, action: str, event: str, occasion: str, decimals: int) -> dict:
-    """What the report's template (``whatif.html.j2``) shows of the what-if: the four fields with
-    the scenario's costs, the reason it is off (or None), and its data as script-safe JSON."""
+    """What the report's template (``whatif.html.j2``) shows of the what-if: the fields (the four
+    costs, or under ``[operations]`` the rules' prices) with the scenario's values, the reason it is
+    off (or None), its notes, and its data as script-safe JSON."""
     data = whatif_data(result)
-    costs = result.scenario.costs
-    do = action[:1].upper() + action[1:]
-    what = {"hit": f"{do}, and \u201c{event}\u201d happened", "false_alarm": f"{do}, and it did not happen",
-            "miss": f"Did not {action}, and \u201c{event}\u201d happened",
-            "correct_negative": f"Did not {action}, and it did not happen"}
-    labels = {"hit": "Hit", "false_alarm": "False alarm", "miss": "Miss", "correct_negative": "Correct negative"}
+    rules = result.operations is not None and "reason" not in data
     reference = result.reference
+    if rules:
+        fields = rules_fields(result)
+        section = result.scenario.operations
+        shown = {key for key, *_ in fields}
+        ranged = [key for key in result.scenario.cost_ranges() if key.startswith("operations.")]
+        # the months of the calendar-month rule come from [costs], which the rules' prices leave as they are
+        reference_note = ("The calendar-month rule acts in the months the scenario's [costs] choose; the "
+                          "prices typed do not move them." if reference == "seasonal_rate" else "")
+        standby_note = ("The scenario gives no standby rate, so standby days are paid the day rate typed."
+                        if section.standby_rate is None else "")
+        left_out = [name for key, name in (("damages_per_day_late", "damages for days late (no deadline)"),
+                                           ("unfinished_cost", "unfinished work (no amount of work)"))
+                    if key not in shown]
+        unused_note = ("Not priced in this scenario, so no field: " + " and ".join(left_out) + "."
+                       if left_out else "")
+        ranges_note = ("Prices given as ranges start here at their PERT mean, fixed; the run above drew "
+                       "them season by season, so its figures differ a little from these." if any(
+                           result.scenario.cost_ranges()[key].high > result.scenario.cost_ranges()[key].low
+                           for key in ranged) else "")
+    else:
+        costs = result.scenario.costs
+        do = action[:1].upper() + action[1:]
+        what = {"hit": f"{do}, and \u201c{event}\u201d happened", "false_alarm": f"{do}, and it did not happen",
+                "miss": f"Did not {action}, and \u201c{event}\u201d happened",
+                "correct_negative": f"Did not {action}, and it did not happen"}
+        labels = {"hit": "Hit", "false_alarm": "False alarm", "miss": "Miss", "correct_negative": "Correct negative"}
+        fields = [(key, labels[key], what[key], typed_number(getattr(costs, key))) for key in COST_KEYS]
+        reference_note = ("The calendar-month rule keeps the months it acts in at the scenario's costs "
+                          "(their break-even probability)." if reference == "seasonal_rate" else "")
+        standby_note = unused_note = ""
+        # costs given as ranges are typed in at their PERT mean; the run above drew them per season
+        ranges_note = ("Costs given as ranges start here at their PERT mean, fixed; the run above drew "
+                       "them season by season, so its figures differ a little from these."
+                       if any(r.high > r.low for r in result.scenario.cost_ranges().values()) else "")
     return {
-        "reason": data.get("reason"),
-        "fields": [(key, labels[key], what[key], _typed(getattr(costs, key))) for key in COST_KEYS],
+        "reason": data.get("reason"), "rules": rules, "fields": fields,
         "objective": result.decision.objective, "objective_what": OBJECTIVE_NAMES[result.decision.objective],
         "reference_label": strategy_label(reference, action, event, occasion),
-        "reference_note": ("The calendar-month rule keeps the months it acts in at the scenario's costs "
-                           "(their break-even probability)." if reference == "seasonal_rate" else ""),
-        # costs given as ranges are typed in at their PERT mean; the run above drew them per season
-        "ranges_note": ("Costs given as ranges start here at their PERT mean, fixed; the run above drew "
-                        "them season by season, so its figures differ a little from these."
-                        if any(r.high > r.low for r in result.scenario.cost_ranges().values()) else ""),
+        "reference_note": reference_note, "ranges_note": ranges_note, "standby_note": standby_note,
+        "unused_note": unused_note,
         "n_sample": (data.get("sample") or {}).get("n", 0),
-        "auto_block": result.scenario.simulation.block_days == "auto",
+        # the automatic run length is chosen on the [costs], so other rules' prices keep it
+        "auto_block": result.scenario.simulation.block_days == "auto" and not rules,
         "json": script_json({**data, "currency": result.scenario.currency, "decimals": decimals}),
     }

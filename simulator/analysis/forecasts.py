@@ -167,11 +167,12 @@ class Comparison:
                 return p
         raise KeyError((a, b))
 
-    def contest(self) -> Contest:
+    def contest(self, objective: str = "mean") -> Contest:
         """The forecasts on the run's replicate seasons, each at its own recommended cutoff, and
-        which one wins (:mod:`simulator.analysis.winners`): the base case of the stress table."""
+        which one wins by ``objective`` (:mod:`simulator.analysis.winners`): the base case of the
+        stress table."""
         return contest([f.name for f in self.forecasts], [f.decision.recommended_cutoff for f in self.forecasts],
-                       [f.cost for f in self.forecasts])
+                       [f.cost for f in self.forecasts], objective)
 
     def summary(self, currency: str, prices: Mapping[str, float] | None = None) -> dict:
         """The ``forecasts`` and ``forecast_pairs`` blocks of ``summary.json``; ``prices`` are the

@@ -267,7 +267,8 @@ def _run_case(case: StressCase, base: _Base) -> StressResult:
                      {n: baselines[:, i] for i, n in enumerate(BASELINES)}, rate_check)
         if later:  # several [forecasts]: which one wins this view, each at its own base cutoff
             ranked = contest(base.history.forecast_names, [float(base.cutoffs[k]) for k in base.own_cutoffs],
-                             [view.model_cost_at_base] + [np.concatenate(stores[i]) for stores in later])
+                             [view.model_cost_at_base] + [np.concatenate(stores[i]) for stores in later],
+                             base.scenario.decision.objective)
             view = dataclasses.replace(view, forecasts=ranked,
                                        headline=f"{view.headline} {ranked.sentence(base.scenario.currency)}")
         out_views.append(view)

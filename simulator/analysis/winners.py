@@ -3,7 +3,9 @@
 A :class:`Contest` holds every forecast of ``[forecasts]`` priced on one set of replicate seasons
 (the base case's, a ``[[stress]]`` case's tilted ones, or one site's share of the joint replay),
 each at its own recommended cutoff of the base case: the cutoff a user of that forecast keeps. The
-winner is the forecast with the lowest mean season cost; the runner-up the next one. The saving,
+winner is the forecast whose season costs score lowest by the run's ``[decision] objective`` (the
+mean, the 95th percentile or the mean of the worst 10%: the figure each forecast's own cutoff was
+chosen by); the runner-up the next one. The saving,
 replicate by replicate, is the runner-up's season cost minus the winner's, so its mean is what
 the winner is worth a season over the best of the rest, and ``prob_saving`` the share of
 replicate seasons in which the winner is strictly cheaper. Paired differences on common random
@@ -11,9 +13,9 @@ numbers, as in the forecasts comparison (:mod:`simulator.analysis.forecasts`; Th
 Stephenson 2001, "How to judge the quality and value of weather forecast products", Meteorological
 Applications 8, 307-314, argue for choosing a provider by value).
 
-Two forecasts whose mean season costs are equal within :func:`~simulator.pricing.decision.money_tolerance`
+Two forecasts whose scores are equal within :func:`~simulator.pricing.decision.money_tolerance`
 (the same column listed under two names, for example) tie: the contest then has no winner. The
-forecasts are ranked by mean season cost and then by name, never by the order they are listed
+forecasts are ranked by that score and then by name, never by the order they are listed
 in, so the listing order changes no figure.
 
 Pure functions of arrays.
@@ -27,7 +29,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ..notation.prose import cutoff_text, money, share
-from ..pricing.decision import cheaper, distribution, money_tolerance
+from ..pricing.decision import OBJECTIVE_NAMES, cheaper, distribution, money_tolerance, objective_cost
 
 __all__ = ["Contest", "contest", "wins", "ROW_COLUMNS"]
 
@@ -42,7 +44,7 @@ class Contest:
 
     ``names``, ``cutoffs`` and ``costs`` are in the order listed: each forecast's name, the cutoff
     it is priced at, and its season cost on every replicate, (n_replicates,). ``cheapest`` is the
-    one with the lowest mean (ties: the first by name) and ``runner_up`` the next; ``winner`` is
+    one with the lowest score by ``objective`` (ties: the first by name) and ``runner_up`` the next; ``winner`` is
     ``cheapest``, or None when the two tie.
     ``saving`` (n_replicates,) is the runner-up's season cost minus the cheapest one's, and
     ``prob_saving`` the share of replicates in which the cheapest is strictly cheaper (a tie within
@@ -57,6 +59,7 @@ class Contest:
     runner_up: str
     saving: np.ndarray = field(repr=False)
     prob_saving: float
+    objective: str = "mean"
 
     def saving_summary(self) -> dict[str, float]:
         """Mean, 5th and 95th percentiles of the saving per season, and ``prob_saving``."""
@@ -79,8 +82,10 @@ class Contest:
         if self.winner is None:
             return (f'"{self.cheapest}" and "{self.runner_up}" cost the same here, each at its own cutoff.')
         at = dict(zip(self.names, self.cutoffs))
+        least = ("costs least here" if self.objective == "mean"
+                 else f"has the lowest {OBJECTIVE_NAMES[self.objective]} here")
         return (f'Of the forecasts, each at its own cutoff, "{self.winner}" (at {cutoff_text(at[self.winner])}) '
-                f"costs least here: {money(float(self.saving.mean()), currency)} a season less than "
+                f"{least}: {money(float(self.saving.mean()), currency)} a season less than "
                 f'"{self.runner_up}" (at {cutoff_text(at[self.runner_up])}) on average, and cheaper in '
                 f"{share(self.prob_saving)} of seasons.")
 
@@ -92,26 +97,28 @@ class Contest:
                                       saving["mean"], saving["p05"], saving["p95"], saving["prob_saving"])))
 
 
-def contest(names: Sequence[str], cutoffs: Sequence[float], costs: Sequence[np.ndarray]) -> Contest:
-    """Rank forecasts priced on the same replicates by mean season cost and name the winner.
+def contest(names: Sequence[str], cutoffs: Sequence[float], costs: Sequence[np.ndarray],
+            objective: str = "mean") -> Contest:
+    """Rank forecasts priced on the same replicates by ``objective`` and name the winner.
 
     Parameters
     ----------
     names : each forecast's display name, in the order listed (two or more).
     cutoffs : the cutoff each is priced at (its own recommended cutoff), in the same order.
     costs : each forecast's season cost at that cutoff, (n_replicates,), on the same replicates.
+    objective : the run's ``[decision] objective`` (:func:`~simulator.pricing.decision.objective_cost`).
     """
     if len(names) < 2 or not len(names) == len(cutoffs) == len(costs):
         raise ValueError(f"a contest needs two or more forecasts with a cutoff and costs each, got "
                          f"{len(names)} names, {len(cutoffs)} cutoffs and {len(costs)} cost arrays")
     costs = tuple(np.asarray(c, dtype=np.float64) for c in costs)
-    means = [float(c.mean()) for c in costs]
-    first, second = sorted(range(len(names)), key=lambda i: (means[i], names[i]))[:2]
+    scores = [float(objective_cost(c, objective)) for c in costs]
+    first, second = sorted(range(len(names)), key=lambda i: (scores[i], names[i]))[:2]
     tolerance = money_tolerance(costs[first], costs[second])
-    winner = names[first] if cheaper(means[first], means[second], tolerance) else None
+    winner = names[first] if cheaper(scores[first], scores[second], tolerance) else None
     return Contest(names=tuple(names), cutoffs=tuple(float(c) for c in cutoffs), costs=costs, winner=winner,
                    cheapest=names[first], runner_up=names[second], saving=costs[second] - costs[first],
-                   prob_saving=float(cheaper(costs[first], costs[second], tolerance).mean()))
+                   prob_saving=float(cheaper(costs[first], costs[second], tolerance).mean()), objective=objective)
 
 
 def wins(contests: Sequence[Contest], names: Sequence[str]) -> dict[str, int]:

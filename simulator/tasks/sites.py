@@ -140,7 +140,7 @@ def _site_result(work: "_Work", k: int, block: PricedBlock) -> SiteResult:
     if later:  # several [forecasts]: each at its own cutoff on the site's replicates, and the winner
         own = (decision.recommended_index, *(decide_one(model).recommended_index for model in later))
         ranked = contest(history.forecast_names, [float(cutoffs[i]) for i in own],
-                         [model[:, i] for model, i in zip((block.model, *later), own)])
+                         [model[:, i] for model, i in zip((block.model, *later), own)], scenario.decision.objective)
     table = cutoff_table([(history, costs)], cutoffs, p_star, block.model, reference)
     operations = None
     if scenario.operations is not None:
