@@ -32,7 +32,8 @@ from ..inputs.scenario import Scenario
 from ..inputs.scenario_types import BASELINES
 from ..pricing.decision import lowest, objective_cost
 from ..replay.resample import Calendar
-from ..rules.operating_rules import PRICE_KEYS, RulePrices
+from ..rules.operating_rules import PRICE_KEYS, RulePrices, Rules
+from ..rules.price_terms import moving_prices, price_counts, price_terms, priced_by_terms
 from ..rules.operations_result import OperationsResult
 from .sensitivity import REACH, VARY, Moved, Pricing, Sensitivity, one_way
 from .verdict import judge, played_season_pricer
@@ -43,53 +44,38 @@ TIED = ("No standby_rate is given, so standby days are paid the day rate: moving
         "standby rate paid with it.")
 """The table's remark when ``day_rate`` moves the standby rate paid too."""
 
-LEFT_OUT = {"standby_rate": "standby_rate (not given: standby days are paid the day rate)",
-            "damages_per_day_late": "damages_per_day_late (no deadline)",
+LEFT_OUT = {"damages_per_day_late": "damages_per_day_late (no deadline)",
             "unfinished_cost": "unfinished_cost (no work to finish)"}
 """Why a price plays no part in a run, for the table's remark."""
 
 
-def _plays_no_part(section) -> list[str]:
-    """The prices of :data:`PRICE_KEYS` that play no part in a run under ``section``."""
-    out = []
-    if section.standby_rate is None:
-        out.append("standby_rate")
-    if section.deadline is None:
-        out.append("damages_per_day_late")
-    if section.work is None:
-        out.append("unfinished_cost")
-    return out
-
-
-def price_ends(section, ranges: Mapping[str, object] | None = None) -> tuple[list[Moved], str | None]:
+def price_ends(section, rules: Rules, ranges: Mapping[str, object] | None = None) -> tuple[list[Moved], str | None]:
     """The rules' prices to move (:class:`~simulator.analysis.sensitivity.Moved`, in
-    :data:`PRICE_KEYS` order) and the table's remark (prices left out, the day rate moving the
-    standby rate), or None.
+    :data:`PRICE_KEYS` order: those that play a part under ``rules``,
+    :func:`~simulator.rules.price_terms.moving_prices`) and the table's remark (prices left out,
+    the day rate moving the standby rate), or None.
 
     A price given as a range (``ranges``, keyed ``"operations.<price>"``, each with ``low``,
     ``high`` and ``mean``, as ``Scenario.cost_ranges()`` gives them) moves to its ends around its
     mean; any other :data:`~.sensitivity.VARY` below and above its value.
     """
     ranges = ranges or {}
-    held = RulePrices.of(section)
-    left_out = _plays_no_part(section)
-    keys = [key for key in PRICE_KEYS if key not in left_out]
-    bases = {}
+    held = RulePrices.of(section)  # a range's place holds its mean
+    keys = moving_prices(rules, section.standby_rate is not None)
+    ends = {}
     for key in keys:
         given = ranges.get(f"operations.{key}")
-        bases[key] = (float(given.mean), float(given.low), float(given.high), "range") if given is not None else (
-            float(getattr(held, key)), float(getattr(held, key)) * (1 - VARY), float(getattr(held, key)) * (1 + VARY),
-            "25%")
-    scale = max(base for base, *_ in bases.values()) or 1.0
+        value = float(getattr(held, key))
+        ends[key] = ((float(given.mean), float(given.low), float(given.high), "range") if given is not None
+                     else (value, value * (1 - VARY), value * (1 + VARY), "25%"))
+    scale = max(base for base, *_ in ends.values()) or 1.0
     moved = [Moved(key=f"operations.{key}", base=base, low=low, high=high, varied=varied,
                    search=(0.0, REACH * (base if base > 0 else scale)))
-             for key, (base, low, high, varied) in bases.items()]
-    remarks = []
-    if "standby_rate" in left_out:
-        remarks.append(TIED)
-    others = [LEFT_OUT[key] for key in left_out]
-    if others:
-        remarks.append("Left out, as they play no part in this run: " + "; ".join(others) + ".")
+             for key, (base, low, high, varied) in ends.items()]
+    remarks = [TIED] if "standby_rate" not in keys else []
+    left_out = [LEFT_OUT[key] for key in PRICE_KEYS if key not in keys and key in LEFT_OUT]
+    if left_out:
+        remarks.append("Left out, as they play no part in this run: " + "; ".join(left_out) + ".")
     return moved, " ".join(remarks) or None
 
 
@@ -117,8 +103,8 @@ def rules_pricing(operations: OperationsResult, section, moved: list[Moved], ref
     (:class:`~simulator.analysis.sensitivity.Pricing`): priced again at moved prices by
     :meth:`~simulator.rules.operations_result.OperationsResult.season_cost_at`. The quick choice
     for the switching-value search prices the same seasons; under the mean objective from the mean
-    season cost per cutoff at unit prices (each component is linear in its price, so the mean cost
-    is the sum of the prices times those means), and without
+    counts per cutoff that each price multiplies (:mod:`~simulator.rules.price_terms`: every
+    component is linear in its price, so the mean cost follows from the mean counts), and without
     :func:`~simulator.pricing.decision.money_tolerance`, as the fixed-costs path chooses."""
     n_cut = operations.n_cutoffs
     column = n_cut + BASELINES.index(reference)
@@ -128,13 +114,16 @@ def rules_pricing(operations: OperationsResult, section, moved: list[Moved], ref
         total = operations.season_cost_at(prices)
         return total[:, :n_cut], total[:, column]
 
-    if objective == "mean":  # every component is linear in the prices, so the mean cost is too
-        zero = RulePrices(**dict.fromkeys(PRICE_KEYS, 0.0))
-        other = season_costs(zero)[0].mean(axis=0)  # money of user-written processes (else 0)
-        per_unit = {key: season_costs(zero.moved(**{key: 1.0}))[0].mean(axis=0) - other for key in PRICE_KEYS}
+    if objective == "mean":  # the mean season cost from the mean counts (linearity of expectation)
+        terms = price_terms(operations.rules)
+        counts = {name: value[:, :n_cut].mean(axis=0, dtype=np.float64)
+                  for name, value in price_counts(operations.rules, operations.extras).items()}
+        extras = operations.extras
+        other = extras["other_cost"][:, :n_cut].mean(axis=0) if "other_cost" in extras else None
 
         def chosen(prices: RulePrices) -> int:
-            return int(lowest(other + sum(getattr(prices, key) * per_unit[key] for key in PRICE_KEYS)))
+            paid = {key: getattr(prices, key) for key in terms}
+            return int(lowest(priced_by_terms(terms, counts, paid, other)))
     else:
         def chosen(prices: RulePrices) -> int:
             return int(lowest(objective_cost(season_costs(prices)[0], objective, axis=0)))
@@ -164,7 +153,7 @@ def of_operations_run(scenario: Scenario, history: History, calendar: Calendar, 
     # prices given as ranges with some width (one of zero width is a fixed price, moved by 25%)
     ranges = {key: r for key, r in scenario.cost_ranges().items()
               if key.startswith("operations.") and r.high > r.low}
-    moved, remark = price_ends(section, ranges)
+    moved, remark = price_ends(section, operations.rules, ranges)
     objective = scenario.decision.objective
     pricing = rules_pricing(operations, section, moved, scenario.simulation.reference, objective)
     verdict = None if rule is None else rules_verdict_at(history, calendar, scenario.cutoffs, scenario, rule)
