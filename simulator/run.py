@@ -28,6 +28,7 @@ import pandas as pd
 from .analysis.forecasts import compare_forecasts
 from .analysis.calibration import calibrate
 from .analysis.selection import select_honestly
+from .analysis.rules_sensitivity import of_operations_run
 from .analysis.sensitivity import NOTES, Sensitivity, of_run
 from .analysis.stress import run_stress
 from .analysis.verdict import RULES, Verdict, best_rule, judge, season_costs, together
@@ -201,9 +202,10 @@ def run_history(scenario: Scenario, history: History, *, replicates: int | None 
         warnings += tuple(w for case in stress for w in case.warnings)
     unprotected = (_events_without_action(work, decision.recommended_index)
                    if scenario.event.hazard and calibration is None else None)
-    sensitivity = of_run(scenario, history, calendar, counts, decision.near_optimal_band,
-                         rule if verdict.n_seasons >= 2 else None,
-                         "operations" if scenario.operations is not None else None)
+    judged = rule if verdict.n_seasons >= 2 else None
+    sensitivity = (of_run(scenario, history, calendar, counts, decision.near_optimal_band, judged)
+                   if operations is None else  # the rules' prices moved instead of the [costs]
+                   of_operations_run(scenario, history, calendar, operations, decision.near_optimal_band, judged))
     return RunResult(scenario=scenario, history=history, calendar=calendar, cutoffs=cutoffs,
                      replicates=replicates, seed=seed, mean_block_days=mean_block * calendar.spacing_days,
                      theoretical_cutoff=p_star, decision=decision, model_cost=model_cost,

@@ -13,7 +13,7 @@ References, none of them a value of this project's own:
   in decision analysis and health-economic evaluation (Briggs, Claxton and Sculpher 2006, Decision
   Modelling for Health Economic Evaluation, chapter 4; from memory, check). Their defining property
   is checked here with full runs: a cost just past its switching value changes the verdict or takes
-  the cutoff out of today's near-optimal band, and just short of it does not.
+  the cutoff out of today's near-optimal band, and just short of it does not (``tests/switching.py``).
 
 The demo history is invented (Ferrowby Stripe Works); the real one is the daily Seattle weather
 shipped by the vega-datasets package with an honest logistic forecast (``tests/realdata.py``).
@@ -34,9 +34,9 @@ from simulator.inputs.scenario import read_scenario, scenario_from_text
 from simulator.inputs.scenario_types import BASELINES
 from simulator.pricing.costs import price
 from simulator.run import run_history
+from switching import check_band_switches, check_verdict_switches
 
 REPLICATES = 600  # two seeded blocks, the second partial: enough for the checks, fast
-JUST = 2e-6  # "just past" / "just short": this share of the span searched, wider than the bisection's width
 
 
 def _with_cost(scenario, key: str, value: float, block_days: float | None = None):
@@ -77,10 +77,12 @@ def test_run_keeps_every_replicates_counts_which_price_to_its_season_costs(case,
         assert np.array_equal(baselines[:, i], result.baseline_cost[name])
 
 
-def test_operating_rules_keep_no_counts_and_say_why_there_is_no_sensitivity():
+def test_operating_rules_keep_no_counts_and_move_the_rules_prices_instead():
+    # under [operations] the [costs] matrix prices no season: tests/test_rules_sensitivity.py
     result = run_history(*_rules(), replicates=40)
     assert result.replicate_counts is None
-    assert result.sensitivity.costs == () and "[operations]" in result.sensitivity.note
+    assert result.sensitivity.moved == "operations" and result.sensitivity.note is None
+    assert all(c.key.startswith("operations.") for c in result.sensitivity.costs)
 
 
 def _rules():
@@ -113,45 +115,19 @@ def test_bars_are_sorted_widest_first(demo):
 
 # ---- switching values ---------------------------------------------------------------------------
 
-def _switches(result, kind: str):
-    for entry in result.sensitivity.costs:
-        switch = entry.verdict_switch if kind == "verdict" else entry.band_switch
-        for side, value in (("down", switch.down), ("up", switch.up)):
-            if value is not None:
-                yield entry, side, value
-
-
-def _past_and_short(entry, side: str, value: float) -> tuple[float, float]:
-    step = JUST * (entry.search[1] - entry.search[0]) * (1 if side == "up" else -1)
-    return value + step, value - step
-
-
 @pytest.mark.parametrize("case", ["demo", "rain"])
 def test_a_cost_just_past_its_switching_value_changes_the_verdict_and_just_short_does_not(case, request):
     scenario, history, result = request.getfixturevalue(case)
-    found = list(_switches(result, "verdict"))
-    assert found, "expected at least one verdict switching value within the span searched"
-    for entry, side, value in found:
-        key = entry.key.removeprefix("costs.")
-        past, short = _past_and_short(entry, side, value)
-        verdict = lambda v: run_history(_with_cost(scenario, key, v), history, replicates=20).verdict  # noqa: E731
-        assert verdict(past).use_forecast != result.verdict.use_forecast, (entry.key, side, value)
-        assert verdict(short).use_forecast == result.verdict.use_forecast, (entry.key, side, value)
+    check_verdict_switches(result, lambda key, v: run_history(
+        _with_cost(scenario, key.removeprefix("costs."), v), history, replicates=20).verdict)
 
 
 @pytest.mark.parametrize("case", ["demo", "rain"])
 def test_a_cost_just_past_its_switching_value_leaves_the_near_optimal_band_and_just_short_does_not(case, request):
     scenario, history, result = request.getfixturevalue(case)
-    lo, hi = result.decision.near_optimal_band
-    found = list(_switches(result, "band"))
-    assert found, "expected at least one band switching value within the span searched"
-    for entry, side, value in found:
-        key = entry.key.removeprefix("costs.")
-        past, short = _past_and_short(entry, side, value)
-        cutoff = lambda v: run_history(_with_cost(scenario, key, v, result.mean_block_days), history,  # noqa: E731
-                                       replicates=REPLICATES).decision.recommended_cutoff
-        assert not lo <= cutoff(past) <= hi, (entry.key, side, value)
-        assert lo <= cutoff(short) <= hi, (entry.key, side, value)
+    check_band_switches(result, lambda key, v: run_history(
+        _with_cost(scenario, key.removeprefix("costs."), v, result.mean_block_days), history,
+        replicates=REPLICATES).decision.recommended_cutoff)
 
 
 def test_switching_value_is_none_when_nothing_changes_within_the_span():

@@ -145,13 +145,16 @@ _COLUMNS: dict[str, tuple[str, str]] = {
     "saving_against_runner_up_p95": ("95th percentile over replicate seasons of that saving", "{cur} per season"),
     "saving_against_runner_up_prob": ("share of replicate seasons in which the best forecast is strictly cheaper "
                                       "than the runner-up", "probability"),
-    # sensitivity.csv: each cost moved alone (the others held), one row per cost, the widest first
-    "cost_key": ("the cost moved, as the scenario writes it (costs.miss)", "none"),
+    # sensitivity.csv: each cost (or, under [operations], each of the rules' prices) moved alone, the
+    # others held, one row per cost, the widest first
+    "cost_key": ("the cost or price moved, as the scenario writes it (costs.miss, operations.day_rate)", "none"),
+    "value_unit": ("what the row's values (base, low, high, switching values, search) are paid per: an occasion "
+                   "for a cost of [costs], the price's own unit for a rule's price", "none"),
     "varied": ("how its ends were set: range (the low and high of the range given) or 25% (25% below and above "
                "its value)", "none"),
-    "base_value": ("the cost as the run priced it (for a range, its mean)", "{cur} per occasion"),
-    "low_value": ("the cost at its low end", "{cur} per occasion"),
-    "high_value": ("the cost at its high end", "{cur} per occasion"),
+    "base_value": ("the cost as the run priced it (for a range, its mean)", "{cur}, per value_unit"),
+    "low_value": ("the cost at its low end", "{cur}, per value_unit"),
+    "high_value": ("the cost at its high end", "{cur}, per value_unit"),
     "cutoff_at_low": ("the cutoff chosen again with the cost at its low end", "probability"),
     "cutoff_at_high": ("the cutoff chosen again with the cost at its high end", "probability"),
     "mean_saving_at_low": ("mean saving against the reference at cutoff_at_low, cost at its low end",
@@ -165,17 +168,17 @@ _COLUMNS: dict[str, tuple[str, str]] = {
     "prob_saving_at_high": ("share of replicate seasons in which cutoff_at_high saves, cost at its high end",
                             "share"),
     "verdict_switch_down": ("the cost below today's at which the verdict (use the forecast or not) changes; "
-                            "empty: not from search_low up", "{cur} per occasion"),
+                            "empty: not from search_low up", "{cur}, per value_unit"),
     "verdict_switch_up": ("the cost above today's at which the verdict changes; empty: not up to search_high",
-                          "{cur} per occasion"),
+                          "{cur}, per value_unit"),
     "band_switch_down": ("the cost below today's at which the chosen cutoff leaves today's near-optimal band; "
-                         "empty: not from search_low up", "{cur} per occasion"),
+                         "empty: not from search_low up", "{cur}, per value_unit"),
     "band_switch_up": ("the cost above today's at which the chosen cutoff leaves today's near-optimal band; "
-                       "empty: not up to search_high", "{cur} per occasion"),
+                       "empty: not up to search_high", "{cur}, per value_unit"),
     "search_low": ("lowest cost the switching values were looked for at (0, or -10 times the largest cost for "
-                   "a cost of 0)", "{cur} per occasion"),
+                   "a cost of 0 of [costs]; a rule's price is never below 0)", "{cur}, per value_unit"),
     "search_high": ("highest cost the switching values were looked for at (10 times the cost, or the largest "
-                    "cost)", "{cur} per occasion"),
+                    "cost)", "{cur}, per value_unit"),
 }
 
 

@@ -184,7 +184,7 @@ def render_files(result: RunResult) -> dict[str, bytes]:
         "selection.csv": lambda: _csv(_selection_frame(result.selection)),
         "sites.csv": lambda: _csv(result.portfolio.table),
         "forecasts.csv": lambda: _csv(result.comparison.table()),
-        "sensitivity.csv": lambda: _csv(sensitivity_frame(contents["sensitivity"])),
+        "sensitivity.csv": lambda: _csv(sensitivity_frame(contents["sensitivity"], result.scenario.currency)),
     }
     scenario = result.scenario
     render["datapackage.json"] = lambda: datapackage(files, scenario.slug, scenario.name, scenario.currency)

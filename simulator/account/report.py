@@ -116,7 +116,7 @@ def render_report(result, summary: Mapping[str, Any]) -> dict[str, bytes]:
     sensitivity = report_section(summary.get("sensitivity"), currency, decimals, occasion)
     if sensitivity and sensitivity["rows"]:
         draw["tornado"] = partial(tornado_chart, sensitivity["labels"], sensitivity["change_low"],
-                                  sensitivity["change_high"], words)
+                                  sensitivity["change_high"], words, noun=sensitivity["noun"])
     operations = _operations(summary, currency, getattr(scenario, "operations", None))
     if operations and operations["values"]:
         draw["operations_costs"] = partial(components_chart, operations["names"], operations["values"],

@@ -29,8 +29,8 @@ import numpy as np
 
 from ..inputs.scenario_types import BASELINES, MAX_MONEY
 from ..pricing.decision import SAME_MONEY, SHORTFALL_SHARE, cheaper, lowest, objective_cost
-from ..rules.operating_rules import PRICE_KEYS, RulePrices, _iso
-from ..rules.price_terms import price_counts, price_terms, priced_by_terms
+from ..rules.operating_rules import RulePrices, _iso
+from ..rules.price_terms import moving_prices, price_counts, price_terms, priced_by_terms
 from .page_codec import decode_counts, decode_float64, encode_counts, encode_float64, typed_number
 
 __all__ = ["SAMPLE", "rules_fields", "rules_whatif_data", "page_figures"]
@@ -44,9 +44,7 @@ _LABELS = {"day_rate": "Day rate", "standby_rate": "Standby rate", "spoilage_cos
 def _given(result) -> list[str]:
     """The prices shown as fields: those that play a part, ``standby_rate`` only when the scenario
     gives it (else standby days are paid the day rate)."""
-    terms = price_terms(result.operations.rules)
-    section = result.scenario.operations
-    return [key for key in PRICE_KEYS if key in terms and (key != "standby_rate" or section.standby_rate is not None)]
+    return moving_prices(result.operations.rules, result.scenario.operations.standby_rate is not None)
 
 
 def rules_fields(result) -> list[tuple[str, str, str, str]]:

@@ -8,7 +8,9 @@ of the calibrated pricing mode on the training period; ``verdict`` holds
 each past season out in turn to say whether the forecast beats the best rule that ignores it;
 ``forecasts`` compares several forecasts on the same replicate seasons, and ``winners`` says
 which one wins a set of them (the base case, a stress case, a site); ``cost_spread`` splits the
-spread of a season cost between the weather and costs given as ranges.
+spread of a season cost between the weather and costs given as ranges; ``sensitivity`` moves each
+cost alone (its ends and switching values), and ``rules_sensitivity`` each of the operating
+rules' prices.
 
 May import: ``rules``, ``pricing``, ``replay``, ``inputs``, ``notation``.
 """

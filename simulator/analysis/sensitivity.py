@@ -27,12 +27,17 @@ the replicates it keeps the months it acts in at today's costs (the verdict's he
 learn them again at each moved cost). The replay is held as the run drew it: with
 ``block_days = "auto"`` the run length is chosen on the series of costs at the break-even
 probability, so a run at other costs may draw other replicates; the sensitivity isolates the costs.
+
+The ends, the choice and the switching values (:func:`one_way`) run on any :class:`Pricing` of the
+replicates at given inputs: here the counts repriced at given ``[costs]`` (:func:`sensitivity`);
+under ``[operations]`` the played seasons priced again at given prices of the rules
+(:mod:`simulator.analysis.rules_sensitivity`).
 """
 
 from __future__ import annotations
 
 import math
-from collections.abc import Callable, Mapping
+from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass
 
 import numpy as np
@@ -49,8 +54,9 @@ from ..pricing.decision import (OBJECTIVE_COLUMN, cheaper, lowest, money_toleran
 from ..replay.resample import Calendar
 from .verdict import judge, season_pricer
 
-__all__ = ["VARY", "REACH", "End", "Switch", "CostSensitivity", "Sensitivity", "search_span", "choose",
-           "cost_ends", "switching_value", "verdict_at", "sensitivity", "of_run", "NOTES"]
+__all__ = ["VARY", "REACH", "End", "Switch", "CostSensitivity", "Sensitivity", "Moved", "Pricing", "search_span",
+           "choose", "choose_priced", "cost_ends", "switching_value", "verdict_at", "one_way", "sensitivity", "of_run",
+           "NOTES"]
 
 VARY = 0.25  # a cost without a range is moved by this share down and up (the issue's plus and minus 25%)
 REACH = 10.0  # switching values are looked for from 0 to this many times the cost (see search_span)
@@ -59,8 +65,6 @@ _STEPS = 18  # bisection steps: to within the span / 8 / 2^18, two millionths of
 
 
 NOTES = {
-    "operations": ("No sensitivity to the costs under [operations]: the season costs come from the operating "
-                   "rules, not from the [costs] matrix, and the rules' prices are not varied yet."),
     "sites": ("No sensitivity to the costs with a site column yet: run a site's history alone to see which of "
               "its cost estimates matters."),
     "calibrated": ("No sensitivity to the costs in the calibrated mode yet: use mode = \"replay\" to see which "
@@ -91,7 +95,7 @@ class Switch:
 
 @dataclass(frozen=True)
 class CostSensitivity:
-    """One cost: ``key`` as the scenario writes it (``"costs.miss"``), today's ``base`` value,
+    """One cost: ``key`` as the scenario writes it (``"costs.miss"``, ``"operations.day_rate"``), today's ``base`` value,
     ``low`` and ``high`` ends, how they were set (``varied``: ``"range"`` or ``"25%"``), the
     switching values of the verdict (None without one) and of the near-optimal band, and the
     ``search`` span they were looked for in."""
@@ -113,8 +117,11 @@ class CostSensitivity:
 
 @dataclass(frozen=True)
 class Sensitivity:
-    """The sensitivity of a run: every cost, the widest bar first (ties in :data:`COST_KEYS`
-    order), beside today's cutoff, band and saving; or only a ``note`` saying why there is none."""
+    """The sensitivity of a run: every cost, the widest bar first (ties in the order the inputs
+    were given: :data:`COST_KEYS`, or the rules' prices), beside today's cutoff, band and saving;
+    or only a ``note`` saying why there is none. ``moved``: what was moved, ``"costs"`` (the
+    ``[costs]`` matrix) or ``"operations"`` (the rules' prices); ``remark``: what the table's
+    reader must know about the inputs (those left out, those moved together), or None."""
 
     costs: tuple[CostSensitivity, ...]
     base_cutoff: float = math.nan
@@ -122,6 +129,38 @@ class Sensitivity:
     band: tuple[float, float] = (math.nan, math.nan)
     use_forecast: bool | None = None
     note: str | None = None
+    moved: str = "costs"
+    remark: str | None = None
+
+
+@dataclass(frozen=True)
+class Moved:
+    """One input moved alone: its ``key`` as the scenario writes it, today's ``base`` value, its
+    ``low`` and ``high`` ends, how they were set (``varied``) and the ``search`` span of its
+    switching values."""
+
+    key: str
+    base: float
+    low: float
+    high: float
+    varied: str
+    search: tuple[float, float]
+
+
+@dataclass(frozen=True)
+class Pricing:
+    """The replicate seasons as a function of the inputs, for :func:`one_way`.
+
+    ``held``: today's inputs (a range held at its mean); ``at(key, value)``: them with one moved;
+    ``season_costs(inputs)``: every replicate's season cost acting at each cutoff (n_rep,
+    n_cutoffs) and under the reference (n_rep,), exactly as a full run at those inputs prices
+    them; ``chosen(inputs)``: the index of the cutoff the objective chooses there, quickly (for
+    the switching-value search)."""
+
+    held: object
+    at: Callable[[str, float], object]
+    season_costs: Callable[[object], tuple[np.ndarray, np.ndarray]]
+    chosen: Callable[[object], int]
 
 
 def search_span(base: float, scale: float) -> tuple[float, float]:
@@ -151,10 +190,22 @@ def cost_ends(costs: Costs, ranges: Mapping[str, object] | None = None) -> dict[
 
 def choose(counts: ReplicateCounts, costs: Costs, reference: str, objective: str) -> tuple[int, float, float]:
     """The cutoff ``objective`` chooses at ``costs``, with its mean saving against ``reference`` and
-    the share of seasons it saves in, made as :func:`~simulator.pricing.decision.decide` makes them
-    (the same tolerance, columns and ties), so a full run with these costs gives the same numbers."""
-    model = price(counts.model, costs)
-    reference_cost = price(counts.baselines, costs)[:, BASELINES.index(reference)]
+    the share of seasons it saves in (:func:`choose_priced` on the counts priced at ``costs``)."""
+    return choose_priced(*_counts_priced(counts, reference)(costs), objective)
+
+
+def _counts_priced(counts: ReplicateCounts, reference: str) -> Callable[[Costs], tuple[np.ndarray, np.ndarray]]:
+    """The replicate counts priced at given costs (:func:`~simulator.pricing.costs.price`): the
+    season costs at each cutoff and under ``reference``."""
+    column = BASELINES.index(reference)
+    return lambda costs: (price(counts.model, costs), price(counts.baselines, costs)[:, column])
+
+
+def choose_priced(model: np.ndarray, reference_cost: np.ndarray, objective: str) -> tuple[int, float, float]:
+    """The cutoff ``objective`` chooses among season costs ``model`` (n_rep, n_cutoffs), with its
+    mean saving against ``reference_cost`` (n_rep,) and the share of seasons it saves in, made as
+    :func:`~simulator.pricing.decision.decide` makes them (the same tolerance, columns and ties),
+    so a full run at the same inputs gives the same numbers."""
     tolerance = money_tolerance(model, reference_cost)
     # the mean is decide's own column (season_cost_columns' mean_cost) without the quantiles' cost
     score = model.mean(axis=0) if objective == "mean" else season_cost_columns(model)[OBJECTIVE_COLUMN[objective]]
@@ -208,53 +259,70 @@ def switching_value(changed: Callable[[float], bool], base: float, limit: float)
     return None
 
 
+def one_way(moved: Sequence[Moved], pricing: Pricing, *, objective: str, cutoffs: np.ndarray,
+            band: tuple[float, float], use_forecast: Callable[[object], bool] | None = None) -> Sensitivity:
+    """Every input of ``moved`` moved alone, the others held: its ends and its switching values (see
+    the module's text), from any ``pricing`` of the replicates (:class:`Pricing`).
+
+    Parameters
+    ----------
+    moved : the inputs, in the order ties of width are broken.
+    pricing : the replicates priced at given inputs.
+    objective : the run's ``[decision] objective``.
+    cutoffs : (n_cutoffs,) the run's grid.
+    band : today's near-optimal band of cutoffs, (low, high), both included.
+    use_forecast : the verdict at given inputs (whether acting on the forecast beats the best rule
+        without it on held-out seasons); None when the run has no verdict.
+    """
+    held = pricing.held
+    base_index, base_saving, _ = choose_priced(*pricing.season_costs(held), objective)
+    base_verdict = None if use_forecast is None else use_forecast(held)
+    out = []
+    for m in moved:
+        def end(value: float, key: str = m.key) -> End:
+            index, saving, prob = choose_priced(*pricing.season_costs(pricing.at(key, value)), objective)
+            return End(value=value, cutoff=float(cutoffs[index]), mean_saving=saving, prob_saving=prob)
+
+        def leaves_band(value: float, key: str = m.key) -> bool:
+            c = cutoffs[pricing.chosen(pricing.at(key, value))]
+            return not band[0] <= c <= band[1]
+
+        band_switch = Switch(switching_value(leaves_band, m.base, m.search[0]),
+                             switching_value(leaves_band, m.base, m.search[1]))
+        verdict_switch = None
+        if use_forecast is not None:
+            def flips(value: float, key: str = m.key) -> bool:
+                return use_forecast(pricing.at(key, value)) != base_verdict
+            verdict_switch = Switch(switching_value(flips, m.base, m.search[0]),
+                                    switching_value(flips, m.base, m.search[1]))
+        out.append(CostSensitivity(key=m.key, base=m.base, varied=m.varied, low=end(m.low), high=end(m.high),
+                                   verdict_switch=verdict_switch, band_switch=band_switch, search=m.search))
+    order = sorted(range(len(out)), key=lambda i: (-out[i].width, i))
+    return Sensitivity(costs=tuple(out[i] for i in order), base_cutoff=float(cutoffs[base_index]),
+                       base_saving=base_saving, band=band, use_forecast=base_verdict)
+
+
 def sensitivity(counts: ReplicateCounts, costs: Costs, *, reference: str, objective: str, cutoffs: np.ndarray,
                 band: tuple[float, float], use_forecast: Callable[[Costs], bool] | None = None,
                 ranges: Mapping[str, object] | None = None) -> Sensitivity:
-    """Every cost moved alone: its ends and its switching values (see the module's text).
+    """Every cost of ``[costs]`` moved alone (:func:`one_way`), the replicates' counts repriced at it.
 
     Parameters
     ----------
     counts : the run's replicate counts (``RunResult.replicate_counts``).
     costs : the scenario's ``[costs]``; a cost given as a range is held at its mean when another moves.
     reference, objective : the run's ``[simulation] reference`` and ``[decision] objective``.
-    cutoffs : (n_cutoffs,) the run's grid.
-    band : today's near-optimal band of cutoffs, (low, high), both included.
-    use_forecast : the verdict at given costs (whether acting on the forecast beats the best rule
-        without it on held-out seasons); None when the run has no verdict.
+    cutoffs, band, use_forecast : as :func:`one_way` takes them (the verdict at given costs).
     ranges : costs given as a range (``Scenario.cost_ranges()``), keyed ``"costs.<key>"``.
     """
     ends = cost_ends(costs, ranges)
     held = costs.model_copy(update={key: base for key, (base, *_rest) in ends.items()})
-    base_index, base_saving, _ = choose(counts, held, reference, objective)
-    base_verdict = None if use_forecast is None else use_forecast(held)
-    chosen = _chooser(counts, objective)
     scale = max(abs(v[0]) for v in ends.values()) or 1.0
-    out = []
-    for key, (base, low, high, varied) in ends.items():
-        def at(value: float, key: str = key) -> Costs:
-            return held.model_copy(update={key: value})
-
-        def end(value: float, key: str = key) -> End:
-            index, saving, prob = choose(counts, at(value, key), reference, objective)
-            return End(value=value, cutoff=float(cutoffs[index]), mean_saving=saving, prob_saving=prob)
-
-        def leaves_band(value: float, key: str = key) -> bool:
-            c = cutoffs[chosen(at(value, key))]
-            return not band[0] <= c <= band[1]
-
-        span = search_span(base, scale)
-        band_switch = Switch(switching_value(leaves_band, base, span[0]), switching_value(leaves_band, base, span[1]))
-        verdict_switch = None
-        if use_forecast is not None:
-            def flips(value: float, key: str = key) -> bool:
-                return use_forecast(at(value, key)) != base_verdict
-            verdict_switch = Switch(switching_value(flips, base, span[0]), switching_value(flips, base, span[1]))
-        out.append(CostSensitivity(key=f"costs.{key}", base=base, varied=varied, low=end(low), high=end(high),
-                                   verdict_switch=verdict_switch, band_switch=band_switch, search=span))
-    order = sorted(range(len(out)), key=lambda i: (-out[i].width, i))
-    return Sensitivity(costs=tuple(out[i] for i in order), base_cutoff=float(cutoffs[base_index]),
-                       base_saving=base_saving, band=band, use_forecast=base_verdict)
+    moved = [Moved(key=f"costs.{key}", base=base, low=low, high=high, varied=varied, search=search_span(base, scale))
+             for key, (base, low, high, varied) in ends.items()]
+    pricing = Pricing(held=held, at=lambda key, value: held.model_copy(update={key.removeprefix("costs."): value}),
+                      season_costs=_counts_priced(counts, reference), chosen=_chooser(counts, objective))
+    return one_way(moved, pricing, objective=objective, cutoffs=cutoffs, band=band, use_forecast=use_forecast)
 
 
 def verdict_at(history: History, calendar: Calendar, cutoffs: np.ndarray, rule: str) -> Callable[[Costs], bool]:

@@ -55,9 +55,11 @@ from ..inputs.history import History
 from ..replay.resample import Calendar
 from ..inputs.scenario import Scenario
 from ..inputs.scenario_costs import Costs
+from ..rules.operating_rules import RulePrices
+from ..rules.season_cost import reprice
 
-__all__ = ["RULES", "RULE_WORDS", "CONFIDENCE", "SeasonCosts", "Verdict", "season_costs", "season_pricer", "judge", "best_rule",
-           "together"]
+__all__ = ["RULES", "RULE_WORDS", "CONFIDENCE", "SeasonCosts", "Verdict", "season_costs", "season_pricer",
+           "played_season_pricer", "judge", "best_rule", "together"]
 
 RULES = ("never_act", "always_act", "persistence", "seasonal_rate")
 """The rules that ignore the forecast, in the order ties are broken."""
@@ -205,8 +207,6 @@ def season_costs(history: History, calendar: Calendar, cutoffs: np.ndarray, scen
     their costs and the occasions are taken from it, and only the model is priced here.
     """
     seasons = history.seasons
-    evaluated = history.evaluated
-    k = seasons.size
     if rules_of is not None and not np.array_equal(rules_of.seasons, seasons):
         raise ValueError("rules_of must come from the same history's seasons")
     if rules_of is not None and scenario.operations is None:
@@ -214,26 +214,49 @@ def season_costs(history: History, calendar: Calendar, cutoffs: np.ndarray, scen
                                    cutoffs=cutoffs)
     if scenario.operations is None:
         return season_pricer(history, cutoffs)(scenario.costs)
-    learnt = _learnt(history)
+    return played_season_pricer(history, calendar, cutoffs, scenario, rules_of)(None)
+
+
+def played_season_pricer(history: History, calendar: Calendar, cutoffs: np.ndarray, scenario: Scenario,
+                         rules_of: SeasonCosts | None = None) -> Callable[[RulePrices | None], SeasonCosts]:
+    """With ``[operations]``: each evaluated season's costs (:func:`season_costs`) as a function of
+    the rules' prices (None: the scenario's own). Each season is laid on ``calendar`` and played
+    under the rules once (:class:`~simulator.rules.vectorised_model.OperationsPricer`), and what it
+    played is priced at the given prices (:func:`~simulator.rules.season_cost.reprice`, bit for bit
+    a play at those prices: how the crews work never depends on a price). The seasonal rate's
+    months depend on the ``[costs]`` matrix, not on the rules' prices, so they are learnt once too.
+    ``rules_of`` as :func:`season_costs` takes it."""
     from ..rules.vectorised_model import OperationsPricer
     from ..inputs.scenario_types import BASELINES
     from .selection import _seasons_on_calendar  # each past season laid on the priced calendar
 
+    seasons, evaluated, k = history.seasons, history.evaluated, history.seasons.size
     rows = _seasons_on_calendar(history, evaluated, calendar)  # (k, n_occasions), seasons ascending
-    columns = [BASELINES.index(name) for name in RULES]
+    n_cut = cutoffs.size
+    columns = [n_cut + BASELINES.index(name) for name in RULES]  # lanes: the cutoffs, then BASELINES
     everything = dataclasses.replace(history, validation=np.zeros_like(evaluated))
-    block = OperationsPricer(everything, calendar, cutoffs, scenario)(rows)  # the forecast learns nothing
-    if rules_of is not None:
-        return dataclasses.replace(rules_of, model=block.model, cutoffs=cutoffs)
-    rules = np.broadcast_to(block.baselines[:, columns], (k, k, len(RULES))).copy()
+    pricer = OperationsPricer(everything, calendar, cutoffs, scenario)  # the forecast learns nothing
+    played = pricer(rows).extras
     # only the seasonal rate learns: a fold whose months come out otherwise without its season
     # plays the seasons again under its own rules (beside one cutoff, the cheapest to carry)
+    folds = {}
     seasonal = baseline_actions(everything, scenario.costs)["seasonal_rate"][evaluated]
-    for f, h in enumerate(learnt):
+    for f, h in enumerate(_learnt(history) if rules_of is None else ()):
         if not np.array_equal(baseline_actions(h, scenario.costs)["seasonal_rate"][evaluated], seasonal):
-            rules[f] = OperationsPricer(h, calendar, cutoffs[:1], scenario)(rows).baselines[:, columns]
-    return SeasonCosts(model=block.model, rules=rules, occasions=np.full(k, calendar.n_occasions, dtype=np.int64),
-                       seasons=seasons, cutoffs=cutoffs)
+            fold = OperationsPricer(h, calendar, cutoffs[:1], scenario)
+            folds[f] = (fold.rules, fold(rows).extras)
+
+    def at(prices: RulePrices | None = None) -> SeasonCosts:
+        total = reprice(pricer.rules, played, prices)[0]  # (k, n_lanes)
+        if rules_of is not None:
+            return dataclasses.replace(rules_of, model=total[:, :n_cut], cutoffs=cutoffs)
+        rules = np.broadcast_to(total[:, columns], (k, k, len(RULES))).copy()
+        for f, (own, extras) in folds.items():
+            rules[f] = reprice(own, extras, prices)[0][:, [c - n_cut + 1 for c in columns]]
+        return SeasonCosts(model=total[:, :n_cut], rules=rules, occasions=np.full(k, calendar.n_occasions,
+                                                                                  dtype=np.int64),
+                           seasons=seasons, cutoffs=cutoffs)
+    return at
 
 
 def season_pricer(history: History, cutoffs: np.ndarray) -> Callable[[Costs], SeasonCosts]:

@@ -29,10 +29,10 @@ from collections.abc import Mapping
 
 import numpy as np
 
-from .operating_rules import WORK_UNIT, Rules
+from .operating_rules import PRICE_KEYS, WORK_UNIT, Rules
 from .season_cost import days_late, played_outcome
 
-__all__ = ["PRICED_COUNTS", "price_terms", "price_counts", "priced_by_terms"]
+__all__ = ["PRICED_COUNTS", "price_terms", "moving_prices", "price_counts", "priced_by_terms"]
 
 PRICED_COUNTS = ("days_out", "overtime_days", "standby_days", "spoiled_days_out", "days_late", "left_units")
 """The whole counts of a played season that the prices multiply (all crews together, except
@@ -54,6 +54,15 @@ def price_terms(rules: Rules) -> dict[str, tuple[tuple[str, float], ...]]:
     if rules.limited:
         terms["unfinished_cost"] = (("left_units", 1.0 / WORK_UNIT),)
     return terms
+
+
+def moving_prices(rules: Rules, standby_given: bool) -> list[str]:
+    """The prices a reader may move, in :data:`~simulator.rules.operating_rules.PRICE_KEYS` order:
+    those that play a part under ``rules`` (:func:`price_terms`), ``standby_rate`` only when the
+    scenario gives it (``standby_given``; else standby days are paid the day rate, and follow it).
+    The report's what-if shows them as fields; the sensitivity moves them."""
+    terms = price_terms(rules)
+    return [key for key in PRICE_KEYS if key in terms and (key != "standby_rate" or standby_given)]
 
 
 def price_counts(rules: Rules, extras: Mapping[str, np.ndarray]) -> dict[str, np.ndarray]:
