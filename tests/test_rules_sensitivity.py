@@ -45,8 +45,13 @@ def _with_price(scenario, name: str, value: float):
     return scenario.model_copy(update={"operations": scenario.operations.model_copy(update={name: value})})
 
 
-def _case(path: str, objective: str = "mean", **operations):
+def _case(path: str, objective: str = "mean", ranged: bool = False, **operations):
+    """A scenario, its history and a run. The rules demo gives its day rate as a range; unless
+    ``ranged``, every range is fixed at its PERT mean (the value the schema holds in its place), so
+    a full run at a moved price is the exact reference for the sensitivity's ends."""
     scenario = read_scenario(path)
+    if not ranged:
+        scenario = scenario.model_copy(update={"ranges": {}})
     scenario = scenario.model_copy(update={"decision": scenario.decision.model_copy(update={"objective": objective})})
     if operations:
         scenario = scenario.model_copy(update={"operations": scenario.operations.model_copy(update=operations)})
@@ -110,6 +115,15 @@ def test_a_price_given_as_a_range_is_moved_to_its_ends_around_its_mean(rules_dem
     day = next(m for m in moved if m.key == "operations.day_rate")
     assert (day.base, day.low, day.high, day.varied) == (Range.mean, 600.0, 1200.0, "range")
     assert day.search == (0.0, REACH * Range.mean)
+
+
+def test_the_demos_day_rate_range_is_moved_to_its_ends_and_held_at_its_mean(tmp_path):
+    """The rules demo as shipped: day_rate = {low = 720, likely = 790, high = 920}, PERT mean
+    (720 + 4 x 790 + 920) / 6 = 800 (Malcolm et al. 1959); the other prices by a quarter."""
+    scenario, _, result = _case("scenarios/line_marking_rules.toml", ranged=True)
+    day = next(c for c in result.sensitivity.costs if c.key == "operations.day_rate")
+    assert (day.base, day.low.value, day.high.value, day.varied) == (pytest.approx(800.0), 720.0, 920.0, "range")
+    assert {c.varied for c in result.sensitivity.costs if c.key != "operations.day_rate"} == {"25%"}
 
 
 # ---- the ends: repricing equals a full run ---------------------------------------------------------
