@@ -47,7 +47,7 @@ from ..pricing.contingency import Contingency
 from ..pricing.decision import (OBJECTIVE_COLUMN, cheaper, lowest, money_tolerance, objective_cost,
                                 season_cost_columns)
 from ..replay.resample import Calendar
-from .verdict import judge, season_pricer
+from .verdict import season_pricer, worth_using
 
 __all__ = ["VARY", "REACH", "End", "Switch", "CostSensitivity", "Sensitivity", "search_span", "choose",
            "cost_ends", "switching_value", "verdict_at", "sensitivity", "of_run", "NOTES"]
@@ -265,7 +265,7 @@ def verdict_at(history: History, calendar: Calendar, cutoffs: np.ndarray, rule: 
     priced = season_pricer(history, cutoffs)
 
     def use_forecast(costs: Costs) -> bool:
-        return judge(priced(costs), calendar.n_occasions, rule).use_forecast
+        return worth_using(priced(costs), calendar.n_occasions)
     return use_forecast
 
 
