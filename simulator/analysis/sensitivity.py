@@ -61,8 +61,6 @@ _STEPS = 18  # bisection steps: to within the span / 8 / 2^18, two millionths of
 NOTES = {
     "operations": ("No sensitivity to the costs under [operations]: the season costs come from the operating "
                    "rules, not from the [costs] matrix, and the rules' prices are not varied yet."),
-    "sites": ("No sensitivity to the costs with a site column yet: run a site's history alone to see which of "
-              "its cost estimates matters."),
     "calibrated": ("No sensitivity to the costs in the calibrated mode yet: use mode = \"replay\" to see which "
                    "cost estimate matters."),
 }
@@ -271,8 +269,9 @@ def verdict_at(history: History, calendar: Calendar, cutoffs: np.ndarray, rule: 
 
 def of_run(scenario: Scenario, history: History, calendar: Calendar, counts: ReplicateCounts | None,
            band: tuple[float, float], rule: str | None, why_not: str | None = None) -> Sensitivity:
-    """The sensitivity of a single-site run from its replicate counts, or a note (:data:`NOTES`,
-    keyed by ``why_not``) saying why there is none. ``rule`` is the verdict's best rule without the
+    """The sensitivity of a single-site run from its replicate counts (with a site column, each
+    site's: :mod:`simulator.analysis.site_sensitivity`), or a note (:data:`NOTES`, keyed by
+    ``why_not``) saying why there is none. ``rule`` is the verdict's best rule without the
     forecast (None: no verdict); ``band`` today's near-optimal band."""
     if why_not is not None or counts is None:
         return Sensitivity(costs=(), note=NOTES[why_not or "calibrated"])
