@@ -19,9 +19,11 @@ import argparse
 import statistics
 import time
 
-import simulator.run as run_module
+import importlib
 from bench_sites import FIXED, sites_frame
 from simulator import history_from_frame, run_history, scenario_from_text
+
+run_module = importlib.import_module("simulator.run")  # the module, not the function simulator.run
 
 
 def _peak_mb() -> float:
