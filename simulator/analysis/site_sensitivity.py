@@ -40,6 +40,7 @@ With ``[operations]`` (at any site) or the calibrated mode there is no sensitivi
 
 from __future__ import annotations
 
+import dataclasses
 import math
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass
@@ -56,7 +57,7 @@ from ..pricing.counts import ReplicateCounts
 from ..pricing.decision import cheaper
 from ..replay.resample import Calendar
 from .sensitivity import Sensitivity, Switch, cost_ends, of_run, search_span, switching_value
-from .verdict import season_pricer, together, worth_using
+from .verdict import RULES, SeasonTable, season_pricer, together, worth_using
 
 __all__ = ["CLOSEST", "PortfolioEnd", "FirstSite", "PortfolioCost", "Closest", "PortfolioSensitivity", "of_site",
            "portfolio_columns", "portfolio_sensitivity", "portfolio_verdict", "shared_costs", "N_COLUMNS"]
@@ -273,18 +274,44 @@ def portfolio_verdict(scenario: Scenario, sites: Sequence[tuple[str, Scenario, H
     """The portfolio's verdict (one cutoff and one rule for every site, on their past seasons added
     together: :func:`~simulator.analysis.verdict.together`) with one of the scenario's costs moved
     for the sites that share it, others held (ranges at their means); None when the sites' past
-    seasons differ or are fewer than two, as the run then has no portfolio verdict."""
-    priced = [season_pricer(history, cutoffs) for _, _, history in sites]
+    seasons differ or are fewer than two, as the run then has no portfolio verdict.
+
+    Quick for many sites: a season's cost is linear in the costs for the model and the fixed rules,
+    so moving cost X by d adds d times the sharing sites' X counts to today's totals; only the
+    seasonal rate (its months depend on the break-even probability) is priced again, site by site.
+    """
+    tables = [season_pricer(history, cutoffs) for _, _, history in sites]
     held = [site.costs for _, site, _ in sites]  # a range's mean stands in its place
     shared = [shared_costs(scenario, name) for name, _, _ in sites]
-    today = [p(costs) for p, costs in zip(priced, held)]
+    today = [table(costs) for table, costs in zip(tables, held)]
     joint = together(today)
     if joint is None or joint.seasons.size < 2:
         return None
     occasions = calendar.n_occasions * len(sites)
+    seasonal, fixed = RULES.index("seasonal_rate"), [RULES.index(name) for name in SeasonTable.FIXED]
+    moved = {}  # per cost: the sharing sites, and their counts of that cell added up
+
+    def sums(key: str):
+        if key not in moved:
+            sharing = [i for i, keys in enumerate(shared) if key in keys]
+            cell = _CELL[key]
+            moved[key] = (sharing, sum(getattr(tables[i].model_counts, cell).astype(np.float64) for i in sharing),
+                          np.stack([sum(getattr(tables[i].fixed_counts[name], cell) for i in sharing)
+                                    for name in SeasonTable.FIXED], axis=-1),
+                          sum(today[i].rules[:, :, seasonal] for i in sharing))
+        return moved[key]
 
     def at(key: str, value: float) -> bool:
-        parts = [p(costs.model_copy(update={key: value})) if key in keys else fixed
-                 for p, costs, keys, fixed in zip(priced, held, shared, today)]
-        return worth_using(together(parts), occasions)
+        sharing, model_cells, fixed_cells, seasonal_today = sums(key)
+        if not sharing:
+            return worth_using(joint, occasions)
+        delta = value - float(getattr(scenario.costs, key))
+        rules = joint.rules.copy()
+        rules[:, :, fixed] += delta * fixed_cells[None, :, :]
+        rules[:, :, seasonal] += sum(tables[i].seasonal(held[i].model_copy(update={key: value})) for i in sharing) \
+            - seasonal_today
+        return worth_using(dataclasses.replace(joint, model=joint.model + delta * model_cells, rules=rules), occasions)
     return at
+
+
+_CELL = {"hit": "hits", "false_alarm": "false_alarms", "miss": "misses", "correct_negative": "correct_negatives"}

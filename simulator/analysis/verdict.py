@@ -44,7 +44,6 @@ from __future__ import annotations
 import dataclasses
 import functools
 import math
-from collections.abc import Callable
 from dataclasses import dataclass
 
 import numpy as np
@@ -57,7 +56,7 @@ from ..replay.resample import Calendar
 from ..inputs.scenario import Scenario
 from ..inputs.scenario_costs import Costs
 
-__all__ = ["RULES", "RULE_WORDS", "CONFIDENCE", "SeasonCosts", "Verdict", "season_costs", "season_pricer", "judge", "worth_using",
+__all__ = ["RULES", "RULE_WORDS", "CONFIDENCE", "SeasonCosts", "Verdict", "season_costs", "season_pricer", "SeasonTable", "judge", "worth_using",
            "best_rule", "together"]
 
 RULES = ("never_act", "always_act", "persistence", "seasonal_rate")
@@ -261,47 +260,60 @@ def season_costs(history: History, calendar: Calendar, cutoffs: np.ndarray, scen
                        seasons=seasons, cutoffs=cutoffs)
 
 
-def season_pricer(history: History, cutoffs: np.ndarray) -> Callable[[Costs], SeasonCosts]:
+def season_pricer(history: History, cutoffs: np.ndarray) -> "SeasonTable":
     """Without ``[operations]``: each evaluated season's costs (:func:`season_costs`) as a function
-    of the ``[costs]`` matrix. What does not depend on the costs is counted once: each season's
-    classification counts at every cutoff and under the fixed rules, each season's events and
-    non-events by calendar month, each fold's monthly event rates. Other costs then only price
-    those counts (:func:`~simulator.pricing.costs.price`; a season's cost is the sum over cells of
-    count x cost), so they are priced quickly (:mod:`simulator.analysis.sensitivity` prices many)."""
-    seasons = history.seasons
-    evaluated = history.evaluated
-    k = seasons.size
-    index = np.searchsorted(seasons, history.season[evaluated])  # each evaluated row's season
-    p, event = history.p[evaluated], history.event[evaluated]
-    per_season = [count_at_cutoffs(p[index == i], event[index == i], cutoffs) for i in range(k)]
-    model_counts = Contingency(*(np.stack([getattr(c, cell) for c in per_season]) for cell in _CELLS))
-    fixed = {"never_act": np.zeros(event.size, dtype=bool), "always_act": np.ones(event.size, dtype=bool),
-             "persistence": history.prev_event[evaluated]}
-    # each fixed rule's counts per season, (k,) per cell, in RULES order
-    fixed_counts = {name: Contingency(*(np.bincount(index, weights=cell, minlength=k)
-                                        for cell in _cells_of(act, event))) for name, act in fixed.items()}
-    month = monthly_event_rate(history)[0][evaluated]
-    rates = np.stack([monthly_event_rate(h)[1] for h in _learnt(history)])  # (k folds, 12), without its season
-    # events and non-events of each season in each calendar month, (k, 12)
-    by_month = index * 12 + month
-    events = np.bincount(by_month, weights=event.astype(np.float64), minlength=k * 12).reshape(k, 12)
-    others = np.bincount(by_month, weights=(~event).astype(np.float64), minlength=k * 12).reshape(k, 12)
-    occasions = np.bincount(index, minlength=k)
-    seasonal = RULES.index("seasonal_rate")
+    of the ``[costs]`` matrix (:class:`SeasonTable`)."""
+    return SeasonTable(history, cutoffs)
 
-    def at(costs: Costs) -> SeasonCosts:
-        rules = np.empty((k, k, len(RULES)))
-        for r, name in enumerate(RULES):
-            if name in fixed:  # the same whichever season is held out
-                rules[:, :, r] = price(fixed_counts[name], costs)[None, :]
+
+class SeasonTable:
+    """What each evaluated season holds that does not depend on the costs, counted once: its
+    classification counts at every cutoff (``model_counts``, (k, n_cutoffs) per cell) and under the
+    fixed rules (``fixed_counts``, (k,) per cell), its events and non-events by calendar month
+    (``events``, ``others``, (k, 12)), and each fold's monthly event rates (``rates``, (k, 12),
+    learnt without its season). Called with costs, it gives :class:`SeasonCosts`: other costs only
+    price those counts (:func:`~simulator.pricing.costs.price`; a season's cost is the sum over cells
+    of count x cost), so they are priced quickly (:mod:`simulator.analysis.sensitivity` prices many)."""
+
+    FIXED = ("never_act", "always_act", "persistence")  # the rules that learn nothing
+
+    def __init__(self, history: History, cutoffs: np.ndarray):
+        seasons = history.seasons
+        evaluated = history.evaluated
+        k = seasons.size
+        index = np.searchsorted(seasons, history.season[evaluated])  # each evaluated row's season
+        p, event = history.p[evaluated], history.event[evaluated]
+        per_season = [count_at_cutoffs(p[index == i], event[index == i], cutoffs) for i in range(k)]
+        self.model_counts = Contingency(*(np.stack([getattr(c, cell) for c in per_season]) for cell in _CELLS))
+        acts = {"never_act": np.zeros(event.size, dtype=bool), "always_act": np.ones(event.size, dtype=bool),
+                "persistence": history.prev_event[evaluated]}
+        self.fixed_counts = {name: Contingency(*(np.bincount(index, weights=cell, minlength=k)
+                                                 for cell in _cells_of(acts[name], event))) for name in self.FIXED}
+        month = monthly_event_rate(history)[0][evaluated]
+        self.rates = np.stack([monthly_event_rate(h)[1] for h in _learnt(history)])  # (k folds, 12)
+        by_month = index * 12 + month
+        self.events = np.bincount(by_month, weights=event.astype(np.float64), minlength=k * 12).reshape(k, 12)
+        self.others = np.bincount(by_month, weights=(~event).astype(np.float64), minlength=k * 12).reshape(k, 12)
+        self.occasions = np.bincount(index, minlength=k)
+        self.seasons, self.cutoffs = seasons, cutoffs
+
+    def seasonal(self, costs: Costs) -> np.ndarray:
+        """(k folds, k seasons): each season's cost under the seasonal rate learnt without fold f."""
+        k = self.seasons.size
         # fold f acts in month m when its rate there reaches the break-even probability
-        acts = seasonal_actions(np.arange(k * 12), rates.ravel(), costs).reshape(k, 12).astype(np.float64)
-        acting = events * costs.hit + others * costs.false_alarm  # (k seasons, 12): cost if acting all month
-        idle = events * costs.miss + others * costs.correct_negative
-        rules[:, :, seasonal] = acts @ acting.T + (1.0 - acts) @ idle.T
-        return SeasonCosts(model=price(model_counts, costs), rules=rules, occasions=occasions, seasons=seasons,
-                           cutoffs=cutoffs)
-    return at
+        acts = seasonal_actions(np.arange(k * 12), self.rates.ravel(), costs).reshape(k, 12).astype(np.float64)
+        acting = self.events * costs.hit + self.others * costs.false_alarm  # (k seasons, 12): acting all month
+        idle = self.events * costs.miss + self.others * costs.correct_negative
+        return acts @ acting.T + (1.0 - acts) @ idle.T
+
+    def __call__(self, costs: Costs) -> SeasonCosts:
+        k = self.seasons.size
+        rules = np.empty((k, k, len(RULES)))
+        for name in self.FIXED:  # the same whichever season is held out
+            rules[:, :, RULES.index(name)] = price(self.fixed_counts[name], costs)[None, :]
+        rules[:, :, RULES.index("seasonal_rate")] = self.seasonal(costs)
+        return SeasonCosts(model=price(self.model_counts, costs), rules=rules, occasions=self.occasions,
+                           seasons=self.seasons, cutoffs=self.cutoffs)
 
 
 def _cells_of(act: np.ndarray, event: np.ndarray) -> tuple[np.ndarray, ...]:
