@@ -19,7 +19,7 @@ from .analysis.selection import Selection
 from .analysis.sensitivity import Sensitivity
 from .analysis.site_sensitivity import PortfolioSensitivity
 from .analysis.stress import StressResult
-from .analysis.verdict import SeasonCosts, Verdict
+from .analysis.verdict import SeasonCosts, SeasonTable, Verdict
 from .analysis.winners import Contest
 from .inputs.history import History
 from .inputs.scenario import Scenario
@@ -71,6 +71,8 @@ class SiteResult:
     # what it adds to the portfolio's ends, carried only until the tasks add it up
     sensitivity: Sensitivity | None = None
     portfolio_columns: np.ndarray | None = None
+    # with the sensitivity: its past seasons' counts (verdict.SeasonTable), for the portfolio's verdict
+    season_table: SeasonTable | None = None
 
     @property
     def reference(self) -> str:

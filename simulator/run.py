@@ -336,8 +336,7 @@ def _portfolio_sensitivity(scenario: Scenario, sites: Sequence[SiteResult], colu
     """Which cost estimate matters for the portfolio and at each site, or a note under ``[operations]``."""
     if columns is None:
         return PortfolioSensitivity(costs=(), note=NOTES["operations"])
-    verdict = portfolio_verdict(scenario, [(site.name, site.scenario, site.history) for site in sites], calendar,
-                                scenario.cutoffs)
+    verdict = portfolio_verdict(scenario, [(site.name, site.scenario, site.season_table) for site in sites], calendar)
     return portfolio_sensitivity(scenario, [site.name for site in sites], [site.sensitivity for site in sites],
                                  columns, verdict)
 

@@ -4,8 +4,8 @@ A planner with 40 to 200 sites asks two things of the cost estimates. First, whi
 scenario's estimates (the four ``[costs]``) matters for the whole portfolio; second, for each site,
 which of its own does. So a run with a site column gives both:
 
-- **Each site's own sensitivity** (:func:`of_site`), made by
-  :func:`simulator.analysis.sensitivity.of_run` on the site's replicate counts, its own costs
+- **Each site's own sensitivity** (:func:`of_site`), made as
+  :func:`simulator.analysis.sensitivity.of_run` makes it, on the site's replicate counts, its own costs
   (``Scenario.for_site``: its ``[sites."<name>".costs]`` and ranges merged over the scenario's), its
   near-optimal band and its verdict on its own past seasons (:mod:`simulator.analysis.verdict`), so
   a site's rows are those a run of that site's history alone gives (a site with a row on every
@@ -47,7 +47,6 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..inputs.history import History
 from ..inputs.scenario import Scenario
 from ..inputs.scenario_costs import COST_KEYS, Costs
 from ..inputs.scenario_types import BASELINES
@@ -56,8 +55,8 @@ from ..pricing.costs import price
 from ..pricing.counts import ReplicateCounts
 from ..pricing.decision import cheaper
 from ..replay.resample import Calendar
-from .sensitivity import Sensitivity, Switch, cost_ends, of_run, search_span, switching_value
-from .verdict import RULES, SeasonTable, season_pricer, together, worth_using
+from .sensitivity import Sensitivity, Switch, cost_ends, search_span, sensitivity, switching_value
+from .verdict import RULES, SeasonTable, together, worth_using
 
 __all__ = ["CLOSEST", "PortfolioEnd", "FirstSite", "PortfolioCost", "Closest", "PortfolioSensitivity", "of_site",
            "portfolio_columns", "portfolio_sensitivity", "portfolio_verdict", "shared_costs", "N_COLUMNS"]
@@ -144,11 +143,17 @@ def shared_costs(scenario: Scenario, site: str) -> tuple[str, ...]:
     return tuple(key for key in COST_KEYS if key not in own)
 
 
-def of_site(scenario: Scenario, history: History, calendar: Calendar, counts: ReplicateCounts,
-            band: tuple[float, float], rule: str | None) -> Sensitivity:
-    """One site's own sensitivity: :func:`~simulator.analysis.sensitivity.of_run` on its scenario
-    (``Scenario.for_site``), its history alone and its replicate counts, as a run of it alone."""
-    return of_run(scenario, history, calendar, counts, band, rule)
+def of_site(scenario: Scenario, calendar: Calendar, counts: ReplicateCounts, band: tuple[float, float],
+            rule: str | None, table: SeasonTable) -> Sensitivity:
+    """One site's own sensitivity, as :func:`~simulator.analysis.sensitivity.of_run` makes it for a
+    run of that site alone: its scenario (``Scenario.for_site``), its replicate counts, and its
+    verdict on its own past seasons priced from ``table`` (``season_pricer`` of its history, which
+    the site's own verdict was priced from; ``rule`` None: no verdict)."""
+    ranges = {key: r for key, r in scenario.cost_ranges().items() if r.high > r.low}
+    verdict = None if rule is None else (lambda costs: worth_using(table(costs), calendar.n_occasions))
+    return sensitivity(counts, scenario.costs, reference=scenario.simulation.reference,
+                       objective=scenario.decision.objective, cutoffs=scenario.cutoffs, band=band,
+                       use_forecast=verdict, ranges=ranges)
 
 
 def portfolio_columns(scenario: Scenario, counts: ReplicateCounts, own: Sensitivity, shared: Sequence[str],
@@ -269,8 +274,8 @@ def _closest(names: Sequence[str], own: Sequence[Sensitivity]) -> tuple[Closest,
     return tuple(sorted(nearest, key=lambda c: (c.relative, c.site))[:CLOSEST])
 
 
-def portfolio_verdict(scenario: Scenario, sites: Sequence[tuple[str, Scenario, History]], calendar: Calendar,
-                      cutoffs: np.ndarray) -> Callable[[str, float], bool] | None:
+def portfolio_verdict(scenario: Scenario, sites: Sequence[tuple[str, Scenario, SeasonTable]],
+                      calendar: Calendar) -> Callable[[str, float], bool] | None:
     """The portfolio's verdict (one cutoff and one rule for every site, on their past seasons added
     together: :func:`~simulator.analysis.verdict.together`) with one of the scenario's costs moved
     for the sites that share it, others held (ranges at their means); None when the sites' past
@@ -280,7 +285,7 @@ def portfolio_verdict(scenario: Scenario, sites: Sequence[tuple[str, Scenario, H
     so moving cost X by d adds d times the sharing sites' X counts to today's totals; only the
     seasonal rate (its months depend on the break-even probability) is priced again, site by site.
     """
-    tables = [season_pricer(history, cutoffs) for _, _, history in sites]
+    tables = [table for _, _, table in sites]  # each site's past seasons (SiteResult.season_table)
     held = [site.costs for _, site, _ in sites]  # a range's mean stands in its place
     shared = [shared_costs(scenario, name) for name, _, _ in sites]
     today = [table(costs) for table, costs in zip(tables, held)]

@@ -16,7 +16,7 @@ import pandas as pd
 from ..analysis.selection import Selection, select_honestly
 from ..analysis.site_sensitivity import of_site, portfolio_columns
 from ..analysis.stress import StressResult, run_stress
-from ..analysis.verdict import best_rule, judge, season_costs
+from ..analysis.verdict import best_rule, judge, season_costs, season_pricer
 from ..analysis.winners import contest
 from ..execution.executor import Executor
 from ..inputs.scenario_costs import break_even_probability, cost_warnings
@@ -171,14 +171,16 @@ def _site_result(work: "_Work", k: int, block: PricedBlock) -> SiteResult:
         operations = result.summary(decision.recommended_index)
     name = history.site_names[0]
     warnings = tuple(f'site "{name}" {w}' for w in cost_warnings(costs, scenario.decision.action))
-    seasons = season_costs(history, work.resampler.calendar, cutoffs, scenario)
+    # with fixed costs each season's counts are kept (verdict.SeasonTable) for the sensitivity to reprice
+    past = season_pricer(history, cutoffs) if scenario.operations is None else None
+    seasons = season_costs(history, work.resampler.calendar, cutoffs, scenario) if past is None else past(costs)
     rule = best_rule({name: float(cost.mean()) for name, cost in baseline_cost.items()})
     verdict = judge(seasons, n_occ, rule)
     counts, _ = from_extras(block.extras, block.n_events)  # kept with fixed costs (work.keep_counts)
     sensitivity = columns = None
     if counts is not None:  # which of its cost estimates matters, and what it adds to the portfolio's
-        sensitivity = of_site(scenario, history, work.resampler.calendar, counts, decision.near_optimal_band,
-                              rule if verdict.n_seasons >= 2 else None)
+        sensitivity = of_site(scenario, work.resampler.calendar, counts, decision.near_optimal_band,
+                              rule if verdict.n_seasons >= 2 else None, past)
         columns = portfolio_columns(scenario, counts, sensitivity, work.shared_costs[k], cutoffs)
     own_dates = np.unique(history.dates[history.evaluated]).size
     return SiteResult(name=name, scenario=scenario, history=history, theoretical_cutoff=p_star,
@@ -186,6 +188,7 @@ def _site_result(work: "_Work", k: int, block: PricedBlock) -> SiteResult:
                       model_cost=block.model[:, decision.recommended_index].copy(),
                       baseline_cost=baseline_cost, missing_dates=work.resampler.n_dates - own_dates,
                       operations=operations, warnings=warnings, verdict=verdict, season_costs=seasons,
+                      season_table=past if counts is not None else None,
                       own_cutoffs=own, contest=ranked, sensitivity=sensitivity, portfolio_columns=columns)
 
 
