@@ -198,3 +198,15 @@ def test_sites_under_operating_rules_keep_a_note(frame):
     _, result = _run(frame, text, replicates=40)
     assert result.sensitivity.costs == () and "[operations]" in result.sensitivity.note
     assert all(site.sensitivity is None for site in result.sites)
+
+
+def test_a_hostile_site_name_is_plain_text_in_the_report_and_the_files(frame):
+    # a site's name is untrusted text: escaped in the page (jinja2's autoescape), kept as written in the files
+    name = '<img src=x onerror="alert(1)">'
+    hostile = frame.assign(site=frame["site"].replace({"North": name}))
+    _, result = _run(hostile, SITES_TOML + SOUTH_MISS, replicates=100)
+    files = render_files(result)
+    page = files["report.html"].decode()
+    assert name not in page and "&lt;img src=x" in page
+    table = pd.read_csv(io.BytesIO(files["sensitivity.csv"]), keep_default_na=False)
+    assert name in set(table["site"])
