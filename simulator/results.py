@@ -17,8 +17,9 @@ from .analysis.forecasts import Comparison
 from .analysis.calibration import Calibration
 from .analysis.selection import Selection
 from .analysis.sensitivity import Sensitivity
+from .analysis.site_sensitivity import PortfolioSensitivity
 from .analysis.stress import StressResult
-from .analysis.verdict import SeasonCosts, Verdict
+from .analysis.verdict import SeasonCosts, SeasonTable, Verdict
 from .analysis.winners import Contest
 from .inputs.history import History
 from .inputs.scenario import Scenario
@@ -65,6 +66,13 @@ class SiteResult:
     # and which one wins here, each at its own cutoff (simulator.analysis.winners)
     own_cutoffs: tuple[int, ...] = ()
     contest: Contest | None = None
+    # which of its cost estimates matters (analysis/site_sensitivity.py): its own sensitivity, as a
+    # run of it alone gives it; None under [operations]. ``portfolio_columns`` (n_replicates, 18) is
+    # what it adds to the portfolio's ends, carried only until the tasks add it up
+    sensitivity: Sensitivity | None = None
+    portfolio_columns: np.ndarray | None = None
+    # with the sensitivity: its past seasons' counts (verdict.SeasonTable), for the portfolio's verdict
+    season_table: SeasonTable | None = None
 
     @property
     def reference(self) -> str:
@@ -163,8 +171,9 @@ class RunResult:
     # fixed costs in the replay mode only; None with a site column, [operations] or mode = "calibrated"
     replicate_counts: ReplicateCounts | None = None
     # which cost estimate matters: each cost moved alone, its ends and switching values; or a note
-    # saying why a run has none (analysis/sensitivity.py)
-    sensitivity: Sensitivity | None = None
+    # saying why a run has none (analysis/sensitivity.py); with a site column the portfolio's and
+    # each site's (analysis/site_sensitivity.py)
+    sensitivity: Sensitivity | PortfolioSensitivity | None = None
     # with costs given as ranges (one site): the spread of the recommended cutoff's season cost
     # split into the weather's part and the cost ranges' part
     cost_spread: CostSpread | None = None

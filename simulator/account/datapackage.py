@@ -83,7 +83,8 @@ _COLUMNS: dict[str, tuple[str, str]] = {
     "prob_moving_saves": ("share of replicate seasons in which moving to the best cutoff saves", "share"),
     "break_even": ("cutoff ranges whose mean season cost beats the reference", "probability"),
     "confident_break_even": ("cutoff ranges that beat the reference in 95% of replicate seasons", "probability"),
-    "site": ("the site's name, as the history's site column writes it", "none"),
+    "site": ("the site's name, as the history's site column writes it (in sensitivity.csv empty on the rows of "
+             "the whole portfolio)", "none"),
     "rows": ("rows of the site in the history", "count"),
     "evaluated_rows": ("the site's rows inside the season with an outcome", "count"),
     "missing_dates": ("dates other sites have and this site lacks", "count"),
@@ -155,9 +156,11 @@ _COLUMNS: dict[str, tuple[str, str]] = {
     "base_value": ("the cost as the run priced it (for a range, its mean)", "{cur}, per value_unit"),
     "low_value": ("the cost at its low end", "{cur}, per value_unit"),
     "high_value": ("the cost at its high end", "{cur}, per value_unit"),
-    "cutoff_at_low": ("the cutoff chosen again with the cost at its low end", "probability"),
+    "cutoff_at_low": ("the cutoff chosen again with the cost at its low end (empty on a portfolio's rows: each site "
+                      "chooses its own)", "probability"),
     "cutoff_at_high": ("the cutoff chosen again with the cost at its high end", "probability"),
-    "mean_saving_at_low": ("mean saving against the reference at cutoff_at_low, cost at its low end",
+    "mean_saving_at_low": ("mean saving against the reference at cutoff_at_low, cost at its low end (a portfolio's "
+                           "row: the sites' total, each at its own cutoff chosen again)",
                            "{cur} per season"),
     "mean_saving_at_high": ("mean saving against the reference at cutoff_at_high, cost at its high end",
                             "{cur} per season"),
@@ -167,7 +170,8 @@ _COLUMNS: dict[str, tuple[str, str]] = {
     "prob_saving_at_low": ("share of replicate seasons in which cutoff_at_low saves, cost at its low end", "share"),
     "prob_saving_at_high": ("share of replicate seasons in which cutoff_at_high saves, cost at its high end",
                             "share"),
-    "verdict_switch_down": ("the cost below today's at which the verdict (use the forecast or not) changes; "
+    "verdict_switch_down": ("the cost below today's at which the verdict (use the forecast or not; a portfolio's row: "
+                            "the portfolio's verdict) changes; "
                             "empty: not from search_low up", "{cur}, per value_unit"),
     "verdict_switch_up": ("the cost above today's at which the verdict changes; empty: not up to search_high",
                           "{cur}, per value_unit"),
@@ -179,6 +183,19 @@ _COLUMNS: dict[str, tuple[str, str]] = {
                    "a cost of 0 of [costs]; a rule's price is never below 0)", "{cur}, per value_unit"),
     "search_high": ("highest cost the switching values were looked for at (10 times the cost, or the largest "
                     "cost)", "{cur}, per value_unit"),
+    # sensitivity.csv with a site column: the portfolio's rows (site empty)
+    "sites_sharing": ("sites that take this cost from the scenario's [costs] (a site's own cost does not move)",
+                      "count of sites"),
+    "sites_moved_at_low": ("sites whose own recommended cutoff changes with the cost at its low end", "count of sites"),
+    "sites_moved_at_high": ("sites whose own recommended cutoff changes with the cost at its high end",
+                            "count of sites"),
+    "first_site_switch_down": ("the cost below today's at which the first site's own advice changes (its verdict, or "
+                               "its cutoff leaving its near-optimal band); empty: none within the search",
+                               "{cur}, per value_unit"),
+    "first_site_down": ("the site whose advice changes at first_site_switch_down", "none"),
+    "first_site_switch_up": ("the cost above today's at which the first site's own advice changes; empty: none "
+                             "within the search", "{cur}, per value_unit"),
+    "first_site_up": ("the site whose advice changes at first_site_switch_up", "none"),
 }
 
 

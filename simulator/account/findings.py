@@ -22,6 +22,7 @@ from .finding import Finding
 from .forecast_choice import SECTION_KEYS, forecast_findings
 from .cost_doubt import cost_doubt
 from ..inputs.history_calendar import season_start_month
+from .portfolio_sensitivity_view import is_portfolio, portfolio_sentence
 from .sensitivity_view import sensitivity_sentence
 from ..notation.prose import cutoff_decimals, cutoff_text, format_value, money, money_range, ranges_text, share
 
@@ -245,7 +246,8 @@ def account(summary: Mapping[str, Any]) -> Account:
             f"total over the history at cutoff {at} (recommended.historical_cost)", first=False))
     sensitivity = s.get("sensitivity")
     if sensitivity:  # which cost estimate matters (analysis/sensitivity.py), or why a run has none
-        said = sensitivity_sentence(sensitivity, cur, decimals, unit)
+        said = (portfolio_sentence(sensitivity, cur, unit) if is_portfolio(sensitivity)
+                else sensitivity_sentence(sensitivity, cur, decimals, unit))
         out.append(Finding("sensitivity", "Which cost estimate matters", said, said,
                            "per season against the reference, each cost moved alone (sensitivity.csv)", first=False))
     title = (f"{sc['name']}: {action} when the probability of \u201c{event}\u201d is at least the cutoff")

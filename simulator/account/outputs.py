@@ -25,6 +25,7 @@ from .datapackage import datapackage
 from .file_names import table_names
 from .cautions import cautions
 from ..pricing.decision import distribution
+from .portfolio_sensitivity_view import is_portfolio, portfolio_entry, portfolio_frame
 from .sensitivity_view import sensitivity_entry, sensitivity_frame
 from ..results import RunResult
 from ..analysis.calibration import Calibration
@@ -125,7 +126,8 @@ def summary(result: RunResult) -> dict[str, Any]:
         out.update(result.comparison.summary(scenario.currency, scenario.forecast_prices))
     out.update(_cost_ranges_entry(result))
     if result.sensitivity is not None:  # which cost estimate matters (or why a run has no such table)
-        out["sensitivity"] = sensitivity_entry(result.sensitivity)
+        out["sensitivity"] = (portfolio_entry(result.sensitivity) if result.portfolio is not None
+                              else sensitivity_entry(result.sensitivity))
     out = _clean(out)
     out["account"] = [finding.as_dict() for finding in account(out).findings]
     return out
@@ -184,7 +186,8 @@ def render_files(result: RunResult) -> dict[str, bytes]:
         "selection.csv": lambda: _csv(_selection_frame(result.selection)),
         "sites.csv": lambda: _csv(result.portfolio.table),
         "forecasts.csv": lambda: _csv(result.comparison.table()),
-        "sensitivity.csv": lambda: _csv(sensitivity_frame(contents["sensitivity"], result.scenario.currency)),
+        "sensitivity.csv": lambda: _csv((portfolio_frame if is_portfolio(contents["sensitivity"])
+                                         else sensitivity_frame)(contents["sensitivity"], result.scenario.currency)),
     }
     scenario = result.scenario
     render["datapackage.json"] = lambda: datapackage(files, scenario.slug, scenario.name, scenario.currency)

@@ -38,6 +38,7 @@ from .report_sections import (_completion_by_day, _explorer_rows, _matrix, _oper
                               _stress_cases, _zoomed, headline_numbers, recommendation)
 from .scenario_words import _months, _occasion_days, _rules_read_back
 from .file_names import table_names
+from .portfolio_sensitivity_view import is_portfolio, portfolio_report_section
 from .sensitivity_view import report_section
 from .tornado import tornado_chart
 from .report_forecasts import forecasts_section
@@ -113,7 +114,9 @@ def render_report(result, summary: Mapping[str, Any]) -> dict[str, bytes]:
         draw["stress"] = partial(stress_chart, [c["name"] for c in stress], [c["mean"] for c in stress],
                                  [c["p05"] for c in stress], [c["p95"] for c in stress],
                                  [c["best_mean"] for c in stress], [c["reference_mean"] for c in stress], words)
-    sensitivity = report_section(summary.get("sensitivity"), currency, decimals, occasion)
+    sensitivity = (portfolio_report_section(summary["sensitivity"], currency, occasion)
+                   if is_portfolio(summary.get("sensitivity"))
+                   else report_section(summary.get("sensitivity"), currency, decimals, occasion))
     if sensitivity and sensitivity["rows"]:
         draw["tornado"] = partial(tornado_chart, sensitivity["labels"], sensitivity["change_low"],
                                   sensitivity["change_high"], words, noun=sensitivity["noun"])

@@ -42,8 +42,8 @@ cross-validation. J. Mach. Learn. Res. 5, 1089-1105 (from memory).
 from __future__ import annotations
 
 import dataclasses
+import functools
 import math
-from collections.abc import Callable
 from dataclasses import dataclass
 
 import numpy as np
@@ -59,7 +59,7 @@ from ..rules.operating_rules import RulePrices
 from ..rules.season_cost import reprice
 
 __all__ = ["RULES", "RULE_WORDS", "CONFIDENCE", "SeasonCosts", "Verdict", "season_costs", "season_pricer",
-           "played_season_pricer", "judge", "best_rule", "together"]
+           "played_season_pricer", "SeasonTable", "judge", "worth_using", "best_rule", "together"]
 
 RULES = ("never_act", "always_act", "persistence", "seasonal_rate")
 """The rules that ignore the forecast, in the order ties are broken."""
@@ -158,6 +158,34 @@ def judge(costs: SeasonCosts, season_occasions: int, rule: str) -> Verdict:
     if k < 2:
         return Verdict(use_forecast=False, best_rule=rule, mean=nan, p05=nan, p95=nan, prob_saving=nan,
                        n_seasons=int(k), held_out=())
+    cut, chosen, saving, mean, se = _held_out(costs, season_occasions)
+    from scipy.stats import t  # imported here: only the verdict needs Student's t
+
+    if se > 0:
+        half = _t_quantile(k) * se
+        prob = float(t.cdf(mean / se, k - 1))
+    else:  # every held-out season saved the same per occasion
+        half, prob = 0.0, float(mean > 0)
+    lo, hi = mean - half, mean + half
+    held_out = tuple((int(s), float(costs.cutoffs[c]), RULES[int(r)], float(d * season_occasions / max(m, 1)))
+                     for s, c, r, d, m in zip(costs.seasons, cut, chosen, saving, costs.occasions))
+    return Verdict(use_forecast=bool(lo > 0), best_rule=rule, mean=float(mean), p05=float(lo), p95=float(hi),
+                   prob_saving=prob, n_seasons=int(k), held_out=held_out)
+
+
+def worth_using(costs: SeasonCosts, season_occasions: int) -> bool:
+    """``judge(costs, season_occasions, rule).use_forecast``, without the rest of the verdict
+    (quick, for the many costs a switching value is looked for at)."""
+    if costs.seasons.size < 2:
+        return False
+    *_, mean, se = _held_out(costs, season_occasions)
+    return bool(mean - _t_quantile(costs.seasons.size) * se > 0)
+
+
+def _held_out(costs: SeasonCosts, season_occasions: int):
+    """Each season held out in turn (see :func:`judge`): the cutoff and the rule chosen on the
+    others, the held-out season's saving, and the mean saving per season with its standard error."""
+    k = costs.seasons.size
     model_training = costs.model.sum(axis=0)[None, :] - costs.model  # (k, n_cutoffs): all but f
     cut = np.argmin(model_training, axis=1)
     fold = np.arange(k)
@@ -168,19 +196,15 @@ def judge(costs: SeasonCosts, season_occasions: int, rule: str) -> Verdict:
     per_occasion = saving.sum() / n.sum()
     spread = np.sum((saving - per_occasion * n) ** 2) / (k - 1)
     se = math.sqrt(spread / (k * n.mean() ** 2)) * season_occasions
-    mean = per_occasion * season_occasions
-    from scipy.stats import t  # imported here: only the verdict needs Student's t
+    return cut, chosen, saving, per_occasion * season_occasions, se
 
-    if se > 0:
-        half = float(t.ppf(0.5 + CONFIDENCE / 2, k - 1)) * se
-        prob = float(t.cdf(mean / se, k - 1))
-    else:  # every held-out season saved the same per occasion
-        half, prob = 0.0, float(mean > 0)
-    lo, hi = mean - half, mean + half
-    held_out = tuple((int(s), float(costs.cutoffs[c]), RULES[int(r)], float(d * season_occasions / max(m, 1)))
-                     for s, c, r, d, m in zip(costs.seasons, cut, chosen, saving, costs.occasions))
-    return Verdict(use_forecast=bool(lo > 0), best_rule=rule, mean=float(mean), p05=float(lo), p95=float(hi),
-                   prob_saving=prob, n_seasons=int(k), held_out=held_out)
+
+@functools.lru_cache(maxsize=64)
+def _t_quantile(k: int) -> float:
+    """Student's t quantile of the two-sided :data:`CONFIDENCE` interval with k - 1 degrees of freedom."""
+    from scipy.stats import t
+
+    return float(t.ppf(0.5 + CONFIDENCE / 2, k - 1))
 
 
 def together(parts: list[SeasonCosts]) -> SeasonCosts | None:
@@ -259,36 +283,66 @@ def played_season_pricer(history: History, calendar: Calendar, cutoffs: np.ndarr
     return at
 
 
-def season_pricer(history: History, cutoffs: np.ndarray) -> Callable[[Costs], SeasonCosts]:
+def season_pricer(history: History, cutoffs: np.ndarray) -> "SeasonTable":
     """Without ``[operations]``: each evaluated season's costs (:func:`season_costs`) as a function
-    of the ``[costs]`` matrix. What does not depend on the costs (each season's classification
-    counts at every cutoff, each fold's monthly event rates) is made once, so other costs are priced
-    quickly (:mod:`simulator.analysis.sensitivity` prices many)."""
-    seasons = history.seasons
-    evaluated = history.evaluated
-    k = seasons.size
-    index = np.searchsorted(seasons, history.season[evaluated])  # each evaluated row's season
-    p, event = history.p[evaluated], history.event[evaluated]
-    per_season = [count_at_cutoffs(p[index == i], event[index == i], cutoffs) for i in range(k)]
-    model_counts = Contingency(*(np.stack([getattr(c, cell) for c in per_season]) for cell in _CELLS))
-    fixed = {"never_act": np.zeros(event.size, dtype=bool), "always_act": np.ones(event.size, dtype=bool),
-             "persistence": history.prev_event[evaluated]}
-    month = monthly_event_rate(history)[0][evaluated]
-    rates = [monthly_event_rate(h)[1] for h in _learnt(history)]  # each fold's, without its season
-    occasions = np.bincount(index, minlength=k)
+    of the ``[costs]`` matrix (:class:`SeasonTable`)."""
+    return SeasonTable(history, cutoffs)
 
-    def at(costs: Costs) -> SeasonCosts:
+
+class SeasonTable:
+    """What each evaluated season holds that does not depend on the costs, counted once: its
+    classification counts at every cutoff (``model_counts``, (k, n_cutoffs) per cell) and under the
+    fixed rules (``fixed_counts``, (k,) per cell), its events and non-events by calendar month
+    (``events``, ``others``, (k, 12)), and each fold's monthly event rates (``rates``, (k, 12),
+    learnt without its season). Called with costs, it gives :class:`SeasonCosts`: other costs only
+    price those counts (:func:`~simulator.pricing.costs.price`; a season's cost is the sum over cells
+    of count x cost), so they are priced quickly (:mod:`simulator.analysis.sensitivity` prices many)."""
+
+    FIXED = ("never_act", "always_act", "persistence")  # the rules that learn nothing
+
+    def __init__(self, history: History, cutoffs: np.ndarray):
+        seasons = history.seasons
+        evaluated = history.evaluated
+        k = seasons.size
+        index = np.searchsorted(seasons, history.season[evaluated])  # each evaluated row's season
+        p, event = history.p[evaluated], history.event[evaluated]
+        per_season = [count_at_cutoffs(p[index == i], event[index == i], cutoffs) for i in range(k)]
+        self.model_counts = Contingency(*(np.stack([getattr(c, cell) for c in per_season]) for cell in _CELLS))
+        acts = {"never_act": np.zeros(event.size, dtype=bool), "always_act": np.ones(event.size, dtype=bool),
+                "persistence": history.prev_event[evaluated]}
+        self.fixed_counts = {name: Contingency(*(np.bincount(index, weights=cell, minlength=k)
+                                                 for cell in _cells_of(acts[name], event))) for name in self.FIXED}
+        month = monthly_event_rate(history)[0][evaluated]
+        self.rates = np.stack([monthly_event_rate(h)[1] for h in _learnt(history)])  # (k folds, 12)
+        by_month = index * 12 + month
+        self.events = np.bincount(by_month, weights=event.astype(np.float64), minlength=k * 12).reshape(k, 12)
+        self.others = np.bincount(by_month, weights=(~event).astype(np.float64), minlength=k * 12).reshape(k, 12)
+        self.occasions = np.bincount(index, minlength=k)
+        self.seasons, self.cutoffs = seasons, cutoffs
+
+    def seasonal(self, costs: Costs) -> np.ndarray:
+        """(k folds, k seasons): each season's cost under the seasonal rate learnt without fold f."""
+        k = self.seasons.size
+        # fold f acts in month m when its rate there reaches the break-even probability
+        acts = seasonal_actions(np.arange(k * 12), self.rates.ravel(), costs).reshape(k, 12).astype(np.float64)
+        acting = self.events * costs.hit + self.others * costs.false_alarm  # (k seasons, 12): acting all month
+        idle = self.events * costs.miss + self.others * costs.correct_negative
+        return acts @ acting.T + (1.0 - acts) @ idle.T
+
+    def __call__(self, costs: Costs) -> SeasonCosts:
+        k = self.seasons.size
         rules = np.empty((k, k, len(RULES)))
-        for r, name in enumerate(RULES):
-            if name in fixed:  # the same whichever season is held out
-                rules[:, :, r] = np.bincount(index, weights=occasion_costs(fixed[name], event, costs), minlength=k)
-        seasonal = RULES.index("seasonal_rate")
-        for f, rate in enumerate(rates):
-            cost = occasion_costs(seasonal_actions(month, rate, costs), event, costs)
-            rules[f, :, seasonal] = np.bincount(index, weights=cost, minlength=k)
-        return SeasonCosts(model=price(model_counts, costs), rules=rules, occasions=occasions, seasons=seasons,
-                           cutoffs=cutoffs)
-    return at
+        for name in self.FIXED:  # the same whichever season is held out
+            rules[:, :, RULES.index(name)] = price(self.fixed_counts[name], costs)[None, :]
+        rules[:, :, RULES.index("seasonal_rate")] = self.seasonal(costs)
+        return SeasonCosts(model=price(self.model_counts, costs), rules=rules, occasions=self.occasions,
+                           seasons=self.seasons, cutoffs=self.cutoffs)
+
+
+def _cells_of(act: np.ndarray, event: np.ndarray) -> tuple[np.ndarray, ...]:
+    """Each occasion's cell (hit, false alarm, miss, correct negative) as 0/1 weights."""
+    return ((act & event).astype(np.float64), (act & ~event).astype(np.float64),
+            (~act & event).astype(np.float64), (~act & ~event).astype(np.float64))
 
 
 _CELLS = ("hits", "false_alarms", "misses", "correct_negatives")

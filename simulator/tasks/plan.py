@@ -22,7 +22,7 @@ from ..execution.executor import Executor, InlineExecutor
 from ..pricing.costs import PricedBlock, SeasonPricer
 from ..replay.resample import BLOCK
 from ..results import SiteResult
-from .sites import SUM_GROUP, _added, _site_result, _Totals
+from .sites import SUM_GROUP, _added_parts, _site_result, _Totals
 from .work import _FORECAST_KEY, _MAX_DRAWN_BYTES, _DRAWN, Progress, _join, _pricer, _Work
 
 INLINE_BELOW = 20_000  # site-replicate seasons (x10 with operating rules) not worth sharing out
@@ -39,7 +39,8 @@ def _price_task(work: _Work, first_site: int, last_site: int, chunk: int | None)
     ``("chunk", site, chunk, PricedBlock)`` per site. All chunks (many sites only) give each site's
     results made here, ``("site", site, SiteResult)``, and its season costs for the portfolio:
     summed here for every whole group of :data:`SUM_GROUP` sites the task holds,
-    ``("group", group, model, baselines)``, else ``("costs", site, model, baselines)``. So the
+    ``("group", group, model, baselines, columns)``, else ``("costs", site, model, baselines,
+    columns)`` (``columns``: the site's columns for the portfolio's sensitivity, or None). So the
     per-site work is shared out too, and little more than reduced results travels back.
     """
     chunks = work.chunks if chunk is None else [work.chunks[chunk]]
@@ -55,7 +56,7 @@ def _price_task(work: _Work, first_site: int, last_site: int, chunk: int | None)
         # every task of a run with many sites draws every block: a process draws each once
         rows = [_DRAWN.get(work, b, drawn) if chunk is None else drawn(b) for b in blocks]
     out: list[tuple] = []
-    group: list = [None, None, None]  # the whole group being summed: number, model, baselines
+    group: list = [None, None]  # the whole group being summed: number, sums of the parts
     for k in sites:
         pricer = _pricer(work, k)
         others = [(j, _pricer(work, k, j)) for j in range(1, work.n_forecasts)]
@@ -72,17 +73,19 @@ def _price_task(work: _Work, first_site: int, last_site: int, chunk: int | None)
         if chunk is not None:
             out.append(("chunk", k, chunk, block))
             continue
-        # without its rows, which the caller holds already (a site's rows outweigh its results)
-        out.append(("site", k, dataclasses.replace(_site_result(work, k, block), history=None)))
+        # without its rows, which the caller holds already (a site's rows outweigh its results),
+        # nor its columns for the portfolio's sensitivity, which are added up like its costs
+        site = _site_result(work, k, block)
+        out.append(("site", k, dataclasses.replace(site, history=None, portfolio_columns=None)))
+        parts = (block.model, block.baselines, site.portfolio_columns)
         g = k // SUM_GROUP
         whole = first_site <= g * SUM_GROUP and min((g + 1) * SUM_GROUP, len(work.scenarios)) <= last_site
         if not whole:
-            out.append(("costs", k, block.model, block.baselines))
+            out.append(("costs", k, *parts))
             continue
-        group = [g, _added(group[1] if group[0] == g else None, block.model),
-                 _added(group[2] if group[0] == g else None, block.baselines)]
+        group = [g, _added_parts(group[1] if group[0] == g else None, parts)]
         if k + 1 == min((g + 1) * SUM_GROUP, len(work.scenarios)):
-            out.append(("group", *group))
+            out.append(("group", group[0], *group[1]))
     return out
 
 
@@ -145,9 +148,9 @@ def _price_all(work: _Work, executor: Executor, block_done: Callable[[int, Price
                 sites[0][k] = dataclasses.replace(item[2], history=work.resampler.history.for_site(k))
                 done += work.replicates
             elif kind == "costs":
-                sites[1].add_site(k, item[2], item[3])
+                sites[1].add_site(k, *item[2:])
             elif kind == "group":
-                sites[1].add_group(k, item[2], item[3])
+                sites[1].add_group(k, *item[2:])
             else:
                 block = item[3]
                 waiting[k][item[2]] = block
@@ -159,8 +162,9 @@ def _price_all(work: _Work, executor: Executor, block_done: Callable[[int, Price
                 if sites is None:
                     block_done(k, block)
                 else:
-                    sites[0][k] = _site_result(work, k, block)
-                    sites[1].add_site(k, block.model, block.baselines)
+                    site = _site_result(work, k, block)
+                    sites[0][k] = dataclasses.replace(site, portfolio_columns=None)
+                    sites[1].add_site(k, block.model, block.baselines, site.portfolio_columns)
         if progress is not None:
             progress(step, done, total)
 

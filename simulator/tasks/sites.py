@@ -14,13 +14,15 @@ import numpy as np
 import pandas as pd
 
 from ..analysis.selection import Selection, select_honestly
+from ..analysis.site_sensitivity import of_site, portfolio_columns
 from ..analysis.stress import StressResult, run_stress
-from ..analysis.verdict import best_rule, judge, season_costs
+from ..analysis.verdict import best_rule, judge, season_costs, season_pricer
 from ..analysis.winners import contest
 from ..execution.executor import Executor
 from ..inputs.scenario_costs import break_even_probability, cost_warnings
 from ..inputs.scenario_types import BASELINES
 from ..pricing.costs import PricedBlock
+from ..pricing.counts import from_extras
 from ..pricing.decision import Decision, decide
 from ..pricing.tables import cutoff_table, forecast_scores
 from ..replay.resample import Resampler, block_rng
@@ -77,37 +79,56 @@ class _Totals:
     """The portfolio's season costs: the sites' costs added in a fixed order, whatever order they
     arrive in, so the floating-point sums are the same bytes every time.
 
-    The order: sites are added one after the other within each group of :data:`SUM_GROUP`
-    consecutive sites (a task that prices a whole group adds them itself and sends the group's sum),
-    then the groups' sums one after the other. Only sites and groups not yet added are held.
+    Each site gives its parts: the model's season costs, the baselines', and, with the sensitivity,
+    its :func:`~simulator.analysis.site_sensitivity.portfolio_columns` (else None); each is added
+    up (``model``, ``baselines``, ``columns``). The order: sites are added one after the other
+    within each group of :data:`SUM_GROUP` consecutive sites (a task that prices a whole group adds
+    them itself and sends the group's sum), then the groups' sums one after the other. Only sites
+    and groups not yet added are held.
     """
 
     def __init__(self, n_sites: int):
-        self.model: np.ndarray | None = None
-        self.baselines: np.ndarray | None = None
+        self.parts: tuple | None = None
         self._n_sites = n_sites
-        self._groups: dict[int, list] = {}  # group -> [next site, model sum, baselines sum, waiting]
+        self._groups: dict[int, list] = {}  # group -> [next site, sums of the parts, waiting]
         self._next_group = 0
-        self._waiting_groups: dict[int, tuple[np.ndarray, np.ndarray]] = {}
+        self._waiting_groups: dict[int, tuple] = {}
 
-    def add_site(self, k: int, model: np.ndarray, baselines: np.ndarray) -> None:
+    @property
+    def model(self) -> np.ndarray:
+        return self.parts[0]
+
+    @property
+    def baselines(self) -> np.ndarray:
+        return self.parts[1]
+
+    @property
+    def columns(self) -> np.ndarray | None:
+        return self.parts[2] if len(self.parts) > 2 else None
+
+    def add_site(self, k: int, *parts: np.ndarray | None) -> None:
         g = k // SUM_GROUP
-        state = self._groups.setdefault(g, [g * SUM_GROUP, None, None, {}])
-        state[3][k] = (model, baselines)
-        while state[0] in state[3]:
-            model, baselines = state[3].pop(state[0])
-            state[1], state[2] = _added(state[1], model), _added(state[2], baselines)
+        state = self._groups.setdefault(g, [g * SUM_GROUP, None, {}])
+        state[2][k] = parts
+        while state[0] in state[2]:
+            state[1] = _added_parts(state[1], state[2].pop(state[0]))
             state[0] += 1
         if state[0] == min((g + 1) * SUM_GROUP, self._n_sites):
             del self._groups[g]
-            self.add_group(g, state[1], state[2])
+            self.add_group(g, *state[1])
 
-    def add_group(self, g: int, model: np.ndarray, baselines: np.ndarray) -> None:
-        self._waiting_groups[g] = (model, baselines)
+    def add_group(self, g: int, *parts: np.ndarray | None) -> None:
+        self._waiting_groups[g] = parts
         while self._next_group in self._waiting_groups:
-            model, baselines = self._waiting_groups.pop(self._next_group)
-            self.model, self.baselines = _added(self.model, model), _added(self.baselines, baselines)
+            self.parts = _added_parts(self.parts, self._waiting_groups.pop(self._next_group))
             self._next_group += 1
+
+
+def _added_parts(total: tuple | None, parts: tuple) -> tuple:
+    """Each part added to its running total (:func:`_added`); a part that is None stays None."""
+    if total is None:
+        total = (None,) * len(parts)
+    return tuple(None if part is None else _added(t, part) for t, part in zip(total, parts))
 
 
 def _added(total: np.ndarray | None, part: np.ndarray) -> np.ndarray:
@@ -150,15 +171,25 @@ def _site_result(work: "_Work", k: int, block: PricedBlock) -> SiteResult:
         operations = result.summary(decision.recommended_index)
     name = history.site_names[0]
     warnings = tuple(f'site "{name}" {w}' for w in cost_warnings(costs, scenario.decision.action))
-    seasons = season_costs(history, work.resampler.calendar, cutoffs, scenario)
-    verdict = judge(seasons, n_occ, best_rule({name: float(cost.mean()) for name, cost in baseline_cost.items()}))
+    # with fixed costs each season's counts are kept (verdict.SeasonTable) for the sensitivity to reprice
+    past = season_pricer(history, cutoffs) if scenario.operations is None else None
+    seasons = season_costs(history, work.resampler.calendar, cutoffs, scenario) if past is None else past(costs)
+    rule = best_rule({name: float(cost.mean()) for name, cost in baseline_cost.items()})
+    verdict = judge(seasons, n_occ, rule)
+    counts, _ = from_extras(block.extras, block.n_events)  # kept with fixed costs (work.keep_counts)
+    sensitivity = columns = None
+    if counts is not None:  # which of its cost estimates matters, and what it adds to the portfolio's
+        sensitivity = of_site(scenario, work.resampler.calendar, counts, decision.near_optimal_band,
+                              rule if verdict.n_seasons >= 2 else None, past)
+        columns = portfolio_columns(scenario, counts, sensitivity, work.shared_costs[k], cutoffs)
     own_dates = np.unique(history.dates[history.evaluated]).size
     return SiteResult(name=name, scenario=scenario, history=history, theoretical_cutoff=p_star,
                       decision=decision, table=table, quality=forecast_scores(history),
                       model_cost=block.model[:, decision.recommended_index].copy(),
                       baseline_cost=baseline_cost, missing_dates=work.resampler.n_dates - own_dates,
                       operations=operations, warnings=warnings, verdict=verdict, season_costs=seasons,
-                      own_cutoffs=own, contest=ranked)
+                      season_table=past if counts is not None else None,
+                      own_cutoffs=own, contest=ranked, sensitivity=sensitivity, portfolio_columns=columns)
 
 
 def _sites_table(sites: Sequence[SiteResult], common: int) -> pd.DataFrame:
