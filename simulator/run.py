@@ -29,7 +29,7 @@ from .analysis.forecasts import compare_forecasts
 from .analysis.calibration import calibrate
 from .analysis.selection import select_honestly
 from .analysis.rules_sensitivity import of_operations_run
-from .analysis.sensitivity import NOTES, Sensitivity, of_run
+from .analysis.sensitivity import NOTES, of_run
 from .analysis.site_sensitivity import (PortfolioSensitivity, portfolio_sensitivity, portfolio_verdict,
                                         shared_costs)
 from .analysis.stress import run_stress

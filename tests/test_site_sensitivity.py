@@ -23,7 +23,6 @@ from __future__ import annotations
 import io
 import json
 
-import numpy as np
 import pandas as pd
 import pytest
 

@@ -13,7 +13,7 @@ from typing import Any
 
 import pandas as pd
 
-from ..analysis.sensitivity import REACH, VARY, CostSensitivity, Sensitivity
+from ..analysis.sensitivity import REACH, VARY, Sensitivity
 from ..notation.prose import cutoff_text, money, share
 
 __all__ = ["COST_WORDS", "sensitivity_entry", "sensitivity_frame", "sensitivity_sentence", "bar_label", "report_section"]

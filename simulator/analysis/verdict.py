@@ -44,13 +44,14 @@ from __future__ import annotations
 import dataclasses
 import functools
 import math
+from collections.abc import Callable
 from dataclasses import dataclass
 
 import numpy as np
 
 from ..pricing.contingency import Contingency, count_at_cutoffs
 from ..notation.prose import money  # the one formatter of money in prose (as stress.py uses it)
-from ..pricing.costs import baseline_actions, monthly_event_rate, occasion_costs, price, seasonal_actions
+from ..pricing.costs import baseline_actions, monthly_event_rate, price, seasonal_actions
 from ..inputs.history import History
 from ..replay.resample import Calendar
 from ..inputs.scenario import Scenario
