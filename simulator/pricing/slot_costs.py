@@ -1,0 +1,87 @@
+"""Season costs at every cutoff straight from the decision slots, for costs in whole units of money.
+
+A forecast whose counts nobody keeps (a later forecast of ``[forecasts]``, or any forecast of a
+run that keeps no counts) needs only its season costs at every cutoff. With fixed costs these
+follow from each occasion's slot (how many cutoffs its probability reaches,
+:func:`~simulator.pricing.contingency.cutoff_slots`) without the four count arrays: at cutoff k a
+replicate season costs what not acting on any occasion would, plus the difference acting makes on
+each occasion it acts on (slot > k):
+
+    cost_k = sum_i miss_or_correct_negative_i + sum_{i: slot_i > k} delta_i,
+    delta_i = hit - miss on an event occasion, false_alarm - correct_negative otherwise,
+
+so one weighted bincount per block (replicate x slot) and one reversed cumulative sum over the
+slots give every cutoff at once (the same tally as the counts, weighted by money instead of split
+by outcome). Common practice (a cumulative sum over sorted scores, as scikit-learn's
+``_binary_clf_curve`` counts its cells), no single source.
+
+These are the same bits as :func:`simulator.pricing.costs.price` applied to the counts, the one
+place counts become money, where both are exact: every cost a whole number, none of them negative
+zero, and every sum small enough for binary64 to hold its integers, below 2^53. Each operation is
+rounded from its exact result, so one whose exact result is representable is exact, and binary64
+(53-bit significand) represents every integer up to 2^53 (IEEE 754-2008, Standard for
+Floating-Point Arithmetic, clause 5.1 and table 3.2 of clause 3.3; clause numbers from memory). So
+both ways give the exact integer, whatever the order of the sums. :func:`exact_for` says when;
+otherwise a pricer prices the counts (``tests/test_counts.py`` checks the bits agree).
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from ..inputs.scenario_costs import Costs
+
+__all__ = ["SlotCosts", "exact_for"]
+
+_EXACT = 2.0 ** 53
+
+
+def exact_for(costs: Costs, n_occasions: int) -> bool:
+    """Whether :class:`SlotCosts` gives exactly :func:`~simulator.pricing.costs.price` of the counts
+    for seasons of ``n_occasions`` (see the module's text): the four costs whole numbers, none of
+    them -0.0, and 4 x ``n_occasions`` x the largest magnitude below 2^53 (a bound on every
+    product, partial sum and difference either way makes). A season of no occasions is left to the
+    counts (there ``price`` may give -0.0)."""
+    values = [float(c) for c in costs.as_array()]
+    whole = all(math.isfinite(v) and v.is_integer() and not (v == 0 and math.copysign(1.0, v) < 0)
+                for v in values)
+    return whole and n_occasions > 0 and 4.0 * n_occasions * max(abs(v) for v in values) < _EXACT
+
+
+class SlotCosts:
+    """Season costs (n_rep, n_cutoffs) of acting when the probability reaches each cutoff, made from
+    the slots of the history's rows with fixed ``costs`` (call only where :func:`exact_for` holds).
+
+    Parameters
+    ----------
+    slots : (n_rows,) int, each history row's slot (:func:`~simulator.pricing.contingency.cutoff_slots`).
+    event : (n_rows,) bool, whether the event happened on each row.
+    n_cutoffs : int
+    costs : the fixed costs.
+    """
+
+    def __init__(self, slots: np.ndarray, event: np.ndarray, n_cutoffs: int, costs: Costs):
+        event = np.asarray(event, dtype=bool)
+        self.costs = costs
+        self.n_cutoffs = int(n_cutoffs)
+        self._slots = np.asarray(slots, dtype=np.int64)
+        self._event = event
+        # the money acting makes on each row (float64: the weights of a bincount)
+        self._delta = np.where(event, float(costs.hit) - float(costs.miss),
+                               float(costs.false_alarm) - float(costs.correct_negative))
+
+    def __call__(self, rows: np.ndarray, n_events: np.ndarray | None = None) -> np.ndarray:
+        """Season costs of the replicate seasons ``rows`` (n_rep, n_occasions) at every cutoff;
+        ``n_events``, each replicate's event occasions, when the caller has counted them already."""
+        n_rep, n_occasions = rows.shape
+        width = self.n_cutoffs + 1
+        code = (self._slots[rows] + (np.arange(n_rep, dtype=np.int64) * width)[:, None]).ravel()
+        acted = np.bincount(code, weights=self._delta[rows].ravel(), minlength=n_rep * width)
+        # acting at cutoff k <=> slot > k: reversed cumulative sum over slots, slots k + 1 and up
+        acted = np.cumsum(acted.reshape(n_rep, width)[:, ::-1], axis=1)[:, -2::-1]
+        if n_events is None:
+            n_events = self._event[rows].sum(axis=1)
+        idle = n_events * float(self.costs.miss) + (n_occasions - n_events) * float(self.costs.correct_negative)
+        return idle[:, None] + acted
