@@ -103,6 +103,11 @@ def test_costs_from_slots_are_the_counts_priced_bit_for_bit(costs, n_cutoffs, n_
     got = SlotCosts(slots, event, n_cutoffs, matrix)(rows)
     assert got.shape == expected.shape == (n_rep, n_cutoffs)
     assert _bits(got) == _bits(expected)
+    # another forecast of the same outcomes priced with what the first one shares on these rows
+    other = rng.integers(0, n_cutoffs + 1, n_rows)
+    shared = SlotCosts(slots, event, n_cutoffs, matrix).share(rows)
+    expected = price(counts_from_slots(other[rows], event[rows], n_cutoffs), matrix)
+    assert _bits(SlotCosts(other, event, n_cutoffs, matrix)(rows, shared)) == _bits(expected)
 
 
 def test_costs_outside_whole_units_are_left_to_the_counts(rain):

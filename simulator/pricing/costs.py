@@ -19,7 +19,7 @@ from ..inputs.scenario_types import BASELINES
 from .contingency import Contingency
 from .counts import ReplicateCounts, SeasonCounter, as_extras
 from .draws import CostDrawer, DrawnCosts
-from .slot_costs import SlotCosts, exact_for
+from .slot_costs import Shared, SlotCosts, exact_for
 
 __all__ = ["price", "occasion_costs", "baseline_actions", "monthly_event_rate", "seasonal_actions", "SeasonPricer",
            "PricedBlock", "MODEL_AT_MEANS"]
@@ -143,7 +143,8 @@ class SeasonPricer:
         if costs is self.costs and not self.keep_counts and exact_for(costs, rows.shape[1]):
             # no counts wanted: the model's costs straight from the slots (the same bits)
             baselines, n_events = self._counter.baselines(rows)
-            return PricedBlock(model=self._by_slots(rows, n_events), baselines=price(baselines, costs), n_events=n_events)
+            return PricedBlock(model=self._by_slots(rows, self._by_slots.share(rows, n_events)),
+                               baselines=price(baselines, costs), n_events=n_events)
         counts = self._counter(rows)
         extras = {} if costs is self.costs else {MODEL_AT_MEANS: price(counts.model, self.costs)}
         if self.keep_counts:
@@ -151,14 +152,24 @@ class SeasonPricer:
         return PricedBlock(model=price(counts.model, costs), baselines=price(counts.baselines, costs),
                            n_events=counts.n_events, extras=extras)
 
-    def model_cost(self, rows: np.ndarray, block: int | None = None) -> np.ndarray:
+    def share(self, rows: np.ndarray, block: int | None, n_events: np.ndarray) -> Shared | None:
+        """What every forecast of this history priced on ``rows`` (of block ``block``, whose
+        replicates hold ``n_events`` event occasions each) shares when priced from its slots
+        (:meth:`SlotCosts.share <simulator.pricing.slot_costs.SlotCosts.share>`); None where the
+        counts are priced instead."""
+        if self.drawer is not None or not exact_for(self.costs, rows.shape[1]):
+            return None
+        return self._by_slots.share(rows, n_events)
+
+    def model_cost(self, rows: np.ndarray, block: int | None = None, shared: Shared | None = None) -> np.ndarray:
         """Season costs (n_rep, n_cutoffs) of acting on this pricer's probabilities at every
         cutoff (a later forecast's, on the rows and drawn costs of block ``block``): with fixed
         costs in whole units straight from the slots (:mod:`~simulator.pricing.slot_costs`, the same
-        bits as pricing the counts), else the counts priced."""
+        bits as pricing the counts; ``shared`` from :meth:`share` of the main forecast's pricer on
+        the same rows), else the counts priced."""
         costs = self.costs_of(block, rows.shape[0])
         if costs is self.costs and exact_for(costs, rows.shape[1]):
-            return self._by_slots(rows)
+            return self._by_slots(rows, shared)
         return price(self._counter.model(rows), costs)
 
 

@@ -10,9 +10,10 @@ each occasion it acts on (slot > k):
     cost_k = sum_i miss_or_correct_negative_i + sum_{i: slot_i > k} delta_i,
     delta_i = hit - miss on an event occasion, false_alarm - correct_negative otherwise,
 
-so one weighted bincount per block (replicate x slot) and one reversed cumulative sum over the
-slots give every cutoff at once (the same tally as the counts, weighted by money instead of split
-by outcome). Common practice (a cumulative sum over sorted scores, as scikit-learn's
+so one weighted bincount per block (replicate x slot) and one cumulative sum from the top slot
+down give every cutoff at once (the same tally as the counts, weighted by money instead of split
+by outcome). The weights and the cost of never acting depend only on the rows' outcomes, so
+the forecasts priced on the same rows share them (:class:`Shared`). Common practice (a cumulative sum over sorted scores, as scikit-learn's
 ``_binary_clf_curve`` counts its cells), no single source.
 
 These are the same bits as :func:`simulator.pricing.costs.price` applied to the counts, the one
@@ -28,12 +29,13 @@ otherwise a pricer prices the counts (``tests/test_counts.py`` checks the bits a
 from __future__ import annotations
 
 import math
+from dataclasses import dataclass
 
 import numpy as np
 
 from ..inputs.scenario_costs import Costs
 
-__all__ = ["SlotCosts", "exact_for"]
+__all__ = ["Shared", "SlotCosts", "exact_for"]
 
 _EXACT = 2.0 ** 53
 
@@ -48,6 +50,20 @@ def exact_for(costs: Costs, n_occasions: int) -> bool:
     whole = all(math.isfinite(v) and v.is_integer() and not (v == 0 and math.copysign(1.0, v) < 0)
                 for v in values)
     return whole and n_occasions > 0 and 4.0 * n_occasions * max(abs(v) for v in values) < _EXACT
+
+
+@dataclass(frozen=True)
+class Shared:
+    """What every forecast priced on one block of replicate rows at the same costs shares: it
+    depends on the rows' outcomes, not on their probabilities (:meth:`SlotCosts.share`).
+
+    ``weights``: the money acting makes on each occasion, (n_rep * n_occasions,) float64;
+    ``idle``: each replicate season's cost of never acting, (n_rep,) float64.
+    """
+
+    costs: Costs
+    weights: np.ndarray
+    idle: np.ndarray
 
 
 class SlotCosts:
@@ -72,16 +88,29 @@ class SlotCosts:
         self._delta = np.where(event, float(costs.hit) - float(costs.miss),
                                float(costs.false_alarm) - float(costs.correct_negative))
 
-    def __call__(self, rows: np.ndarray, n_events: np.ndarray | None = None) -> np.ndarray:
-        """Season costs of the replicate seasons ``rows`` (n_rep, n_occasions) at every cutoff;
-        ``n_events``, each replicate's event occasions, when the caller has counted them already."""
-        n_rep, n_occasions = rows.shape
-        width = self.n_cutoffs + 1
-        code = (self._slots[rows] + (np.arange(n_rep, dtype=np.int64) * width)[:, None]).ravel()
-        acted = np.bincount(code, weights=self._delta[rows].ravel(), minlength=n_rep * width)
-        # acting at cutoff k <=> slot > k: reversed cumulative sum over slots, slots k + 1 and up
-        acted = np.cumsum(acted.reshape(n_rep, width)[:, ::-1], axis=1)[:, -2::-1]
+    def share(self, rows: np.ndarray, n_events: np.ndarray | None = None) -> Shared:
+        """What the forecasts priced on ``rows`` at these costs share; ``n_events``, each replicate's
+        event occasions, when the caller has counted them already."""
         if n_events is None:
             n_events = self._event[rows].sum(axis=1)
-        idle = n_events * float(self.costs.miss) + (n_occasions - n_events) * float(self.costs.correct_negative)
-        return idle[:, None] + acted
+        idle = n_events * float(self.costs.miss) + (rows.shape[1] - n_events) * float(self.costs.correct_negative)
+        return Shared(costs=self.costs, weights=self._delta[rows].ravel(), idle=idle)
+
+    def __call__(self, rows: np.ndarray, shared: Shared | None = None) -> np.ndarray:
+        """Season costs of the replicate seasons ``rows`` (n_rep, n_occasions) at every cutoff (a
+        view, rows apart by n_cutoffs + 1); ``shared`` from :meth:`share` of any forecast of the
+        same history at the same costs, on the same rows."""
+        if shared is None or shared.costs != self.costs:
+            shared = self.share(rows)
+        n_rep = rows.shape[0]
+        width = self.n_cutoffs + 1
+        code = self._slots[rows]
+        code += (np.arange(n_rep, dtype=np.int64) * width)[:, None]
+        tally = np.bincount(code.ravel(), weights=shared.weights, minlength=n_rep * width).reshape(n_rep, width)
+        # never acting's cost rides in the top slot, on which every cutoff acts
+        tally[:, -1] += shared.idle
+        # acting at cutoff k <=> slot > k: a cumulative sum from the top slot down (in place; numpy
+        # gives overlapping operands the result of separate ones), then slots 1 and up
+        down = tally[:, ::-1]
+        np.cumsum(down, axis=1, out=down)
+        return tally[:, 1:]

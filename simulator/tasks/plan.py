@@ -20,6 +20,7 @@ import numpy as np
 from ..execution.choose import open_executor
 from ..execution.executor import Executor, InlineExecutor
 from ..pricing.costs import PricedBlock, SeasonPricer
+from ..pricing.slot_costs import Shared
 from ..replay.resample import BLOCK
 from ..results import SiteResult
 from .sites import SUM_GROUP, _added, _site_result, _Totals
@@ -65,8 +66,9 @@ def _price_task(work: _Work, first_site: int, last_site: int, chunk: int | None)
             # the block's number seeds its drawn outcomes and costs; the operating rules draw none
             block = pricer(own) if work.scenarios[k].operations is not None else pricer(own, b)
             if others:  # every later forecast on the same rows: common random numbers
+                shared = pricer.share(own, b, block.n_events) if isinstance(pricer, SeasonPricer) else None
                 block = dataclasses.replace(block, extras={
-                    **block.extras, **{f"{_FORECAST_KEY}{j}": _later_forecast(other, own, b)
+                    **block.extras, **{f"{_FORECAST_KEY}{j}": _later_forecast(other, own, b, shared)
                                        for j, other in others}})
             priced.append(block)
         block = _join(priced)
@@ -87,12 +89,13 @@ def _price_task(work: _Work, first_site: int, last_site: int, chunk: int | None)
     return out
 
 
-def _later_forecast(pricer, rows: np.ndarray, block: int) -> np.ndarray:
+def _later_forecast(pricer, rows: np.ndarray, block: int, shared: Shared | None) -> np.ndarray:
     """A later forecast's season costs at every cutoff on the rows (of seeded block ``block``) the
     main forecast was priced on, with the same drawn costs: the baselines' costs are the main's
-    (they do not depend on the forecast)."""
+    (they do not depend on the forecast), and so are the rows' outcomes priced (``shared``, from the
+    main forecast's pricer; None where the counts are priced)."""
     if isinstance(pricer, SeasonPricer):
-        return pricer.model_cost(rows, block)
+        return pricer.model_cost(rows, block, shared)
     return pricer(rows).model  # the operating rules: every lane played again
 
 
