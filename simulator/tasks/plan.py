@@ -37,7 +37,7 @@ def _price_task(work: _Work, first_site: int, last_site: int, chunk: int | None)
 
     Each seeded block is drawn once and priced for every site of the task (a site's replicate rows
     are the joint rows mapped to its own, ``Resampler.site_rows``). A chunk gives
-    ``("chunk", site, chunk, PricedBlock)`` per site. All chunks (many sites only) give each site's
+    ``("chunk", site, chunk, [PricedBlock, ...])`` per site, one block a seeded block. All chunks (many sites only) give each site's
     results made here, ``("site", site, SiteResult)``, and its season costs for the portfolio:
     summed here for every whole group of :data:`SUM_GROUP` sites the task holds,
     ``("group", group, model, baselines)``, else ``("costs", site, model, baselines)``. So the
@@ -71,10 +71,10 @@ def _price_task(work: _Work, first_site: int, last_site: int, chunk: int | None)
                     **block.extras, **{f"{_FORECAST_KEY}{j}": _later_forecast(other, own, b, shared)
                                        for j, other in others}})
             priced.append(block)
-        block = _join(priced)
-        if chunk is not None:
-            out.append(("chunk", k, chunk, block))
+        if chunk is not None:  # joined once, with the other chunks (a join copies every array)
+            out.append(("chunk", k, chunk, priced))
             continue
+        block = _join(priced)
         # without its rows, which the caller holds already (a site's rows outweigh its results)
         out.append(("site", k, dataclasses.replace(_site_result(work, k, block), history=None)))
         g = k // SUM_GROUP
@@ -138,7 +138,7 @@ def _price_all(work: _Work, executor: Executor, block_done: Callable[[int, Price
     chunks when there are too few sites to keep every worker busy."""
     n_sites = len(work.scenarios)
     chunks = work.chunks
-    waiting: dict[int, dict[int, PricedBlock]] = {k: {} for k in range(n_sites)}
+    waiting: dict[int, dict[int, list[PricedBlock]]] = {k: {} for k in range(n_sites)}
     total, done = n_sites * work.replicates, 0
     step = "replicate seasons" if n_sites == 1 else f"replicate seasons x {n_sites} sites"
     tasks = _plan(n_sites, len(chunks), executor.workers, many=sites is not None)
@@ -153,13 +153,12 @@ def _price_all(work: _Work, executor: Executor, block_done: Callable[[int, Price
             elif kind == "group":
                 sites[1].add_group(k, item[2], item[3])
             else:
-                block = item[3]
-                waiting[k][item[2]] = block
-                done += block.model.shape[0]
+                waiting[k][item[2]] = item[3]
+                done += sum(block.model.shape[0] for block in item[3])
                 if len(waiting[k]) < len(chunks):
                     continue
                 parts = waiting.pop(k)
-                block = _join([parts[c] for c in range(len(chunks))])
+                block = _join([block for c in range(len(chunks)) for block in parts[c]])
                 if sites is None:
                     block_done(k, block)
                 else:
