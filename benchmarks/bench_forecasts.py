@@ -9,8 +9,11 @@ Prints the median CPU time of each run (seconds, in this process, ``workers=1``,
 the replicates priced, every forecast decided, checked and compared) and their ratio; then the same
 without the main forecast's cost sensitivity, which either run makes once, so that the ratio is not
 read as met only because of a part the later forecasts do not repeat. With ``--outputs`` it also
-times rendering the output files in memory (the report's figures dominate). Run:
-``python benchmarks/bench_forecasts.py [replicates ...] [--outputs]`` (default 2000 and 5000; the
+times rendering the output files in memory (the report's figures dominate); with ``--fractional``
+the hit costs 300.10 instead of 300, so the forecasts are priced from their counts rather than
+from their slots (``simulator/pricing/slot_costs.py`` needs costs whose sums are exact, and 0.10
+is no short binary fraction). Run:
+``python benchmarks/bench_forecasts.py [replicates ...] [--outputs] [--fractional]`` (default 2000 and 5000; the
 machine may be shared, so keep it small).
 """
 
@@ -117,11 +120,16 @@ def rendered(runs: dict[str, tuple], repeats: int = 3) -> dict[str, float]:
 
 def main() -> None:
     outputs = "--outputs" in sys.argv[1:]  # also time rendering the output files (slow: figures)
+    # costs with cents: a later forecast's costs then come from its counts, not from its slots
+    fractional = "--fractional" in sys.argv[1:]
     sizes = [int(a) for a in sys.argv[1:] if not a.startswith("--")] or [2000, 5000]
     frame = with_noisy_copies(synthetic_frame())
-    print(f"history rows: {len(frame)}; season: April to October weekdays; 101 cutoffs")
+    print(f"history rows: {len(frame)}; season: April to October weekdays; 101 cutoffs"
+          + ("; costs with cents (hit = 300.10)" if fractional else ""))
 
     def prepared(text: str) -> tuple:
+        if fractional:
+            text = text.replace("hit = 300\n", "hit = 300.10\n")
         scenario = scenario_from_text(text)
         return scenario, history_from_frame(frame, scenario)
 

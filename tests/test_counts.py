@@ -8,9 +8,10 @@ counts: the pricer's costs must equal the counts priced cell by cell (common pra
 a matrix's cost is the sum over its four cells of count x cost).
 
 Costs made straight from the slots (``pricing/slot_costs.py``, without counts) must be the same
-bits as the counts priced wherever it is used: whole-number costs, whose sums binary64 holds
-exactly below 2^53 (IEEE 754-2008, clause 5.1: each operation rounded from its exact result;
-clause number from memory).
+bits as the counts priced wherever it is used: costs that are whole multiples of a power-of-two
+fraction (whole numbers, quarters), whose sums binary64 holds exactly while below 2^53 such units
+(IEEE 754-2008, clause 5.1: each operation rounded from its exact result; clause number from
+memory).
 """
 
 from __future__ import annotations
@@ -89,10 +90,12 @@ def _bits(values: np.ndarray) -> bytes:
 
 
 @settings(max_examples=60, deadline=None)
-@given(costs=st.lists(st.integers(-5000, 5000), min_size=4, max_size=4),
+@given(costs=st.lists(st.integers(-20000, 20000), min_size=4, max_size=4), fraction=st.sampled_from([1, 2, 4, 8]),
        n_cutoffs=st.integers(1, 12), n_rows=st.integers(1, 40), n_rep=st.integers(1, 6),
        n_occasions=st.integers(1, 30), seed=st.integers(0, 2**32 - 1))
-def test_costs_from_slots_are_the_counts_priced_bit_for_bit(costs, n_cutoffs, n_rows, n_rep, n_occasions, seed):
+def test_costs_from_slots_are_the_counts_priced_bit_for_bit(costs, fraction, n_cutoffs, n_rows, n_rep, n_occasions,
+                                                             seed):
+    costs = [c / fraction for c in costs]  # whole numbers, halves, quarters, eighths of money
     rng = np.random.default_rng(seed)
     slots = rng.integers(0, n_cutoffs + 1, n_rows)
     event = rng.random(n_rows) < rng.random()
@@ -110,21 +113,24 @@ def test_costs_from_slots_are_the_counts_priced_bit_for_bit(costs, n_cutoffs, n_
     assert _bits(SlotCosts(other, event, n_cutoffs, matrix)(rows, shared)) == _bits(expected)
 
 
-def test_costs_outside_whole_units_are_left_to_the_counts(rain):
+def test_costs_without_exact_sums_are_left_to_the_counts(rain):
     scenario, history, rows = rain
     whole = {"hit": 120, "false_alarm": 95, "miss": 400, "correct_negative": 0}
-    assert exact_for(Costs(**whole), rows.shape[1])
-    for changed in ({"hit": 120.5}, {"correct_negative": -0.0}):
-        assert not exact_for(Costs(**{**whole, **changed}), rows.shape[1]), changed
+    n = rows.shape[1]
+    assert exact_for(Costs(**whole), n) and exact_for(Costs(**{**whole, "hit": 120.25}), n)
+    for changed in ({"hit": 120.1}, {"correct_negative": -0.0}):  # 0.1 is no short binary fraction
+        assert not exact_for(Costs(**{**whole, **changed}), n), changed
     largest = Costs(**{**whole, "miss": 1e12})  # the largest money a scenario takes
     assert exact_for(largest, 2000) and not exact_for(largest, 2300)  # 4 x 2300 x 1e12 > 2^53
+    quarters = Costs(**{**whole, "miss": 1e12, "hit": 0.25})  # in quarters: 4 x 560 x 4e12 < 2^53
+    assert exact_for(quarters, 560) and not exact_for(quarters, 570)
     assert not exact_for(Costs(**whole), 0)  # no occasions: price may give -0.0
-    # fractional costs: the pricer prices the counts, as before
-    fractional = Costs(hit=120.25, false_alarm=95.1, miss=400.3, correct_negative=0.7)
-    pricer = SeasonPricer(history, scenario.cutoffs, fractional)
-    expected = price(pricer.counts(rows).model, fractional)
-    assert _bits(pricer.model_cost(rows)) == _bits(expected)
-    assert _bits(pricer(rows).model) == _bits(expected)
+    for matrix in (Costs(hit=120.25, false_alarm=95.1, miss=400.3, correct_negative=0.7),  # the counts
+                   Costs(hit=120.25, false_alarm=95.5, miss=400.75, correct_negative=-3)):  # the slots
+        pricer = SeasonPricer(history, scenario.cutoffs, matrix)
+        expected = price(pricer.counts(rows).model, matrix)
+        assert _bits(pricer.model_cost(rows)) == _bits(expected)
+        assert _bits(pricer(rows).model) == _bits(expected)
 
 
 def test_a_pricer_keeping_counts_prices_the_same_bits_as_one_that_does_not(rain):

@@ -111,8 +111,9 @@ class SeasonPricer:
     the PERT mean of a range). With whole-number costs the costs are exact; with fractional costs
     each is the sum of four products, each correctly rounded. With ``keep_counts`` each priced block
     also carries its counts in its extras (:func:`~simulator.pricing.counts.as_extras`), for a run
-    to keep (``RunResult.replicate_counts``). Where no counts are kept and the costs are fixed whole
-    numbers, the model's costs come straight from the slots
+    to keep (``RunResult.replicate_counts``). Where no counts are kept and the fixed costs make exact
+    sums (whole numbers, halves, quarters and the like: :func:`~simulator.pricing.slot_costs.exact_for`),
+    the model's costs come straight from the slots
     (:class:`~simulator.pricing.slot_costs.SlotCosts`: the same bits, with no count arrays).
     """
 
@@ -164,7 +165,7 @@ class SeasonPricer:
     def model_cost(self, rows: np.ndarray, block: int | None = None, shared: Shared | None = None) -> np.ndarray:
         """Season costs (n_rep, n_cutoffs) of acting on this pricer's probabilities at every
         cutoff (a later forecast's, on the rows and drawn costs of block ``block``): with fixed
-        costs in whole units straight from the slots (:mod:`~simulator.pricing.slot_costs`, the same
+        costs whose sums are exact straight from the slots (:mod:`~simulator.pricing.slot_costs`, the same
         bits as pricing the counts; ``shared`` from :meth:`share` of the main forecast's pricer on
         the same rows), else the counts priced."""
         costs = self.costs_of(block, rows.shape[0])

@@ -1,4 +1,4 @@
-"""Season costs at every cutoff straight from the decision slots, for costs in whole units of money.
+"""Season costs at every cutoff straight from the decision slots, where the sums are exact.
 
 A forecast whose counts nobody keeps (a later forecast of ``[forecasts]``, or any forecast of a
 run that keeps no counts) needs only its season costs at every cutoff. With fixed costs these
@@ -13,17 +13,20 @@ each occasion it acts on (slot > k):
 so one weighted bincount per block (replicate x slot) and one cumulative sum from the top slot
 down give every cutoff at once (the same tally as the counts, weighted by money instead of split
 by outcome). The weights and the cost of never acting depend only on the rows' outcomes, so
-the forecasts priced on the same rows share them (:class:`Shared`). Common practice (a cumulative sum over sorted scores, as scikit-learn's
-``_binary_clf_curve`` counts its cells), no single source.
+the forecasts priced on the same rows share them (:class:`Shared`). Common practice (a cumulative
+sum over sorted scores, as scikit-learn's ``_binary_clf_curve`` counts its cells), no single source.
 
 These are the same bits as :func:`simulator.pricing.costs.price` applied to the counts, the one
-place counts become money, where both are exact: every cost a whole number, none of them negative
-zero, and every sum small enough for binary64 to hold its integers, below 2^53. Each operation is
-rounded from its exact result, so one whose exact result is representable is exact, and binary64
-(53-bit significand) represents every integer up to 2^53 (IEEE 754-2008, Standard for
-Floating-Point Arithmetic, clause 5.1 and table 3.2 of clause 3.3; clause numbers from memory). So
-both ways give the exact integer, whatever the order of the sums. :func:`exact_for` says when;
-otherwise a pricer prices the counts (``tests/test_counts.py`` checks the bits agree).
+place counts become money, where both are exact. Every finite binary64 number is a whole multiple
+of a power-of-two fraction 2^-s (a whole number: s = 0; a quarter: s = 2; 0.10 needs s = 55 or
+so), and sums, differences and products of whole counts with such multiples are multiples of the
+same 2^-s; binary64 holds each of them exactly while its magnitude stays below 2^(53 - s) (a
+53-bit significand), and each operation is rounded from its exact result, so one whose exact
+result is representable is exact (IEEE 754-2008, Standard for Floating-Point Arithmetic, clause
+5.1 and table 3.2 of clause 3.3; clause numbers from memory). Both ways then give the exact sum,
+whatever its order. :func:`exact_for` says when (whole numbers, halves or quarters of money and
+the like, with seasons far below the bound; not 0.10); otherwise a pricer prices the counts
+(``tests/test_counts.py`` checks the bits agree).
 """
 
 from __future__ import annotations
@@ -37,19 +40,25 @@ from ..inputs.scenario_costs import Costs
 
 __all__ = ["Shared", "SlotCosts", "exact_for"]
 
-_EXACT = 2.0 ** 53
+_EXACT = 2 ** 53
 
 
 def exact_for(costs: Costs, n_occasions: int) -> bool:
     """Whether :class:`SlotCosts` gives exactly :func:`~simulator.pricing.costs.price` of the counts
-    for seasons of ``n_occasions`` (see the module's text): the four costs whole numbers, none of
-    them -0.0, and 4 x ``n_occasions`` x the largest magnitude below 2^53 (a bound on every
-    product, partial sum and difference either way makes). A season of no occasions is left to the
-    counts (there ``price`` may give -0.0)."""
+    for seasons of ``n_occasions`` (see the module's text): with every cost a whole multiple of
+    2^-s (s the least that serves all four; ``float.as_integer_ratio`` gives each one's power-of-two
+    denominator), 4 x ``n_occasions`` x the largest magnitude in units of 2^-s below 2^53 (a bound
+    on every product, partial sum and difference either way makes), and no cost -0.0. A season of
+    no occasions is left to the counts (there ``price`` may give -0.0)."""
     values = [float(c) for c in costs.as_array()]
-    whole = all(math.isfinite(v) and v.is_integer() and not (v == 0 and math.copysign(1.0, v) < 0)
-                for v in values)
-    return whole and n_occasions > 0 and 4.0 * n_occasions * max(abs(v) for v in values) < _EXACT
+    if n_occasions <= 0 or not all(math.isfinite(v) for v in values):
+        return False
+    if any(v == 0 and math.copysign(1.0, v) < 0 for v in values):
+        return False
+    ratios = [v.as_integer_ratio() for v in values]  # (numerator, a power of two)
+    unit = max(denominator for _, denominator in ratios)  # 2^s
+    largest = max(abs(numerator) * (unit // denominator) for numerator, denominator in ratios)  # in 2^-s
+    return 4 * int(n_occasions) * largest < _EXACT  # whole numbers: no float rounding in the test
 
 
 @dataclass(frozen=True)
