@@ -37,7 +37,8 @@ def _price_task(work: _Work, first_site: int, last_site: int, chunk: int | None)
 
     Each seeded block is drawn once and priced for every site of the task (a site's replicate rows
     are the joint rows mapped to its own, ``Resampler.site_rows``). A chunk gives
-    ``("chunk", site, chunk, [PricedBlock, ...])`` per site, one block a seeded block. All chunks (many sites only) give each site's
+    ``("chunk", site, chunk, [PricedBlock, ...])`` per site, one block a seeded block, joined once
+    with the other chunks' by :func:`_price_all`. All chunks (many sites only) give each site's
     results made here, ``("site", site, SiteResult)``, and its season costs for the portfolio:
     summed here for every whole group of :data:`SUM_GROUP` sites the task holds,
     ``("group", group, model, baselines)``, else ``("costs", site, model, baselines)``. So the
