@@ -78,9 +78,11 @@ def counts_from_slots(slots: np.ndarray, event: np.ndarray, n_cutoffs: int) -> C
     # one bincount for all replicates: code = replicate * width + 2 * slot + event
     code = (np.arange(n_rep, dtype=np.int64)[:, None] * width + 2 * slots2 + event2).ravel()
     tally = np.bincount(code, minlength=n_rep * width).reshape(n_rep, n_cutoffs + 1, 2)
-    # acted at cutoff k <=> slot > k: reversed cumulative sum over slots, dropping slot 0
-    reached = np.cumsum(tally[:, ::-1, :], axis=1)[:, ::-1, :][:, 1:, :]
-    totals = tally.sum(axis=1)  # (n_rep, 2): non-events, events
+    # acted at cutoff k <=> slot > k: reversed cumulative sum over slots, whose slot 0 holds every
+    # occasion (the totals: a sum over the middle axis of the tally costs more than the whole cumsum)
+    reached = np.cumsum(tally[:, ::-1, :], axis=1)[:, ::-1, :]
+    totals = reached[:, 0, :]  # (n_rep, 2): non-events, events
+    reached = reached[:, 1:, :]
     hits = reached[:, :, 1]
     false_alarms = reached[:, :, 0]
     misses = totals[:, 1:2] - hits

@@ -19,6 +19,7 @@ from ..inputs.scenario_types import BASELINES
 from .contingency import Contingency
 from .counts import ReplicateCounts, SeasonCounter, as_extras
 from .draws import CostDrawer, DrawnCosts
+from .slot_costs import Shared, SlotCosts, exact_for
 
 __all__ = ["price", "occasion_costs", "baseline_actions", "monthly_event_rate", "seasonal_actions", "SeasonPricer",
            "PricedBlock", "MODEL_AT_MEANS"]
@@ -110,7 +111,10 @@ class SeasonPricer:
     the PERT mean of a range). With whole-number costs the costs are exact; with fractional costs
     each is the sum of four products, each correctly rounded. With ``keep_counts`` each priced block
     also carries its counts in its extras (:func:`~simulator.pricing.counts.as_extras`), for a run
-    to keep (``RunResult.replicate_counts``).
+    to keep (``RunResult.replicate_counts``). Where no counts are kept and the fixed costs make exact
+    sums (whole numbers, halves, quarters and the like: :func:`~simulator.pricing.slot_costs.exact_for`),
+    the model's costs come straight from the slots
+    (:class:`~simulator.pricing.slot_costs.SlotCosts`: the same bits, with no count arrays).
     """
 
     def __init__(self, history: History, cutoffs: np.ndarray, costs: Costs, drawer: CostDrawer | None = None,
@@ -121,6 +125,7 @@ class SeasonPricer:
         self.drawer = drawer if drawer is not None and drawer.draws else None
         self._counter = SeasonCounter(history.p, history.event, cutoffs, baseline_actions(history, costs),
                                       BASELINES)
+        self._by_slots = SlotCosts(self._counter.slots, self._counter.event, self.n_cutoffs, costs)
 
     def counts(self, rows: np.ndarray) -> ReplicateCounts:
         """Each replicate's classification counts at every cutoff and for every baseline."""
@@ -135,18 +140,38 @@ class SeasonPricer:
         return self.drawer(block, n_rep)
 
     def __call__(self, rows: np.ndarray, block: int | None = None) -> PricedBlock:
-        counts = self._counter(rows)
         costs = self.costs_of(block, rows.shape[0])
+        if costs is self.costs and not self.keep_counts and exact_for(costs, rows.shape[1]):
+            # no counts wanted: the model's costs straight from the slots (the same bits)
+            baselines, n_events = self._counter.baselines(rows)
+            return PricedBlock(model=self._by_slots(rows, self._by_slots.share(rows, n_events)),
+                               baselines=price(baselines, costs), n_events=n_events)
+        counts = self._counter(rows)
         extras = {} if costs is self.costs else {MODEL_AT_MEANS: price(counts.model, self.costs)}
         if self.keep_counts:
             extras.update(as_extras(counts))
         return PricedBlock(model=price(counts.model, costs), baselines=price(counts.baselines, costs),
                            n_events=counts.n_events, extras=extras)
 
-    def model_cost(self, rows: np.ndarray, block: int | None = None) -> np.ndarray:
+    def share(self, rows: np.ndarray, block: int | None, n_events: np.ndarray) -> Shared | None:
+        """What every forecast of this history priced on ``rows`` (of block ``block``, whose
+        replicates hold ``n_events`` event occasions each) shares when priced from its slots
+        (:meth:`SlotCosts.share <simulator.pricing.slot_costs.SlotCosts.share>`); None where the
+        counts are priced instead."""
+        if self.drawer is not None or not exact_for(self.costs, rows.shape[1]):
+            return None
+        return self._by_slots.share(rows, n_events)
+
+    def model_cost(self, rows: np.ndarray, block: int | None = None, shared: Shared | None = None) -> np.ndarray:
         """Season costs (n_rep, n_cutoffs) of acting on this pricer's probabilities at every
-        cutoff (a later forecast's, on the rows and drawn costs of block ``block``)."""
-        return price(self._counter.model(rows), self.costs_of(block, rows.shape[0]))
+        cutoff (a later forecast's, on the rows and drawn costs of block ``block``): with fixed
+        costs whose sums are exact straight from the slots (:mod:`~simulator.pricing.slot_costs`, the same
+        bits as pricing the counts; ``shared`` from :meth:`share` of the main forecast's pricer on
+        the same rows), else the counts priced."""
+        costs = self.costs_of(block, rows.shape[0])
+        if costs is self.costs and exact_for(costs, rows.shape[1]):
+            return self._by_slots(rows, shared)
+        return price(self._counter.model(rows), costs)
 
 
 MODEL_AT_MEANS = "model_cost_at_mean_costs"

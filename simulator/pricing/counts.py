@@ -54,7 +54,7 @@ class SeasonCounter:
                  actions: Mapping[str, np.ndarray], order: Sequence[str]):
         event = np.asarray(event, dtype=bool)
         self.n_cutoffs = int(np.asarray(cutoffs).size)
-        self._slots, self._event = cutoff_slots(p, cutoffs), event
+        self.slots, self.event = cutoff_slots(p, cutoffs), event  # each history row's slot and outcome
         columns = [event] + [np.asarray(actions[name], dtype=bool) for name in order]
         code = sum(column.astype(np.int64) << bit for bit, column in enumerate(columns))  # one int a row
         codes, pattern = np.unique(code, return_inverse=True)
@@ -67,14 +67,18 @@ class SeasonCounter:
                                (~acts & happened).astype(np.int64), (~acts & ~happened).astype(np.int64)]
 
     def __call__(self, rows: np.ndarray) -> ReplicateCounts:
+        baselines, n_events = self.baselines(rows)
+        return ReplicateCounts(model=self.model(rows), baselines=baselines, n_events=n_events)
+
+    def baselines(self, rows: np.ndarray) -> tuple[Contingency, np.ndarray]:
+        """The baselines' counts (fields (n_rep, n_baselines)) and the events of each replicate
+        (n_rep,): a :class:`ReplicateCounts` without the model's."""
         held = self._held(rows)
-        return ReplicateCounts(model=self.model(rows),
-                               baselines=Contingency(*(held @ cells for cells in self._pattern_cells)),
-                               n_events=held @ self._pattern_event)
+        return Contingency(*(held @ cells for cells in self._pattern_cells)), held @ self._pattern_event
 
     def model(self, rows: np.ndarray) -> Contingency:
         """Counts (n_rep, n_cutoffs) of acting when the probability reaches each cutoff."""
-        return counts_from_slots(self._slots[rows], self._event[rows], self.n_cutoffs)
+        return counts_from_slots(self.slots[rows], self.event[rows], self.n_cutoffs)
 
     def _held(self, rows: np.ndarray) -> np.ndarray:
         """How many occasions of each replicate hold each pattern, (n_rep, n_patterns)."""

@@ -41,7 +41,9 @@ def money_tolerance(*costs) -> float:
     error bound of recursive summation; from memory, check). A billionth is far above that for any
     season and far below any saving worth reporting. Common practice, no single source.
     """
-    largest = max((float(np.max(np.abs(c))) for c in costs if np.size(c)), default=0.0)
+    # the largest magnitude is that of the largest or of the smallest value (NaN if any is NaN),
+    # without a copy of each array's magnitudes
+    largest = max((max(abs(float(np.max(c))), abs(float(np.min(c)))) for c in costs if np.size(c)), default=0.0)
     return SAME_MONEY * largest
 
 

@@ -20,6 +20,7 @@ import numpy as np
 from ..execution.choose import open_executor
 from ..execution.executor import Executor, InlineExecutor
 from ..pricing.costs import PricedBlock, SeasonPricer
+from ..pricing.slot_costs import Shared
 from ..replay.resample import BLOCK
 from ..results import SiteResult
 from .sites import SUM_GROUP, _added_parts, _site_result, _Totals
@@ -36,7 +37,8 @@ def _price_task(work: _Work, first_site: int, last_site: int, chunk: int | None)
 
     Each seeded block is drawn once and priced for every site of the task (a site's replicate rows
     are the joint rows mapped to its own, ``Resampler.site_rows``). A chunk gives
-    ``("chunk", site, chunk, PricedBlock)`` per site. All chunks (many sites only) give each site's
+    ``("chunk", site, chunk, [PricedBlock, ...])`` per site, one block a seeded block, joined once
+    with the other chunks' by :func:`_price_all`. All chunks (many sites only) give each site's
     results made here, ``("site", site, SiteResult)``, and its season costs for the portfolio:
     summed here for every whole group of :data:`SUM_GROUP` sites the task holds,
     ``("group", group, model, baselines, columns)``, else ``("costs", site, model, baselines,
@@ -65,14 +67,15 @@ def _price_task(work: _Work, first_site: int, last_site: int, chunk: int | None)
             own = work.resampler.site_rows(drawn(b) if rows is None else rows[i], k)
             block = pricer(own, b)  # the block's number seeds its drawn outcomes, costs and prices
             if others:  # every later forecast on the same rows: common random numbers
+                shared = pricer.share(own, b, block.n_events) if isinstance(pricer, SeasonPricer) else None
                 block = dataclasses.replace(block, extras={
-                    **block.extras, **{f"{_FORECAST_KEY}{j}": _later_forecast(other, own, b)
+                    **block.extras, **{f"{_FORECAST_KEY}{j}": _later_forecast(other, own, b, shared)
                                        for j, other in others}})
             priced.append(block)
-        block = _join(priced)
-        if chunk is not None:
-            out.append(("chunk", k, chunk, block))
+        if chunk is not None:  # joined once, with the other chunks (a join copies every array)
+            out.append(("chunk", k, chunk, priced))
             continue
+        block = _join(priced)
         # without its rows, which the caller holds already (a site's rows outweigh its results),
         # nor its columns for the portfolio's sensitivity, which are added up like its costs
         site = _site_result(work, k, block)
@@ -89,12 +92,13 @@ def _price_task(work: _Work, first_site: int, last_site: int, chunk: int | None)
     return out
 
 
-def _later_forecast(pricer, rows: np.ndarray, block: int) -> np.ndarray:
+def _later_forecast(pricer, rows: np.ndarray, block: int, shared: Shared | None) -> np.ndarray:
     """A later forecast's season costs at every cutoff on the rows (of seeded block ``block``) the
     main forecast was priced on, with the same drawn costs or prices: the baselines' costs are the
-    main's (they do not depend on the forecast)."""
+    main's (they do not depend on the forecast), and so are the rows' outcomes priced (``shared``,
+    from the main forecast's pricer; None where the counts are priced)."""
     if isinstance(pricer, SeasonPricer):
-        return pricer.model_cost(rows, block)
+        return pricer.model_cost(rows, block, shared)
     return pricer(rows, block).model  # the operating rules: every lane played again
 
 
@@ -137,7 +141,7 @@ def _price_all(work: _Work, executor: Executor, block_done: Callable[[int, Price
     chunks when there are too few sites to keep every worker busy."""
     n_sites = len(work.scenarios)
     chunks = work.chunks
-    waiting: dict[int, dict[int, PricedBlock]] = {k: {} for k in range(n_sites)}
+    waiting: dict[int, dict[int, list[PricedBlock]]] = {k: {} for k in range(n_sites)}
     total, done = n_sites * work.replicates, 0
     step = "replicate seasons" if n_sites == 1 else f"replicate seasons x {n_sites} sites"
     tasks = _plan(n_sites, len(chunks), executor.workers, many=sites is not None)
@@ -152,13 +156,12 @@ def _price_all(work: _Work, executor: Executor, block_done: Callable[[int, Price
             elif kind == "group":
                 sites[1].add_group(k, *item[2:])
             else:
-                block = item[3]
-                waiting[k][item[2]] = block
-                done += block.model.shape[0]
+                waiting[k][item[2]] = item[3]
+                done += sum(block.model.shape[0] for block in item[3])
                 if len(waiting[k]) < len(chunks):
                     continue
                 parts = waiting.pop(k)
-                block = _join([parts[c] for c in range(len(chunks))])
+                block = _join([block for c in range(len(chunks)) for block in parts[c]])
                 if sites is None:
                     block_done(k, block)
                 else:
