@@ -142,7 +142,7 @@ def portfolio_report_section(entry: Mapping[str, Any], currency: str, occasion: 
     """What the report's section shows for a portfolio: the sentence, one row per scenario cost,
     the tornado's labels and bars, and the sites closest to switching; or only the note."""
     if entry.get("note"):
-        return {"note": entry["note"], "rows": [], "sentence": "", "portfolio": True}
+        return {"note": entry["note"], "rows": [], "sentence": "", "portfolio": True, "prices": False}
 
     def at(end: Mapping[str, Any], sharing: int) -> dict[str, str]:
         return {"value": money(end["value"], currency),
@@ -171,6 +171,6 @@ def portfolio_report_section(entry: Mapping[str, Any], currency: str, occasion: 
     return {"note": "", "portfolio": True, "rows": rows,
             "sentence": portfolio_sentence(entry, currency, occasion), "saving": money(entry["saving"], currency),
             "sites": len(entry["sites"]), "closest": closest, "reach": f"{REACH:g}", "vary": f"{VARY:.0%}",
-            "labels": [bar_label(c, currency) for c in entry["costs"]],
+            "noun": "cost", "prices": False, "labels": [bar_label(c, currency) for c in entry["costs"]],
             "change_low": [c["saving_change"]["low"] for c in entry["costs"]],
             "change_high": [c["saving_change"]["high"] for c in entry["costs"]]}

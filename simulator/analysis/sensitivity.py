@@ -65,8 +65,8 @@ _STEPS = 18  # bisection steps: to within the span / 8 / 2^18, two millionths of
 
 
 NOTES = {
-    "operations": ("No sensitivity to the rules' prices with a site column yet: run a site's history alone to see "
-                   "which of its prices matters."),
+    "operations": ("No sensitivity to the costs under [operations] with a site column yet: run a site's history "
+                   "alone to see which of its rules' prices matters."),
     "calibrated": ("No sensitivity to the costs in the calibrated mode yet: use mode = \"replay\" to see which "
                    "cost estimate matters."),
 }
