@@ -12,6 +12,11 @@ run, default 1: the machine is shared) and their ratio. Run: ``python benchmarks
 (``scenarios/line_marking_rules.toml``, invented; 2,000 replicates by default) with its five prices
 fixed at their PERT means against all five given as ranges (drawn per replicate season; the days
 are played once either way, only the pricing of the played block changes).
+
+``--stress``: both runs with three ``[[stress]]`` cases (every cost doubled, one cost replaced, a
+poorer forecast), which price the base case's drawn costs with their changes on top (with ranges)
+or the fixed costs with them (fixed). ``--replicates N`` runs N replicates instead of 20,000 (the
+rules comparison's default is 2,000).
 """
 
 from __future__ import annotations
@@ -42,10 +47,21 @@ weekdays = ["mon", "tue", "wed", "thu", "fri"]
 replicates = 20000
 seed = 7
 """
+STRESS = """
+[[stress]]
+name = "every cost doubled"
+cost_multipliers = {hit = 2, false_alarm = 2, miss = 2, correct_negative = 2}
+[[stress]]
+name = "a dearer miss"
+costs = {miss = 3000}
+[[stress]]
+name = "a poorer forecast"
+skill = 0.7
+"""
 
 
-def prepared(costs: str, frame):
-    scenario = scenario_from_text(SCENARIO.format(costs=costs))
+def prepared(costs: str, frame, stress: bool = False):
+    scenario = scenario_from_text(SCENARIO.format(costs=costs) + (STRESS if stress else ""))
     return scenario, history_from_frame(frame, scenario)
 
 
@@ -83,9 +99,12 @@ def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--repeat", type=int, default=1)
     parser.add_argument("--rules", action="store_true", help="the rules demo, its five prices fixed or ranges")
-    parser.add_argument("--replicates", type=int, default=2000, help="with --rules (default 2,000)")
+    parser.add_argument("--replicates", type=int, default=None,
+                        help="replicates per run (default 20,000; with --rules 2,000)")
+    parser.add_argument("--stress", action="store_true", help="three [[stress]] cases in both runs")
     args = parser.parse_args()
     if args.rules:
+        args.replicates = args.replicates or 2000
         fixed, ranged = rules_demo(False), rules_demo(True)
         seconds(*fixed, replicates=100), seconds(*ranged, replicates=100)  # warm up
         times = {"fixed": [], "ranged": []}
@@ -100,14 +119,17 @@ def main() -> None:
         print(f"  ratio ranges / fixed:     {b / a:7.2f}")
         return
     frame = synthetic_frame()
-    fixed, ranged = prepared(FIXED, frame), prepared(RANGES, frame)
+    fixed, ranged = prepared(FIXED, frame, args.stress), prepared(RANGES, frame, args.stress)
+    n = args.replicates or 20000
     seconds(*fixed, replicates=500), seconds(*ranged, replicates=500)  # warm up: imports, caches
     times: dict[str, list[float]] = {"fixed": [], "ranged": []}
     for _ in range(args.repeat):  # interleaved, so a drift of the shared machine hits both
-        times["fixed"].append(seconds(*fixed))
-        times["ranged"].append(seconds(*ranged))
+        times["fixed"].append(seconds(*fixed, replicates=n))
+        times["ranged"].append(seconds(*ranged, replicates=n))
     a, b = min(times["fixed"]), min(times["ranged"])
-    print(f"20,000 replicates x 101 cutoffs, one worker, CPU time, best of {args.repeat} interleaved runs each:")
+    cases = ", three stress cases" if args.stress else ""
+    print(f"{n:,} replicates x 101 cutoffs{cases}, one worker, CPU time, best of {args.repeat} interleaved "
+          "runs each:")
     print(f"  fixed costs:              {a:7.2f} s")
     print(f"  all four costs as ranges: {b:7.2f} s")
     print(f"  ratio ranges / fixed:     {b / a:7.2f}  (target: below 1.50)")

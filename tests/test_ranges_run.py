@@ -136,13 +136,15 @@ def test_a_wrong_range_in_a_scenario_is_one_line(toml_text):
 
 def test_each_site_draws_its_own_ranges_as_a_run_of_that_site_alone_does():
     """Many sites: a site's season costs with the scenario's range and its own are those of a
-    single-site run of its rows with the same ranges (invented correlated sites, tests/test_sites.py)."""
+    single-site run of its rows with the same ranges (invented correlated sites, tests/test_sites.py),
+    and so are its stress case's, priced with the site's draws."""
     import pandas as pd
 
     from test_sites import SITES_TOML, correlated_sites
 
     frame = correlated_sites(20270415)
     ranged = SITES_TOML.replace("miss = 2500", "miss = {low = 2000, likely = 2400, high = 3400}")
+    ranged += '[[stress]]\nname = "dearer false alarms"\ncost_multipliers = {false_alarm = 1.5}\n'
     scenario = scenario_from_text(ranged + '[sites."South".costs]\nhit = {low = 200, likely = 300, high = 500}\n')
     assert set(scenario.cost_ranges()) == {"costs.miss", "sites.South.costs.hit"}
     assert set(scenario.for_site("South").cost_ranges()) == {"costs.miss", "costs.hit"}
@@ -158,6 +160,7 @@ def test_each_site_draws_its_own_ranges_as_a_run_of_that_site_alone_does():
         pd.testing.assert_frame_equal(site.table, alone.table, check_exact=True)
         np.testing.assert_array_equal(site.model_cost, alone.model_cost[:, alone.decision.recommended_index])
         assert alone.cost_spread is not None
+        np.testing.assert_array_equal(site.stress[0].views[0].mean_cost, alone.stress[0].views[0].mean_cost)
     written = summary(result)
     assert set(written["cost_ranges"]) == {"costs.miss", "sites.South.costs.hit"} and "cost_spread" not in written
     said = account(written).get("cost_doubt")

@@ -7,12 +7,14 @@ Histories here are invented test data (``tests/conftest.py``), calibrated by con
 from __future__ import annotations
 
 import json
+import re
 from pathlib import Path
 
 import numpy as np
 import pytest
 from typer.testing import CliRunner
 
+from conftest import EXAMPLE_COSTS
 from simulator.cli import app
 from simulator.inputs.errors import InputError
 from simulator.account.outputs import summary
@@ -74,23 +76,36 @@ def world(synthetic):
                                   start="2019-01-01")
 
 
+# the four costs known only as ranges, each with the PERT mean (low + 4 likely + high) / 6 of the
+# fixed cost it replaces (Malcolm et al. 1959): 300, 1800, 2500 and 0 (benchmarks/bench_ranges.py)
+RANGES = {"hit": "{low = 240, likely = 300, high = 360}", "false_alarm": "{low = 1500, likely = 1725, high = 2400}",
+          "miss": "{low = 2000, likely = 2375, high = 3500}", "correct_negative": "{low = -60, likely = 0, high = 60}"}
+
+
 @pytest.fixture(scope="module")
 def make(toml_text):
-    """``make(stress_text)``: the scenario of these tests with ``[[stress]]`` tables appended."""
+    """``make(stress_text, ranges=(), costs=None)``: the scenario of these tests with ``[[stress]]``
+    tables appended, the costs named in ``ranges`` given as the ranges of :data:`RANGES` and the
+    fixed costs in ``costs`` replacing the example's."""
 
-    def scenario(stress_text: str = ""):
+    def scenario(stress_text: str = "", ranges=(), costs=None):
         sim = {"replicates": REPLICATES, "seed": 11, "block_days": 3, "reference": "never_act"}
-        return scenario_from_text(toml_text(season=SEASON, simulation=sim) + stress_text)
+        text = toml_text(season=SEASON, simulation=sim, costs={**EXAMPLE_COSTS, **(costs or {})})
+        for key in ranges:
+            text, n = re.subn(rf"^{key} = \S+$", f"{key} = {RANGES[key]}", text, flags=re.M)
+            assert n == 1
+        return scenario_from_text(text + stress_text)
 
     return scenario
 
 
 @pytest.fixture(scope="module")
 def run_with(world, make):
-    """``run_with(stress_text)``: a run of the synthetic world with those stress cases."""
+    """``run_with(stress_text, ranges=(), costs=None)``: a run of the synthetic world with those
+    stress cases (and those costs given as ranges or changed)."""
 
-    def run(stress_text: str = ""):
-        scenario = make(stress_text)
+    def run(stress_text: str = "", ranges=(), costs=None):
+        scenario = make(stress_text, ranges, costs)
         return run_history(scenario, history_from_frame(world, scenario, label="history.csv"))
 
     return run
@@ -106,8 +121,12 @@ def test_unit_start_weights_draw_exactly_the_untilted_replicates(world, make):
     np.testing.assert_array_equal(plain.draw_block(5, 0), equal.draw_block(5, 0))
 
 
-def test_event_rate_one_reproduces_the_base_case_exactly(run_with):
-    result = run_with('\n[[stress]]\nname = "as before"\nevent_rate = 1.0\n')
+@pytest.mark.parametrize("ranges", [(), tuple(RANGES)], ids=["fixed costs", "cost ranges"])
+def test_event_rate_one_reproduces_the_base_case_exactly(run_with, ranges):
+    # with costs given as ranges too: the case prices replicate k with the base's draw for
+    # replicate k (common random numbers), not at the PERT means
+    result = run_with('\n[[stress]]\nname = "as before"\nevent_rate = 1.0\n', ranges)
+    assert (result.cost_spread is not None) == bool(ranges)
     case = result.stress[0]
     assert case.event_rate.reached and case.event_rate.achieved == case.event_rate.target
     for view in case.views:  # as forecast, and adapted (to the same rate: unchanged)
@@ -131,6 +150,38 @@ def test_scaling_every_cost_scales_every_season_cost_on_the_same_replicates(run_
                                2 * result.model_cost[:, result.decision.recommended_index], rtol=1e-12)
     np.testing.assert_allclose(view.baseline_cost["persistence"], 2 * result.baseline_cost["persistence"])
     assert view.best_cutoff == result.decision.recommended_cutoff
+
+
+def test_doubling_every_drawn_cost_doubles_every_season_cost_exactly(run_with):
+    """Costs drawn per replicate season: a season cost is a sum of counts times costs (linearity;
+    Elkan 2001, as above), and a product with 2 is exact in binary floating point, so the case's
+    costs are exactly twice the base's, replicate by replicate, only if the case priced the base's
+    draws (common random numbers) with its multipliers on top, not draws of its own or the PERT
+    means. tests/test_price_ranges.py checks the same of the rules' prices."""
+    text = ('\n[[stress]]\nname = "all doubled"\n'
+            "cost_multipliers = { hit = 2, false_alarm = 2, miss = 2, correct_negative = 2 }\n")
+    result = run_with(text, tuple(RANGES))
+    view = result.stress[0].views[0]
+    assert result.cost_spread is not None  # the costs were drawn
+    np.testing.assert_array_equal(view.mean_cost, (2 * result.model_cost).mean(axis=0))
+    np.testing.assert_array_equal(view.model_cost_at_base, 2 * result.model_cost[:, result.decision.recommended_index])
+    for name, cost in result.baseline_cost.items():
+        np.testing.assert_array_equal(view.baseline_cost[name], 2 * cost)
+    assert view.best_cutoff == result.decision.recommended_cutoff
+
+
+def test_a_new_cost_in_a_case_replaces_the_draw_of_its_range(run_with):
+    """A case that sets the miss cost to 2,600 prices each replicate season with that figure and
+    the base's draws of the other three costs: exactly the run whose miss cost is 2,600 and whose
+    other ranges are drawn, as each cost's draws have a stream of their own (identity, no source)."""
+    ranged = run_with('\n[[stress]]\nname = "miss known"\ncosts = { miss = 2600 }\n', tuple(RANGES))
+    known = run_with("", ("hit", "false_alarm", "correct_negative"), {"miss": 2600})
+    k = ranged.decision.recommended_index
+    view = ranged.stress[0].views[0]
+    np.testing.assert_array_equal(view.model_cost_at_base, known.model_cost[:, k])
+    np.testing.assert_array_equal(view.mean_cost, known.model_cost.mean(axis=0))
+    for name, cost in known.baseline_cost.items():
+        np.testing.assert_array_equal(view.baseline_cost[name], cost)
 
 
 def test_a_forecast_without_skill_costs_what_always_or_never_acting_costs(run_with):

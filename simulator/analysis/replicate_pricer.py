@@ -38,17 +38,20 @@ class ReplicatePricer:
         probabilities, for every replicate occasion (the calibrated mode); persistence then acts
         on the previous drawn outcome and the perfect forecast knows the drawn outcome.
     noise_sd, noise_key : log-odds noise (:func:`log_odds_noise`), seeded with ``noise_key``.
-    drawer : the costs given as ranges, drawn per replicate (as for ``SeasonPricer``); then the
-        extras hold ``MODEL_AT_MEANS`` as ``SeasonPricer``'s do.
+    drawer : the costs given as ranges, drawn per replicate (as for ``SeasonPricer``; a stress
+        case's drawer lays its changes over the draws); then the extras hold ``MODEL_AT_MEANS`` as
+        ``SeasonPricer``'s do, unless ``at_means`` is False.
 
     With none of these changes it is exactly ``SeasonPricer``.
     """
 
     def __init__(self, history: History, cutoffs: np.ndarray, costs: Costs, *, seed: int,
                  forecast: np.ndarray | None = None, outcome_probability: np.ndarray | None = None,
-                 noise_sd: float = 0.0, noise_key: int = 0, drawer: CostDrawer | None = None):
+                 noise_sd: float = 0.0, noise_key: int = 0, drawer: CostDrawer | None = None,
+                 at_means: bool = True):
         forecast = history.p if forecast is None else np.asarray(forecast, dtype=float)
-        self._season_pricer = SeasonPricer(dataclasses.replace(history, p=forecast), cutoffs, costs, drawer)
+        self._season_pricer = SeasonPricer(dataclasses.replace(history, p=forecast), cutoffs, costs, drawer,
+                                           at_means=at_means)
         self._simple = outcome_probability is None and noise_sd == 0
         self._history, self._forecast, self._costs = history, forecast, costs
         self._cutoffs = cutoffs
@@ -78,7 +81,8 @@ class ReplicatePricer:
         held = Contingency(*(cell.sum(axis=1) for cell in (acts & happened, acts & ~happened,
                                                           ~acts & happened, ~acts & ~happened)))
         costs = self._season_pricer.costs_of(block, rows.shape[0])
-        extras = {} if costs is self._costs else {MODEL_AT_MEANS: price(counts, self._costs)}
+        at_means = self._season_pricer.at_means and costs is not self._costs
+        extras = {MODEL_AT_MEANS: price(counts, self._costs)} if at_means else {}
         return PricedBlock(model=price(counts, costs), baselines=price(held, costs), n_events=event.sum(axis=1),
                            extras=extras)
 

@@ -12,7 +12,8 @@ for every strategy and cutoff:
   priced: the forecast's probabilities as issued (it keeps its discrimination but is no longer
   calibrated, as when the world changes under a model), and the probabilities adapted to the new
   rate by Bayes' rule (:func:`~simulator.analysis.probability_changes.prior_shift`).
-- ``costs`` / ``cost_multipliers``: new values or factors for cost keys.
+- ``costs`` / ``cost_multipliers``: new values or factors for cost keys, laid over each replicate
+  season's costs: where the base case draws a cost from its range, over that season's draw.
 - ``skill``: probabilities pulled towards the base rate
   (:func:`~simulator.analysis.probability_changes.degrade`); ``noise``: normal noise of that
   standard deviation added on the log-odds scale, fresh for every replicate occasion.
@@ -20,11 +21,12 @@ for every strategy and cutoff:
 - ``worst_seasons``: replicates built only from the k historical seasons with the highest cost per
   occasion at the base case's recommended cutoff.
 
-Common random numbers: every case draws its replicates from the base case's seeds, so a case that
-changes only costs or the forecast is priced on exactly the base replicates (its differences from
-the base are paired), and ``event_rate = 1`` reproduces the base case exactly. Cases that change how
-replicates are built (tilt, block length, seasons) reuse the same random numbers, which keeps them
-close to the base without making them identical.
+Common random numbers: every case draws its replicates from the base case's seeds, and the costs
+and prices given as ranges from the base case's streams (the case's replicate k has the base's draw
+for replicate k), so a case that changes only costs or the forecast is priced on exactly the base
+replicates (its differences from the base are paired), and ``event_rate = 1`` reproduces the base
+case exactly. Cases that change how replicates are built (tilt, block length, seasons) reuse the
+same random numbers, which keeps them close to the base without making them identical.
 """
 
 from __future__ import annotations
@@ -233,15 +235,21 @@ def _run_case(case: StressCase, base: _Base) -> StressResult:
     each = [view_probabilities(p, training_rate, case.skill, rates) for p in base.forecasts]
     views = each[0]
     noise_key = int.from_bytes(hashlib.sha256(case.name.encode()).digest()[:4], "big")
+    # the costs and prices the base draws per replicate season from ranges, drawn again on the same
+    # streams (common random numbers) with the case's changes laid over them
+    drawer = CostDrawer(base.scenario.costs, base.scenario.cost_ranges(), seed, changes=case.changes_of)
     if base.scenario.operations is None:
         pricers = [[ReplicatePricer(history, base.cutoffs, costs, seed=seed, forecast=p,
                                     noise_sd=case.noise or 0.0, noise_key=noise_key,
-                                    outcome_probability=outcome_probability) for _, p in own] for own in each]
+                                    outcome_probability=outcome_probability, drawer=drawer, at_means=False)
+                    for _, p in views_of]
+                   for views_of in each]
     else:  # every season played under the rules, with the case's prices and forecast
-        rules = base.scenario.model_copy(update={
-            "costs": costs, "operations": case.changed_operations(base.scenario.operations)})
-        pricers = [[_rules_pricer(dataclasses.replace(history, p=p), base, rules, case) for _, p in own]
-                   for own in each]
+        section = base.scenario.operations
+        rules = base.scenario.model_copy(update={"costs": costs, "operations": case.changed_operations(section)})
+        prices = PriceDraws(section, drawer)
+        pricers = [[OperationsPricer(dataclasses.replace(history, p=p), base.calendar, base.cutoffs, rules,
+                                     prices=prices) for _, p in views_of] for views_of in each]
 
     parts: list[list[PricedBlock]] = [[] for _ in views]
     later: list[list[list[np.ndarray]]] = [[[] for _ in views] for _ in each[1:]]  # at each own cutoff
@@ -280,16 +288,6 @@ def _run_case(case: StressCase, base: _Base) -> StressResult:
                         mean_block_days=sampler.mean_block * base.calendar.spacing_days,
                         seasons_used=seasons_used, event_rate=rate_check, views=tuple(out_views),
                         warnings=tuple(warnings))
-
-
-def _rules_pricer(history: History, base: _Base, scenario: Scenario, case: StressCase) -> OperationsPricer:
-    """The operating-rules pricer of a case (``scenario``: the base's with the case's changes),
-    called like :class:`ReplicatePricer`. Prices the base draws per replicate season from ranges
-    are drawn again on the same streams (common random numbers) with the case's changes laid over
-    them."""
-    own = base.scenario
-    drawn = PriceDraws(own.operations, CostDrawer(own.costs, own.cost_ranges(), base.seed), case.changes_of)
-    return OperationsPricer(history, base.calendar, base.cutoffs, scenario, prices=drawn)
 
 
 def _case_resampler(case: StressCase, base: _Base, warnings: list[str]) -> tuple[Resampler, tuple | None]:

@@ -82,30 +82,26 @@ class StressCase(_Section):
     def _changes_something(self):
         if all(getattr(self, key) is None for key in STRESS_CHANGES):
             raise ValueError("a stress case needs at least one change: " + ", ".join(STRESS_CHANGES))
-        new = self.costs.given() if self.costs else {}
-        factors = self.cost_multipliers.given() if self.cost_multipliers else {}
-        both = sorted(set(new) & set(factors))
-        if both:
-            raise ValueError(f'"{both[0]}" has both a new value (costs) and a multiplier '
-                             "(cost_multipliers); keep one")
-        new = self.operations.given() if self.operations else {}
-        factors = self.operations_multipliers.given() if self.operations_multipliers else {}
-        both = sorted(set(new) & set(factors))
-        if both:
-            raise ValueError(f'"{both[0]}" has both a new value (operations) and a multiplier '
-                             "(operations_multipliers); keep one")
+        for table, factors in (("costs", "cost_multipliers"), ("operations", "operations_multipliers")):
+            both = sorted(set(_given(getattr(self, table))) & set(_given(getattr(self, factors))))
+            if both:
+                raise ValueError(f'"{both[0]}" has both a new value ({table}) and a multiplier '
+                                 f"({factors}); keep one")
         return self
 
     def changes_of(self, values: Mapping[str, Any]) -> dict[str, Any]:
-        """The keys of ``values`` (``[operations]`` keys) this case changes, with their new values:
-        a new value replaces, a multiplier multiplies (``standby_rate`` None is the day rate). A
-        value may be a float or an array of prices drawn per replicate season (the multiplier then
-        multiplies each replicate's draw)."""
-        out = {k: v for k, v in (self.operations.given() if self.operations else {}).items() if k in values}
-        for key, factor in (self.operations_multipliers.given() if self.operations_multipliers else {}).items():
+        """The keys of ``values`` (``[costs]`` keys, ``[operations]`` keys or both) this case
+        changes, with their new values: a new value replaces, a multiplier multiplies
+        (``standby_rate`` None is the day rate). A value may be a float or an array drawn per
+        replicate season (the multiplier then multiplies each replicate's draw). The one place a
+        case's changes are laid over costs and prices, fixed (:meth:`changed_costs`,
+        :meth:`changed_operations`) or drawn (:class:`~simulator.pricing.draws.CostDrawer`)."""
+        new = {**_given(self.costs), **_given(self.operations)}  # the two tables' keys are disjoint
+        out = {k: v for k, v in new.items() if k in values}
+        for key, factor in {**_given(self.cost_multipliers), **_given(self.operations_multipliers)}.items():
             current = values.get(key)
             if current is None and key == "standby_rate":
-                current = values["day_rate"]
+                current = values.get("day_rate")
             if current is not None:
                 out[key] = current * factor
         return out
@@ -117,10 +113,12 @@ class StressCase(_Section):
     def changed_costs(self, base: Costs) -> Costs:
         """``base`` with this case's new values and multipliers applied."""
         values = base.model_dump()
-        values.update(self.costs.given() if self.costs else {})
-        for key, factor in (self.cost_multipliers.given() if self.cost_multipliers else {}).items():
-            values[key] = values[key] * factor
+        values.update(self.changes_of(values))
         return Costs.model_construct(**values)  # a factor may take a cost past MAX_MONEY: still finite
+
+
+def _given(changes: _Changes | None) -> dict[str, float]:
+    return {} if changes is None else changes.given()
 
 
 SiteOperations = create_model(

@@ -108,7 +108,8 @@ class SeasonPricer:
     :func:`price`, with the fixed costs or, given a ``drawer`` that draws, with each replicate's
     drawn costs (:class:`~simulator.pricing.draws.CostDrawer`; then the block's number is needed,
     and the extras hold ``MODEL_AT_MEANS``: the model's costs with every cost at its fixed value,
-    the PERT mean of a range). With whole-number costs the costs are exact; with fractional costs
+    the PERT mean of a range; not with ``at_means`` False, for a stress case, whose figures at the
+    means nobody reads). With whole-number costs the costs are exact; with fractional costs
     each is the sum of four products, each correctly rounded. With ``keep_counts`` each priced block
     also carries its counts in its extras (:func:`~simulator.pricing.counts.as_extras`), for a run
     to keep (``RunResult.replicate_counts``). Where no counts are kept and the fixed costs make exact
@@ -118,9 +119,9 @@ class SeasonPricer:
     """
 
     def __init__(self, history: History, cutoffs: np.ndarray, costs: Costs, drawer: CostDrawer | None = None,
-                 keep_counts: bool = False):
+                 keep_counts: bool = False, at_means: bool = True):
         self.costs = costs
-        self.keep_counts = keep_counts
+        self.keep_counts, self.at_means = keep_counts, at_means
         self.n_cutoffs = int(cutoffs.size)
         self.drawer = drawer if drawer is not None and drawer.draws else None
         self._counter = SeasonCounter(history.p, history.event, cutoffs, baseline_actions(history, costs),
@@ -147,7 +148,7 @@ class SeasonPricer:
             return PricedBlock(model=self._by_slots(rows, self._by_slots.share(rows, n_events)),
                                baselines=price(baselines, costs), n_events=n_events)
         counts = self._counter(rows)
-        extras = {} if costs is self.costs else {MODEL_AT_MEANS: price(counts.model, self.costs)}
+        extras = {MODEL_AT_MEANS: price(counts.model, self.costs)} if self.at_means and costs is not self.costs else {}
         if self.keep_counts:
             extras.update(as_extras(counts))
         return PricedBlock(model=price(counts.model, costs), baselines=price(counts.baselines, costs),

@@ -4,9 +4,10 @@
 replicates into the :class:`~simulator.rules.operating_rules.RulePrices` the rules' pricer prices
 the block at (:meth:`~simulator.rules.season_cost.RulesPricer.priced_block`): the prices given as
 one number stay floats, those drawn are (n_rep, 1) arrays. A stress case under ``[operations]``
-prices the same drawn figures with its own changes laid over them (a new value replaces a draw, a
-multiplier multiplies it: :meth:`~simulator.inputs.scenario_changes.StressCase.changes_of`), so the
-case and the base are priced on common random numbers.
+prices the same drawn figures with its own changes laid over them by its drawer (a new value
+replaces a draw, a multiplier multiplies it: :meth:`~simulator.inputs.scenario_changes.StressCase.changes_of`,
+as the case's costs under ``[costs]`` are), so the case and the base are priced on common random
+numbers.
 
 When the scenario gives no ``standby_rate``, the standby rate paid is the day rate, so a standby
 day is paid the *drawn* day rate of that replicate season (after a stress case's change to it).
@@ -14,7 +15,6 @@ day is paid the *drawn* day rate of that replicate season (after a stress case's
 
 from __future__ import annotations
 
-from collections.abc import Callable, Mapping
 from typing import Any
 
 from ..inputs.scenario_tables import PRICE_KEYS, OperationsSection
@@ -22,9 +22,6 @@ from ..pricing.draws import CostDrawer
 from .operating_rules import RulePrices
 
 __all__ = ["PriceDraws"]
-
-Changes = Callable[[Mapping[str, Any]], Mapping[str, Any]]
-"""changes(prices) -> the prices a stress case changes, with their new values (floats or arrays)."""
 
 
 class PriceDraws:
@@ -34,13 +31,12 @@ class PriceDraws:
     ----------
     section : the scenario's ``[operations]`` (the one the ranges belong to; a range's place holds
         its PERT mean).
-    drawer : draws the prices given as ranges (:meth:`CostDrawer.prices`).
-    changes : a stress case's changes (:meth:`StressCase.changes_of`), laid over the drawn prices;
-        None for the scenario's own.
+    drawer : draws the prices given as ranges (:meth:`CostDrawer.prices`), with a stress case's
+        changes laid over them when it has them (``CostDrawer(..., changes=case.changes_of)``).
     """
 
-    def __init__(self, section: OperationsSection, drawer: CostDrawer, changes: Changes | None = None):
-        self.section, self.drawer, self.changes = section, drawer, changes
+    def __init__(self, section: OperationsSection, drawer: CostDrawer):
+        self.section, self.drawer = section, drawer
 
     @property
     def draws(self) -> bool:
@@ -52,10 +48,8 @@ class PriceDraws:
         drawn (the rules' own prices, so the run is the fixed run byte for byte)."""
         if not self.draws:
             return None
-        values: dict[str, Any] = {key: getattr(self.section, key) for key in PRICE_KEYS}  # standby may be None
-        values.update(self.drawer.prices(block, n_rep))
-        if self.changes is not None:
-            values.update(self.changes(values))
+        fixed = {key: getattr(self.section, key) for key in PRICE_KEYS}  # standby may be None
+        values: dict[str, Any] = self.drawer.prices(block, n_rep, fixed)
         if values["standby_rate"] is None:  # standby paid at the (drawn) day rate
             values["standby_rate"] = values["day_rate"]
         return RulePrices(**values)
