@@ -29,7 +29,7 @@ import pytest
 from realdata import seattle_rain
 from simulator import history_from_frame, run_history, scenario_from_text
 from simulator.account.outputs import render_files
-from simulator.analysis.sensitivity import VARY
+from simulator.analysis.sensitivity import NOTES, VARY
 from simulator.pricing.decision import cheaper
 from test_sites import SITES_TOML, correlated_sites
 
@@ -190,12 +190,13 @@ def test_summary_csv_report_and_account_carry_the_portfolio_and_each_site(frame)
     assert "Sites whose advice is closest to switching" in page and "figures/tornado.png" in files
 
 
-def test_sites_under_operating_rules_keep_a_note(frame):
+def test_sites_with_rules_beside_sites_without_keep_a_note(frame):
+    # South plays its seasons under [operations], North is priced by [costs]: no common inputs to move
     text = SITES_TOML + ('[season]\n' if "[season]" not in SITES_TOML else "")
     text += ('[sites."South".operations]\ncrews_out_on = "acting"\nspoiled_on = "no_event"\n'
              "day_rate = 900\nwork = 60\n")
     _, result = _run(frame, text, replicates=40)
-    assert result.sensitivity.costs == () and "[operations]" in result.sensitivity.note
+    assert result.sensitivity.costs == () and result.sensitivity.note == NOTES["mixed"]
     assert all(site.sensitivity is None for site in result.sites)
 
 
