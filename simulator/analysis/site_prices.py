@@ -35,6 +35,7 @@ import numpy as np
 from ..inputs.history import History
 from ..inputs.scenario import Scenario
 from ..inputs.scenario_tables import PRICE_KEYS
+from ..pricing.decision import cheaper
 from ..replay.resample import Calendar
 from ..rules.operations_result import OperationsResult
 from .rules_sensitivity import TIED, of_operations_run, operations_pricing
@@ -105,7 +106,9 @@ def portfolio_prices(scenario: Scenario, names: Sequence[str], own: Sequence[Sen
         remarks.append("Left out, as every site gives its own or they play no part at any site: "
                        + "; ".join(left_out) + ".")
     if not moved:  # every site gives its own prices: only the sites' own tables
-        return PortfolioSensitivity(costs=(), use_forecast=use_forecast, sites=tuple(zip(names, own)),
-                                    moved="operations", remark=" ".join(remarks))
+        return PortfolioSensitivity(costs=(), saving=float((columns[:, 1] - columns[:, 0]).mean()),
+                                    prob_saving=float(cheaper(columns[:, 0], columns[:, 1]).mean()),
+                                    use_forecast=use_forecast, sites=tuple(zip(names, own)), moved="operations",
+                                    remark=" ".join(remarks))
     found = portfolio_one_way(moved, PRICE_INPUTS, names, own, shared, columns, use_forecast=use_forecast)
     return replace(found, moved="operations", remark=" ".join(remarks))
