@@ -46,8 +46,10 @@ to the run's time, at 10 sites x 5,000 replicates about 50%; more than the 20% h
 machine's load moves each figure by a third from run to run. Memory: the workers' peak is unchanged
 (214 MB), the main process holds about 20 MB more.
 
-With ``[operations]`` (at any site) or the calibrated mode there is no sensitivity, only a note
-(:data:`simulator.analysis.sensitivity.NOTES`).
+The portfolio's part runs on any inputs moved (:func:`input_columns`, :func:`portfolio_one_way`):
+here the four ``[costs]``; under ``[operations]`` at every site the rules' prices
+(:mod:`simulator.analysis.site_prices`). With rules at some sites only there is no sensitivity,
+only a note (:data:`simulator.analysis.sensitivity.NOTES`).
 """
 
 from __future__ import annotations
