@@ -29,11 +29,11 @@ from pathlib import Path
 import pandas as pd
 import pytest
 
+from scenario_text import check_portfolio_end, with_value
 from simulator import history_from_frame, run_history, scenario_from_text
 from simulator.account.outputs import render_files
 from simulator.analysis.sensitivity import VARY
 from simulator.analysis.site_prices import NO_VERDICT
-from simulator.pricing.decision import cheaper
 
 RULES = Path(__file__).resolve().parent.parent / "scenarios" / "line_marking_rules.toml"
 SOUTH_SPOILAGE = '[sites."South".operations]\nspoilage_cost = 600\n'
@@ -54,13 +54,7 @@ def _text() -> str:
 
 def _moved(text: str, key: str, value: float) -> str:
     """The text with one price of the scenario's [operations] set to ``value``."""
-    lines = text.split("\n")
-    start = lines.index("[operations]")
-    for i in range(start + 1, len(lines)):
-        if lines[i].startswith(f"{key} = "):
-            lines[i] = f"{key} = {value!r}"
-            return "\n".join(lines)
-    raise AssertionError(key)
+    return with_value(text, "[operations]", key, value)
 
 
 @pytest.fixture(scope="module")
@@ -114,13 +108,7 @@ def test_the_portfolios_ends_equal_a_full_site_run_with_that_price_moved(frame, 
         assert entry.verdict_switch is None  # left out under the rules, and the remark says so
         for end in (entry.low, entry.high):
             full = _run(frame, _moved(text, key, end.value))
-            p = full.portfolio
-            assert end.mean_saving == pytest.approx(float((p.reference_cost - p.own_cost).mean()), rel=1e-12)
-            assert end.prob_saving == float(cheaper(p.own_cost, p.reference_cost).mean())
-            moved = sum(site.decision.recommended_cutoff != base_cutoffs[site.name] for site in full.sites)
-            assert end.sites_moved == moved
-            # the portfolio's mean saving is the sum of the sites' (each chooses alone)
-            assert end.mean_saving == pytest.approx(sum(site.decision.savings.mean for site in full.sites), rel=1e-12)
+            check_portfolio_end(end, full, base_cutoffs)
     p = result.portfolio
     assert s.saving == pytest.approx(float((p.reference_cost - p.own_cost).mean()), rel=1e-12)
     assert NO_VERDICT in s.remark
