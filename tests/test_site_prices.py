@@ -134,3 +134,16 @@ def test_summary_csv_report_and_account_name_the_prices_for_the_portfolio_and_ea
     assert "Which price of the rules matters" in page and "Day rate" in page and "figures/tornado.png" in files
     assert "verdict is not looked for at other prices" in page  # the remark, escaped as the page writes it
 
+
+
+def test_when_every_site_gives_its_own_prices_only_the_sites_own_tables_remain(frame):
+    own = "day_rate = 800\nstandby_rate = 400\nspoilage_cost = 700\ndamages_per_day_late = 3000\nunfinished_cost = 2000\n"
+    text = _text().replace("replicates = 120", "replicates = 40") + "".join(
+        f'[sites."{name}".operations]\n{own}' for name in ("North", "South"))
+    result = _run(frame, text)
+    s = result.sensitivity
+    assert s.costs == () and s.note is None and "Left out, as every site gives its own" in s.remark
+    assert [name for name, _ in s.sites] == ["North", "South"] and all(site.costs for _, site in s.sites)
+    files = render_files(result)
+    table = pd.read_csv(io.BytesIO(files["sensitivity.csv"]), keep_default_na=False)
+    assert set(table["site"]) == {"North", "South"}  # each site's own rows, no portfolio's

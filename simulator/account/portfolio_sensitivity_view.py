@@ -192,7 +192,8 @@ def portfolio_report_section(entry: Mapping[str, Any], currency: str, occasion: 
     return {"note": "", "portfolio": True, "rows": rows,
             "sentence": portfolio_sentence(entry, currency, occasion), "saving": money(entry["saving"], currency),
             "sites": len(entry["sites"]), "closest": closest, "reach": f"{REACH:g}", "vary": f"{VARY:.0%}",
-            "noun": "price" if prices else "cost", "prices": prices, "remark": entry.get("remark") or "",
+            "noun": "price" if prices else "cost", "prices": prices,
+            "remark": (entry.get("remark") or "") if entry["costs"] else "",  # else the sentence says it
             "labels": [bar_label(c, currency) for c in entry["costs"]],
             "change_low": [c["saving_change"]["low"] for c in entry["costs"]],
             "change_high": [c["saving_change"]["high"] for c in entry["costs"]]}
