@@ -66,8 +66,9 @@ class SiteResult:
     # and which one wins here, each at its own cutoff (simulator.analysis.winners)
     own_cutoffs: tuple[int, ...] = ()
     contest: Contest | None = None
-    # which of its cost estimates matters (analysis/site_sensitivity.py): its own sensitivity, as a
-    # run of it alone gives it; None under [operations]. ``portfolio_columns`` (n_replicates, 18) is
+    # which of its cost estimates matters (analysis/site_sensitivity.py; under [operations] its rules'
+    # prices, analysis/site_prices.py): its own sensitivity, as a run of it alone gives it; None when
+    # only some sites have rules. ``portfolio_columns`` (n_replicates, 18; 22 under [operations]) is
     # what it adds to the portfolio's ends, carried only until the tasks add it up
     sensitivity: Sensitivity | None = None
     portfolio_columns: np.ndarray | None = None

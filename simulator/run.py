@@ -30,8 +30,9 @@ from .analysis.calibration import calibrate
 from .analysis.selection import select_honestly
 from .analysis.rules_sensitivity import of_operations_run
 from .analysis.sensitivity import NOTES, of_run
+from .analysis.site_prices import portfolio_prices
 from .analysis.site_sensitivity import (PortfolioSensitivity, portfolio_sensitivity, portfolio_verdict,
-                                        shared_costs)
+                                        shared_inputs)
 from .analysis.stress import run_stress
 from .analysis.verdict import RULES, Verdict, best_rule, judge, season_costs, together
 from .execution.pool import prepare
@@ -256,11 +257,11 @@ def _run_sites(scenario: Scenario, history: History, *, replicates: int, seed: i
     calendar = season_calendar(history, scenario.season)
     mean_block = choose_mean_block(history, scenarios, calendar)
     resampler = Resampler(history, calendar, mean_block, sim.window_days)
-    fixed_costs = _with_sensitivity(scenarios)  # each site's sensitivity needs its counts
+    moved = _with_sensitivity(scenarios)  # with fixed costs each site's sensitivity needs its counts
     work = _Work(resampler=resampler, scenarios=scenarios, cutoffs=cutoffs, seed=seed,
                  replicates=replicates, processes=tuple(processes), outcome_probability=None,
-                 n_forecasts=max(1, len(history.forecast_names)), keep_counts=fixed_costs,
-                 shared_costs=tuple(shared_costs(scenario, name) for name in names) if fixed_costs else ())
+                 n_forecasts=max(1, len(history.forecast_names)), keep_counts=moved == "costs",
+                 shared_inputs=tuple(shared_inputs(scenario, name) for name in names) if moved else ())
     total = _Totals(len(names))
     results: dict[int, SiteResult] = {}
     forward = sim.walk_forward if walk_forward is None else walk_forward
@@ -326,23 +327,34 @@ def _run_sites(scenario: Scenario, history: History, *, replicates: int, seed: i
                      baseline_cost=baseline_cost, table=table, quality=quality,
                      value_curve=value_curve, reliability=reliability,
                      warnings=tuple(warnings), portfolio=portfolio, events_without_action=unprotected,
-                     verdict=verdict, sensitivity=_portfolio_sensitivity(scenario, sites, total.columns, calendar))
+                     verdict=verdict, sensitivity=_portfolio_sensitivity(scenario, sites, total.columns, calendar,
+                                                                         work.shared_inputs, verdict))
 
 
-def _with_sensitivity(scenarios: Sequence[Scenario]) -> bool:
-    """Whether a run with a site column computes which cost estimate matters: with fixed costs at
-    every site (no ``[operations]``), the only case its sites keep their replicate counts."""
-    return all(s.operations is None for s in scenarios)
+def _with_sensitivity(scenarios: Sequence[Scenario]) -> str | None:
+    """What a run with a site column moves to see which estimate matters: ``"costs"`` with fixed
+    costs at every site (its sites then keep their replicate counts), ``"operations"`` with
+    ``[operations]`` at every site (the rules' prices, on the played seasons); None when some sites
+    have rules and others not (the note ``NOTES["mixed"]``)."""
+    if all(s.operations is None for s in scenarios):
+        return "costs"
+    return "operations" if all(s.operations is not None for s in scenarios) else None
 
 
 def _portfolio_sensitivity(scenario: Scenario, sites: Sequence[SiteResult], columns: np.ndarray | None,
-                           calendar: Calendar) -> PortfolioSensitivity:
-    """Which cost estimate matters for the portfolio and at each site, or a note under ``[operations]``."""
+                           calendar: Calendar, shared: Sequence[Sequence[str]],
+                           verdict: Verdict | None) -> PortfolioSensitivity:
+    """Which estimate matters for the portfolio and at each site: the scenario's costs, or under
+    ``[operations]`` its rules' prices; a note when only some sites have rules."""
     if columns is None:
-        return PortfolioSensitivity(costs=(), note=NOTES["operations"])
-    verdict = portfolio_verdict(scenario, [(site.name, site.scenario, site.season_table) for site in sites], calendar)
-    return portfolio_sensitivity(scenario, [site.name for site in sites], [site.sensitivity for site in sites],
-                                 columns, verdict)
+        return PortfolioSensitivity(costs=(), note=NOTES["mixed"])
+    names, own = [site.name for site in sites], [site.sensitivity for site in sites]
+    if sites[0].scenario.operations is not None:
+        return portfolio_prices(scenario, names, own, shared, columns,
+                                None if verdict is None or verdict.n_seasons < 2 else verdict.use_forecast)
+    moved_verdict = portfolio_verdict(scenario, [(site.name, site.scenario, site.season_table) for site in sites],
+                                      calendar)
+    return portfolio_sensitivity(scenario, names, own, columns, moved_verdict)
 
 
 def _label(scenario: Scenario) -> str:

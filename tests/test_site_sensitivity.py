@@ -27,10 +27,10 @@ import pandas as pd
 import pytest
 
 from realdata import seattle_rain
+from scenario_text import check_portfolio_end, with_value
 from simulator import history_from_frame, run_history, scenario_from_text
 from simulator.account.outputs import render_files
-from simulator.analysis.sensitivity import VARY
-from simulator.pricing.decision import cheaper
+from simulator.analysis.sensitivity import NOTES, VARY
 from test_sites import SITES_TOML, correlated_sites
 
 JUST = 2e-6  # "just past" / "just short": this share of the span searched, wider than the bisection's width
@@ -49,14 +49,8 @@ def _run(frame, text: str, replicates: int | None = None):
 
 
 def _moved(text: str, key: str, value: float) -> str:
-    """The scenario's text with one cost of [costs] set to ``value``."""
-    lines = text.split("\n")
-    start = lines.index("[costs]")
-    for i in range(start + 1, len(lines)):
-        if lines[i].startswith(f"{key} = "):
-            lines[i] = f"{key} = {value!r}"
-            return "\n".join(lines)
-    raise AssertionError(key)
+    """The text with one cost of [costs] set to ``value``."""
+    return with_value(text, "[costs]", key, value)
 
 
 @pytest.fixture(scope="module", params=["mean", "shortfall10"])
@@ -78,13 +72,7 @@ def test_the_portfolios_ends_equal_a_full_site_run_with_that_cost_moved(frame, s
             sorted([entry.base * (1 - VARY), entry.base * (1 + VARY)]))
         for end in (entry.low, entry.high):
             _, full = _run(frame, _moved(text, key, end.value))
-            p = full.portfolio
-            assert end.mean_saving == pytest.approx(float((p.reference_cost - p.own_cost).mean()), rel=1e-12)
-            assert end.prob_saving == float(cheaper(p.own_cost, p.reference_cost).mean())
-            moved = sum(site.decision.recommended_cutoff != base_cutoffs[site.name] for site in full.sites)
-            assert end.sites_moved == moved
-            # the portfolio's mean saving is the sum of the sites' (each chooses alone)
-            assert end.mean_saving == pytest.approx(sum(site.decision.savings.mean for site in full.sites), rel=1e-12)
+            check_portfolio_end(end, full, base_cutoffs)
     p = result.portfolio
     assert s.saving == pytest.approx(float((p.reference_cost - p.own_cost).mean()), rel=1e-12)
 
@@ -190,12 +178,13 @@ def test_summary_csv_report_and_account_carry_the_portfolio_and_each_site(frame)
     assert "Sites whose advice is closest to switching" in page and "figures/tornado.png" in files
 
 
-def test_sites_under_operating_rules_keep_a_note(frame):
+def test_sites_with_rules_beside_sites_without_keep_a_note(frame):
+    # South plays its seasons under [operations], North is priced by [costs]: no common inputs to move
     text = SITES_TOML + ('[season]\n' if "[season]" not in SITES_TOML else "")
     text += ('[sites."South".operations]\ncrews_out_on = "acting"\nspoiled_on = "no_event"\n'
              "day_rate = 900\nwork = 60\n")
     _, result = _run(frame, text, replicates=40)
-    assert result.sensitivity.costs == () and "[operations]" in result.sensitivity.note
+    assert result.sensitivity.costs == () and result.sensitivity.note == NOTES["mixed"]
     assert all(site.sensitivity is None for site in result.sites)
 
 

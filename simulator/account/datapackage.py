@@ -171,7 +171,7 @@ _COLUMNS: dict[str, tuple[str, str]] = {
     "prob_saving_at_high": ("share of replicate seasons in which cutoff_at_high saves, cost at its high end",
                             "share"),
     "verdict_switch_down": ("the cost below today's at which the verdict (use the forecast or not; a portfolio's row: "
-                            "the portfolio's verdict) changes; "
+                            "the portfolio's verdict, empty under [operations], where it is not searched) changes; "
                             "empty: not from search_low up", "{cur}, per value_unit"),
     "verdict_switch_up": ("the cost above today's at which the verdict changes; empty: not up to search_high",
                           "{cur}, per value_unit"),
@@ -184,7 +184,8 @@ _COLUMNS: dict[str, tuple[str, str]] = {
     "search_high": ("highest cost the switching values were looked for at (10 times the cost, or the largest "
                     "cost)", "{cur}, per value_unit"),
     # sensitivity.csv with a site column: the portfolio's rows (site empty)
-    "sites_sharing": ("sites that take this cost from the scenario's [costs] (a site's own cost does not move)",
+    "sites_sharing": ("sites that take this cost from the scenario's [costs], or this price from its [operations] "
+                      "where it plays a part (a site's own cost or price does not move)",
                       "count of sites"),
     "sites_moved_at_low": ("sites whose own recommended cutoff changes with the cost at its low end", "count of sites"),
     "sites_moved_at_high": ("sites whose own recommended cutoff changes with the cost at its high end",

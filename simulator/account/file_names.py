@@ -24,7 +24,7 @@ def table_names(result: RunResult) -> list[str]:
         names.append("sites.csv")
     if result.comparison is not None:
         names.append("forecasts.csv")
-    if result.sensitivity is not None and result.sensitivity.costs:
-        names.append("sensitivity.csv")
+    if result.sensitivity is not None and (result.sensitivity.costs or getattr(result.sensitivity, "sites", ())):
+        names.append("sensitivity.csv")  # with a site column, each site's own rows even when the portfolio has none
     names.append("datapackage.json")  # describes the CSV files above, so it comes after them
     return names

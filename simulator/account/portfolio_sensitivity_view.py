@@ -17,9 +17,10 @@ import pandas as pd
 from ..analysis.sensitivity import REACH, VARY
 from ..analysis.site_sensitivity import PortfolioSensitivity
 from ..notation.prose import money, share
-from .sensitivity_view import COST_WORDS, _switch, bar_label, sensitivity_entry, sensitivity_frame
+from .sensitivity_view import (COST_WORDS, PRICE_UNITS, _per, _prices, _switch, bar_label, sensitivity_entry,
+                               sensitivity_frame)
 
-__all__ = ["PORTFOLIO_BASIS", "is_portfolio", "portfolio_entry", "portfolio_frame", "portfolio_sentence",
+__all__ = ["PORTFOLIO_BASIS", "PORTFOLIO_PRICES_BASIS", "is_portfolio", "portfolio_entry", "portfolio_frame", "portfolio_sentence",
            "portfolio_report_section"]
 
 PORTFOLIO_BASIS = (f"each of the scenario's costs moved alone for every site that takes it from [costs] (a site's "
@@ -27,6 +28,13 @@ PORTFOLIO_BASIS = (f"each of the scenario's costs moved alone for every site tha
                    f"other {VARY:.0%} below and above); at each end every site chooses its own cutoff again, and "
                    f"the portfolio's total saving against the reference is priced per season over the simulated "
                    f"seasons; switching values looked for from 0 to {REACH:g} times each cost")
+PORTFOLIO_PRICES_BASIS = (f"each of the operating rules' prices in the scenario's [operations] moved alone for every site "
+                          f"that takes it from there (a site's own price does not move), the others held (a price given "
+                          f"as a range at its low and high, any other {VARY:.0%} below and above); each site's replicate "
+                          f"seasons as the run played them, priced again at each end; at each end every site chooses "
+                          f"its own cutoff again, and the portfolio's total saving against the reference is priced per "
+                          f"season over the simulated seasons; switching values of a site's advice looked for from 0 to "
+                          f"{REACH:g} times each price")
 
 
 def is_portfolio(entry: Mapping[str, Any] | None) -> bool:
@@ -55,11 +63,15 @@ def portfolio_entry(sensitivity: PortfolioSensitivity) -> dict[str, Any]:
     own advice changes, each way: ``value``, ``site``, ``advice`` "verdict" or "band"), ``search``;
     ``closest_sites``: the sites whose advice switches after the smallest move (``site``, ``key``,
     ``base``, ``value``, ``advice``, ``relative``: the move over the cost); ``sites``: each site's own
-    block in the single-site form, by name; ``note``: why there is none, when there is none."""
+    block in the single-site form, by name; ``note``: why there is none, when there is none. Under
+    ``[operations]`` the entries are the rules' prices (keys ``operations.<price>``), ``verdict`` is
+    null (the portfolio's verdict is not searched at other prices) and ``remark`` says so, and which
+    prices were left out or move together."""
     if sensitivity.note is not None:
         return {"scope": "portfolio", "costs": [], "note": sensitivity.note}
     s = sensitivity
-    return {"scope": "portfolio", "basis": PORTFOLIO_BASIS, "saving": s.saving, "prob_saving": s.prob_saving,
+    out = {"scope": "portfolio", "basis": PORTFOLIO_PRICES_BASIS if s.moved == "operations" else PORTFOLIO_BASIS,
+            "saving": s.saving, "prob_saving": s.prob_saving,
             "use_forecast": s.use_forecast,
             "costs": [{"key": c.key, "base": c.base, "varied": c.varied, "sharing": c.sharing,
                        "low": _end(c.low), "high": _end(c.high),
@@ -71,6 +83,9 @@ def portfolio_entry(sensitivity: PortfolioSensitivity) -> dict[str, Any]:
                                "relative": c.relative} for c in s.closest],
             "sites": {name: sensitivity_entry(own) for name, own in s.sites},
             "note": None}
+    if s.moved == "operations":
+        out["remark"] = s.remark
+    return out
 
 
 def portfolio_frame(entry: Mapping[str, Any], currency: str = "") -> pd.DataFrame:
@@ -82,7 +97,7 @@ def portfolio_frame(entry: Mapping[str, Any], currency: str = "") -> pd.DataFram
     for c in entry["costs"]:
         verdict = c["switching"]["verdict"] or {"down": None, "up": None}
         first = c["switching"]["first_site"]
-        rows.append({"site": "", "cost_key": c["key"], "value_unit": f"{currency} per occasion".strip(),
+        rows.append({"site": "", "cost_key": c["key"], "value_unit": f"{currency} {_per(c['key'], 'occasion', 'per')}".strip(),
                      "varied": c["varied"], "base_value": c["base"],
                      "low_value": c["low"]["value"], "high_value": c["high"]["value"],
                      "cutoff_at_low": None, "cutoff_at_high": None,
@@ -104,7 +119,8 @@ def portfolio_frame(entry: Mapping[str, Any], currency: str = "") -> pd.DataFram
         frames.append(sensitivity_frame(own, currency).assign(site=name))
     table = pd.concat(frames, ignore_index=True)
     for column in ("sites_sharing", "sites_moved_at_low", "sites_moved_at_high"):  # counts, empty on a site's rows
-        table[column] = table[column].astype("Int64")
+        if column in table:
+            table[column] = table[column].astype("Int64")
     return table[["site", *[column for column in table.columns if column != "site"]]]
 
 
@@ -112,11 +128,14 @@ def portfolio_sentence(entry: Mapping[str, Any], currency: str, occasion: str = 
     """Which of the scenario's estimates matters most for the portfolio, in one plain sentence."""
     if entry.get("note"):
         return entry["note"]
+    if not entry["costs"]:  # every site gives its own prices: only the sites' own tables
+        return entry.get("remark") or ""
     top = entry["costs"][0]
     words = COST_WORDS.get(top["key"], top["key"])
     varied = "the ends of its range" if top["varied"] == "range" else f"{VARY:.0%} less and more"
     n = top["sharing"]
-    said = (f"For the portfolio, the {words} ({money(top['base'], currency)} a {occasion} at {n} "
+    said = (f"For the portfolio, the {words} ({money(top['base'], currency)} {_per(top['key'], occasion)}"
+            f"{',' if top['key'] in PRICE_UNITS else ''} at {n} "
             f"site{'' if n == 1 else 's'}) matters most: at {varied} ({money(top['low']['value'], currency)} and "
             f"{money(top['high']['value'], currency)}) the sites together, each at its own cutoff, save "
             f"{money(top['low']['mean_saving'], currency)} and {money(top['high']['mean_saving'], currency)} a season "
@@ -143,6 +162,7 @@ def portfolio_report_section(entry: Mapping[str, Any], currency: str, occasion: 
     the tornado's labels and bars, and the sites closest to switching; or only the note."""
     if entry.get("note"):
         return {"note": entry["note"], "rows": [], "sentence": "", "portfolio": True, "prices": False}
+    prices = _prices(entry) or entry.get("remark") is not None
 
     def at(end: Mapping[str, Any], sharing: int) -> dict[str, str]:
         return {"value": money(end["value"], currency),
@@ -158,19 +178,22 @@ def portfolio_report_section(entry: Mapping[str, Any], currency: str, occasion: 
     rows = []
     for c in entry["costs"]:
         verdict = c["switching"]["verdict"]
-        rows.append({"name": COST_WORDS.get(c["key"], c["key"]).capitalize(), "base": money(c["base"], currency),
+        rows.append({"name": COST_WORDS.get(c["key"], c["key"]).capitalize(), "unit": PRICE_UNITS.get(c["key"], ""),
+                     "base": money(c["base"], currency),
                      "sharing": c["sharing"], "low": at(c["low"], c["sharing"]), "high": at(c["high"], c["sharing"]),
                      "verdict": (["–"] if verdict is None else
                                  [f"{w} {'none' if verdict[side] is None else money(verdict[side], currency)}"
                                   for w, side in (("below:", "down"), ("above:", "up"))]),
                      "first": [first(side, c["switching"]["first_site"][side]) for side in ("down", "up")]})
     closest = [f"\u201c{c['site']}\u201d: its {COST_WORDS.get(c['key'], c['key'])} "
-               f"({money(c['base'], currency)} a {occasion}) moved to {money(c['value'], currency)} "
+               f"({money(c['base'], currency)} {_per(c['key'], occasion)}) moved to {money(c['value'], currency)} "
                f"(a move of {share(c['relative'])}) changes its {'verdict' if c['advice'] == 'verdict' else 'cutoff band'}"
                for c in entry["closest_sites"]]
     return {"note": "", "portfolio": True, "rows": rows,
             "sentence": portfolio_sentence(entry, currency, occasion), "saving": money(entry["saving"], currency),
             "sites": len(entry["sites"]), "closest": closest, "reach": f"{REACH:g}", "vary": f"{VARY:.0%}",
-            "noun": "cost", "prices": False, "labels": [bar_label(c, currency) for c in entry["costs"]],
+            "noun": "price" if prices else "cost", "prices": prices,
+            "remark": (entry.get("remark") or "") if entry["costs"] else "",  # else the sentence says it
+            "labels": [bar_label(c, currency) for c in entry["costs"]],
             "change_low": [c["saving_change"]["low"] for c in entry["costs"]],
             "change_high": [c["saving_change"]["high"] for c in entry["costs"]]}

@@ -38,7 +38,8 @@ from ..rules.operations_result import OperationsResult
 from .sensitivity import REACH, VARY, Moved, Pricing, Sensitivity, one_way
 from .verdict import judge, played_season_pricer
 
-__all__ = ["price_ends", "rules_pricing", "rules_verdict_at", "of_operations_run", "TIED", "LEFT_OUT"]
+__all__ = ["price_ends", "rules_pricing", "rules_verdict_at", "operations_pricing", "of_operations_run", "TIED",
+           "LEFT_OUT"]
 
 TIED = ("No standby_rate is given, so standby days are paid the day rate: moving the day rate moves the "
         "standby rate paid with it.")
@@ -144,18 +145,26 @@ def rules_verdict_at(history: History, calendar: Calendar, cutoffs: np.ndarray, 
     return use_forecast
 
 
-def of_operations_run(scenario: Scenario, history: History, calendar: Calendar, operations: OperationsResult,
-                      band: tuple[float, float], rule: str | None) -> Sensitivity:
-    """The sensitivity of a single-site run under ``[operations]`` to the rules' prices. ``rule`` is
-    the verdict's best rule without the forecast (None: no verdict); ``band`` today's near-optimal
-    band."""
+def operations_pricing(scenario: Scenario, operations: OperationsResult) -> tuple[list[Moved], str | None, Pricing]:
+    """The rules' prices a run under ``[operations]`` moves (:func:`price_ends`, a price given as a
+    range of some width to its ends; one of zero width is a fixed price, moved by 25%), the table's
+    remark, and the run's played seasons as a function of the prices (:func:`rules_pricing`)."""
     section = scenario.operations
-    # prices given as ranges with some width (one of zero width is a fixed price, moved by 25%)
     ranges = {key: r for key, r in scenario.cost_ranges().items()
               if key.startswith("operations.") and r.high > r.low}
     moved, remark = price_ends(section, operations.rules, ranges)
+    pricing = rules_pricing(operations, section, moved, scenario.simulation.reference, scenario.decision.objective)
+    return moved, remark, pricing
+
+
+def of_operations_run(scenario: Scenario, history: History, calendar: Calendar, operations: OperationsResult,
+                      band: tuple[float, float], rule: str | None,
+                      priced: tuple[list[Moved], str | None, Pricing] | None = None) -> Sensitivity:
+    """The sensitivity of a single-site run under ``[operations]`` to the rules' prices. ``rule`` is
+    the verdict's best rule without the forecast (None: no verdict); ``band`` today's near-optimal
+    band; ``priced``: :func:`operations_pricing` of the run, when made already."""
+    moved, remark, pricing = priced or operations_pricing(scenario, operations)
     objective = scenario.decision.objective
-    pricing = rules_pricing(operations, section, moved, scenario.simulation.reference, objective)
     verdict = None if rule is None else rules_verdict_at(history, calendar, scenario.cutoffs, scenario, rule)
     return replace(one_way(moved, pricing, objective=objective, cutoffs=scenario.cutoffs, band=band,
                            use_forecast=verdict), moved="operations", remark=remark)

@@ -55,7 +55,7 @@ from ..replay.resample import Calendar
 from .verdict import season_pricer, worth_using
 
 __all__ = ["VARY", "REACH", "End", "Switch", "CostSensitivity", "Sensitivity", "Moved", "Pricing", "search_span",
-           "choose", "choose_priced", "mean_counts", "cost_ends", "switching_value", "verdict_at", "one_way", "sensitivity", "of_run",
+           "choose", "choose_priced", "mean_counts", "cost_ends", "cost_moves", "switching_value", "verdict_at", "one_way", "sensitivity", "of_run",
            "NOTES"]
 
 VARY = 0.25  # a cost without a range is moved by this share down and up (the issue's plus and minus 25%)
@@ -65,8 +65,8 @@ _STEPS = 18  # bisection steps: to within the span / 8 / 2^18, two millionths of
 
 
 NOTES = {
-    "operations": ("No sensitivity to the costs under [operations] with a site column yet: run a site's history "
-                   "alone to see which of its rules' prices matters."),
+    "mixed": ("No sensitivity when some sites play their seasons under [operations] and others are priced by "
+              "[costs]: run each kind of site apart to see which estimate matters."),
     "calibrated": ("No sensitivity to the costs in the calibrated mode yet: use mode = \"replay\" to see which "
                    "cost estimate matters."),
 }
@@ -189,6 +189,16 @@ def cost_ends(costs: Costs, ranges: Mapping[str, object] | None = None) -> dict[
             a, b = value * (1 - VARY), value * (1 + VARY)
             out[key] = (value, min(a, b), max(a, b), "25%")
     return out
+
+
+def cost_moves(costs: Costs, ranges: Mapping[str, object] | None = None) -> list[Moved]:
+    """Each cost of ``[costs]`` to move (:class:`Moved`, in :data:`COST_KEYS` order, keyed
+    ``"costs.<key>"``): its ends (:func:`cost_ends`) and the span its switching values are looked for
+    in (:func:`search_span`, a cost of 0 by the largest cost)."""
+    ends = cost_ends(costs, ranges)
+    scale = max(abs(v[0]) for v in ends.values()) or 1.0
+    return [Moved(key=f"costs.{key}", base=base, low=low, high=high, varied=varied, search=search_span(base, scale))
+            for key, (base, low, high, varied) in ends.items()]
 
 
 def choose(counts: ReplicateCounts, costs: Costs, reference: str, objective: str,
@@ -338,11 +348,8 @@ def sensitivity(counts: ReplicateCounts, costs: Costs, *, reference: str, object
     cutoffs, band, use_forecast : as :func:`one_way` takes them (the verdict at given costs).
     ranges : costs given as a range (``Scenario.cost_ranges()``), keyed ``"costs.<key>"``.
     """
-    ends = cost_ends(costs, ranges)
-    held = costs.model_copy(update={key: base for key, (base, *_rest) in ends.items()})
-    scale = max(abs(v[0]) for v in ends.values()) or 1.0
-    moved = [Moved(key=f"costs.{key}", base=base, low=low, high=high, varied=varied, search=search_span(base, scale))
-             for key, (base, low, high, varied) in ends.items()]
+    moved = cost_moves(costs, ranges)
+    held = costs.model_copy(update={m.key.removeprefix("costs."): m.base for m in moved})
     means = mean_counts(counts)
     pricing = Pricing(held=held, at=lambda key, value: held.model_copy(update={key.removeprefix("costs."): value}),
                       season_costs=_counts_priced(counts, reference), chosen=_chooser(counts, objective, means),

@@ -46,34 +46,39 @@ to the run's time, at 10 sites x 5,000 replicates about 50%; more than the 20% h
 machine's load moves each figure by a third from run to run. Memory: the workers' peak is unchanged
 (214 MB), the main process holds about 20 MB more.
 
-With ``[operations]`` (at any site) or the calibrated mode there is no sensitivity, only a note
-(:data:`simulator.analysis.sensitivity.NOTES`).
+The portfolio's part runs on any inputs moved (:func:`input_columns`, :func:`portfolio_one_way`):
+here the four ``[costs]``; under ``[operations]`` at every site the rules' prices
+(:mod:`simulator.analysis.site_prices`). With rules at some sites only there is no sensitivity,
+only a note (:data:`simulator.analysis.sensitivity.NOTES`).
 """
 
 from __future__ import annotations
 
 import dataclasses
 import math
-from collections.abc import Callable, Sequence
+from collections.abc import Callable, Collection, Sequence
 from dataclasses import dataclass
 
 import numpy as np
 
 from ..inputs.scenario import Scenario
 from ..inputs.scenario_costs import COST_KEYS, Costs
+from ..inputs.scenario_tables import PRICE_KEYS
 from ..inputs.scenario_types import BASELINES
 from ..pricing.contingency import Contingency
 from ..pricing.costs import price
 from ..pricing.counts import ReplicateCounts
 from ..pricing.decision import cheaper
 from ..replay.resample import Calendar
-from .sensitivity import Sensitivity, Switch, cost_ends, search_span, sensitivity, switching_value
+from .sensitivity import Moved, Sensitivity, Switch, cost_moves, sensitivity, switching_value
 from .verdict import RULES, SeasonTable, together, worth_using
 
 __all__ = ["CLOSEST", "PortfolioEnd", "FirstSite", "PortfolioCost", "Closest", "PortfolioSensitivity", "of_site",
-           "portfolio_columns", "portfolio_sensitivity", "portfolio_verdict", "shared_costs", "N_COLUMNS"]
+           "portfolio_columns", "portfolio_sensitivity", "portfolio_verdict", "shared_costs", "N_COLUMNS",
+           "COST_INPUTS", "input_columns", "portfolio_one_way", "shared_inputs"]
 
 CLOSEST = 3  # sites named as closest to switching (our own choice: a meeting reads a few, sensitivity.csv has all)
+COST_INPUTS = tuple(f"costs.{key}" for key in COST_KEYS)  # the inputs moved with fixed costs, as columns
 N_COLUMNS = 2 * (1 + 2 * len(COST_KEYS))  # model and reference: today, then each cost's low and high end
 
 
@@ -146,6 +151,10 @@ class PortfolioSensitivity:
     sites: tuple[tuple[str, Sensitivity], ...] = ()
     closest: tuple[Closest, ...] = ()
     note: str | None = None
+    moved: str = "costs"
+    """What was moved: ``"costs"`` (the scenario's ``[costs]``) or ``"operations"`` (its rules' prices)."""
+    remark: str | None = None
+    """What the table's reader must know about the inputs (those left out, those moved together), or None."""
 
 
 def shared_costs(scenario: Scenario, site: str) -> tuple[str, ...]:
@@ -153,6 +162,21 @@ def shared_costs(scenario: Scenario, site: str) -> tuple[str, ...]:
     override = scenario.sites.get(site)
     own = set(override.costs.given()) if override is not None and override.costs is not None else set()
     return tuple(key for key in COST_KEYS if key not in own)
+
+
+def shared_inputs(scenario: Scenario, site: str) -> tuple[str, ...]:
+    """The inputs site ``site`` takes from the scenario, as the scenario writes them: its ``[costs]``
+    not overridden by its own (``"costs.<key>"``, :func:`shared_costs`), or, when it plays its
+    seasons under ``[operations]``, the rules' prices of the scenario's ``[operations]`` that its
+    ``[sites."<name>".operations]`` does not give (``"operations.<price>"``)."""
+    if scenario.for_site(site).operations is None:
+        return tuple(f"costs.{key}" for key in shared_costs(scenario, site))
+    if scenario.operations is None:
+        return ()
+    override = scenario.sites.get(site)
+    own = (set(override.operations.model_dump(exclude_unset=True))
+           if override is not None and override.operations is not None else set())
+    return tuple(f"operations.{key}" for key in PRICE_KEYS if key not in own)
 
 
 def of_site(scenario: Scenario, calendar: Calendar, counts: ReplicateCounts, band: tuple[float, float],
@@ -168,15 +192,34 @@ def of_site(scenario: Scenario, calendar: Calendar, counts: ReplicateCounts, ban
                        use_forecast=verdict, ranges=ranges)
 
 
-def portfolio_columns(scenario: Scenario, counts: ReplicateCounts, own: Sensitivity, shared: Sequence[str],
-                      cutoffs: np.ndarray) -> np.ndarray:
-    """What one site adds to the portfolio's ends, (n_replicates, :data:`N_COLUMNS`) float64.
+def input_columns(own: Sensitivity, keys: Sequence[str], shared: Collection[str], held: object,
+                  at: Callable[[str, float], object],
+                  pair: Callable[[object, float], tuple[np.ndarray, np.ndarray]]) -> np.ndarray:
+    """What one site adds to the portfolio's ends, (n_replicates, 2 (1 + 2 len(keys))) float64, for
+    any inputs moved (the ``[costs]``, or the rules' prices).
 
-    Column pairs (the site's season cost at its cutoff, the reference's): today's costs (ranges at
-    their means) at its cutoff there, then for each cost of :data:`COST_KEYS` its low and high end
-    at the cutoff chosen there, when the site shares that cost (``shared``), else today's again.
-    ``own`` is the site's own sensitivity, whose ends for a shared cost are the portfolio's.
+    Column pairs (the site's season cost at a cutoff, the reference's; ``pair(inputs, cutoff)``):
+    today's inputs ``held`` at its cutoff there, then for each input of ``keys`` (as the scenario
+    writes it, ``"costs.miss"``) its low and high end (``at(key, value)``) at the cutoff chosen
+    there, when the site takes that input from the scenario (``shared``) and ``own`` (the site's own
+    sensitivity, whose ends for a shared input are the portfolio's) moves it, else today's again.
     """
+    today = pair(held, own.base_cutoff)
+    by_key = {entry.key: entry for entry in own.costs}
+    out = [*today]
+    for key in keys:
+        entry = by_key.get(key) if key in shared else None
+        for end in (None, None) if entry is None else (entry.low, entry.high):
+            out += today if end is None else pair(at(key, end.value), end.cutoff)
+    return np.stack(out, axis=1)
+
+
+def portfolio_columns(scenario: Scenario, counts: ReplicateCounts, own: Sensitivity, shared: Collection[str],
+                      cutoffs: np.ndarray) -> np.ndarray:
+    """What one site priced by ``[costs]`` adds to the portfolio's ends, (n_replicates,
+    :data:`N_COLUMNS`) float64 (:func:`input_columns` on :data:`COST_INPUTS`): its replicate counts
+    priced at today's costs (ranges at their means) and at each end of each cost it shares
+    (``shared``, keyed ``"costs.<key>"``)."""
     held = scenario.costs  # a range's mean stands in its place (simulator.inputs.ranges)
     index = {float(c): i for i, c in enumerate(cutoffs)}
     reference = BASELINES.index(scenario.simulation.reference)
@@ -187,19 +230,14 @@ def portfolio_columns(scenario: Scenario, counts: ReplicateCounts, own: Sensitiv
         model = price(Contingency(*(cell[:, i] for cell in cells)), costs)
         return model, price(counts.baselines, costs)[:, reference]
 
-    today = pair(held, own.base_cutoff)
-    by_key = {entry.key.removeprefix("costs."): entry for entry in own.costs}
-    out = [*today]
-    for key in COST_KEYS:
-        entry = by_key[key]
-        for end in (entry.low, entry.high):
-            out += pair(held.model_copy(update={key: end.value}), end.cutoff) if key in shared else today
-    return np.stack(out, axis=1)
+    return input_columns(own, COST_INPUTS, shared, held,
+                         lambda key, value: held.model_copy(update={key.removeprefix("costs."): value}), pair)
 
 
 def portfolio_sensitivity(scenario: Scenario, names: Sequence[str], own: Sequence[Sensitivity],
                           columns: np.ndarray, verdict: Callable[[str, float], bool] | None) -> PortfolioSensitivity:
-    """The portfolio's sensitivity from each site's own and the added :func:`portfolio_columns`.
+    """The portfolio's sensitivity to the scenario's ``[costs]`` from each site's own and the added
+    :func:`portfolio_columns` (:func:`portfolio_one_way` on the four costs).
 
     Parameters
     ----------
@@ -210,32 +248,56 @@ def portfolio_sensitivity(scenario: Scenario, names: Sequence[str], own: Sequenc
         it (:func:`portfolio_verdict`); None when the run has no portfolio verdict.
     """
     ranges = {key: r for key, r in scenario.cost_ranges().items() if r.high > r.low and key.startswith("costs.")}
-    ends = cost_ends(scenario.costs, ranges)
-    shared = [shared_costs(scenario, name) for name in names]
-    scale = max(abs(v[0]) for v in ends.values()) or 1.0
-    today_saving = float((columns[:, 1] - columns[:, 0]).mean())
-    base_verdict = None if verdict is None else verdict("hit", ends["hit"][0])
-    out = []
-    for j, (key, (base, low, high, varied)) in enumerate(ends.items()):
-        sharing = [i for i, keys in enumerate(shared) if key in keys]
+    shared = [shared_inputs(scenario, name) for name in names]
+    moved_at = None if verdict is None else (lambda key, value: verdict(key.removeprefix("costs."), value))
+    return portfolio_one_way(cost_moves(scenario.costs, ranges), COST_INPUTS, names, own, shared, columns,
+                             verdict=moved_at)
 
-        def end(value: float, side: int) -> PortfolioEnd:
+
+def portfolio_one_way(moved: Sequence[Moved], keys: Sequence[str], names: Sequence[str], own: Sequence[Sensitivity],
+                      shared: Sequence[Collection[str]], columns: np.ndarray,
+                      verdict: Callable[[str, float], bool] | None = None,
+                      use_forecast: bool | None = None) -> PortfolioSensitivity:
+    """Each input of ``moved`` moved alone for every site that shares it, from the sites' own
+    sensitivities and their :func:`input_columns` added up, for any inputs (the ``[costs]``, or the
+    rules' prices).
+
+    Parameters
+    ----------
+    moved : the inputs moved (:class:`~simulator.analysis.sensitivity.Moved`), in the order ties of
+        width are broken; each is one of ``keys``.
+    keys : the inputs in the order of the columns (:func:`input_columns`).
+    names, own : each site's name and own sensitivity, in the history's site order.
+    shared : the inputs each site takes from the scenario; a site shares an input it takes and its
+        own sensitivity moves (one that plays a part there).
+    columns : the sites' :func:`input_columns` added up.
+    verdict : the portfolio's verdict with one input (key, value) moved for the sites sharing it;
+        None: no switching value of the portfolio's verdict, and today's is ``use_forecast``.
+    """
+    today_saving = float((columns[:, 1] - columns[:, 0]).mean())
+    base_verdict = use_forecast if verdict is None else verdict(moved[0].key, moved[0].base)
+    out = []
+    for m in moved:
+        j = list(keys).index(m.key)
+        sharing = [i for i, taken in enumerate(shared) if m.key in taken and any(e.key == m.key for e in own[i].costs)]
+
+        def end(value: float, side: int, j: int = j, key: str = m.key, sharing=sharing) -> PortfolioEnd:
             column = 2 + 4 * j + 2 * side
             model, reference = columns[:, column], columns[:, column + 1]
-            moved = sum(_site_end(own[i], key, side).cutoff != own[i].base_cutoff for i in sharing)
+            moves = sum(_site_end(own[i], key, side).cutoff != own[i].base_cutoff for i in sharing)
             return PortfolioEnd(value=value, mean_saving=float((reference - model).mean()),
-                                prob_saving=float(cheaper(model, reference).mean()), sites_moved=int(moved))
+                                prob_saving=float(cheaper(model, reference).mean()), sites_moved=int(moves))
 
-        span = search_span(base, scale)
         verdict_switch = None
         if verdict is not None and sharing:
-            def flips(value: float, key: str = key) -> bool:
+            def flips(value: float, key: str = m.key) -> bool:
                 return verdict(key, value) != base_verdict
-            verdict_switch = Switch(switching_value(flips, base, span[0]), switching_value(flips, base, span[1]))
-        out.append(PortfolioCost(key=f"costs.{key}", base=base, varied=varied, sharing=len(sharing),
-                                 low=end(low, 0), high=end(high, 1), verdict_switch=verdict_switch,
-                                 first_site_down=_first_site(names, own, sharing, key, "down"),
-                                 first_site_up=_first_site(names, own, sharing, key, "up"), search=span))
+            verdict_switch = Switch(switching_value(flips, m.base, m.search[0]),
+                                    switching_value(flips, m.base, m.search[1]))
+        out.append(PortfolioCost(key=m.key, base=m.base, varied=m.varied, sharing=len(sharing),
+                                 low=end(m.low, 0), high=end(m.high, 1), verdict_switch=verdict_switch,
+                                 first_site_down=_first_site(names, own, sharing, m.key, "down"),
+                                 first_site_up=_first_site(names, own, sharing, m.key, "up"), search=m.search))
     order = sorted(range(len(out)), key=lambda i: (-out[i].width, i))
     return PortfolioSensitivity(costs=tuple(out[i] for i in order), saving=today_saving,
                                 prob_saving=float(cheaper(columns[:, 0], columns[:, 1]).mean()),
@@ -244,14 +306,14 @@ def portfolio_sensitivity(scenario: Scenario, names: Sequence[str], own: Sequenc
 
 
 def _site_end(site: Sensitivity, key: str, side: int):
-    entry = next(e for e in site.costs if e.key == f"costs.{key}")
+    entry = next(e for e in site.costs if e.key == key)
     return entry.high if side else entry.low
 
 
 def _switches(site: Sensitivity, key: str | None = None):
     """Each switching value of a site: (cost key, base, value, advice, direction)."""
     for entry in site.costs:
-        if key is not None and entry.key != f"costs.{key}":
+        if key is not None and entry.key != key:
             continue
         for advice, switch in (("verdict", entry.verdict_switch), ("band", entry.band_switch)):
             if switch is None:

@@ -14,6 +14,7 @@ import numpy as np
 import pandas as pd
 
 from ..analysis.selection import Selection, select_honestly
+from ..analysis.site_prices import of_site_prices
 from ..analysis.site_sensitivity import of_site, portfolio_columns
 from ..analysis.stress import StressResult, run_stress
 from ..analysis.verdict import best_rule, judge, season_costs, season_pricer
@@ -163,7 +164,7 @@ def _site_result(work: "_Work", k: int, block: PricedBlock) -> SiteResult:
         ranked = contest(history.forecast_names, [float(cutoffs[i]) for i in own],
                          [model[:, i] for model, i in zip((block.model, *later), own)], scenario.decision.objective)
     table = cutoff_table([(history, costs)], cutoffs, p_star, block.model, reference)
-    operations = None
+    operations = result = None
     if scenario.operations is not None:
         result = OperationsResult(rules=_pricer(work, k).rules, n_cutoffs=cutoffs.size, extras=block.extras,
                                   section=scenario.operations)
@@ -178,10 +179,13 @@ def _site_result(work: "_Work", k: int, block: PricedBlock) -> SiteResult:
     verdict = judge(seasons, n_occ, rule)
     counts, _ = from_extras(block.extras, block.n_events)  # kept with fixed costs (work.keep_counts)
     sensitivity = columns = None
+    judged = rule if verdict.n_seasons >= 2 else None
     if counts is not None:  # which of its cost estimates matters, and what it adds to the portfolio's
-        sensitivity = of_site(scenario, work.resampler.calendar, counts, decision.near_optimal_band,
-                              rule if verdict.n_seasons >= 2 else None, past)
-        columns = portfolio_columns(scenario, counts, sensitivity, work.shared_costs[k], cutoffs)
+        sensitivity = of_site(scenario, work.resampler.calendar, counts, decision.near_optimal_band, judged, past)
+        columns = portfolio_columns(scenario, counts, sensitivity, work.shared_inputs[k], cutoffs)
+    elif result is not None and work.shared_inputs:  # under [operations]: which of its rules' prices matters
+        sensitivity, columns = of_site_prices(scenario, history, work.resampler.calendar, result,
+                                              decision.near_optimal_band, judged, work.shared_inputs[k])
     own_dates = np.unique(history.dates[history.evaluated]).size
     return SiteResult(name=name, scenario=scenario, history=history, theoretical_cutoff=p_star,
                       decision=decision, table=table, quality=forecast_scores(history),

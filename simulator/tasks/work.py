@@ -50,9 +50,10 @@ class _Work:
     # ship each replicate's classification counts back in the blocks' extras (int32; the main
     # forecast's, with fixed costs only): RunResult.replicate_counts
     keep_counts: bool = False
-    # with a site column and keep_counts: the cost keys each site takes from the scenario's [costs]
-    # (analysis/site_sensitivity.shared_costs), in site order
-    shared_costs: tuple[tuple[str, ...], ...] = ()
+    # with a site column and its sensitivity: the inputs each site takes from the scenario, in site
+    # order ("costs.<key>" or "operations.<price>", analysis/site_sensitivity.shared_inputs); empty
+    # without the sensitivity
+    shared_inputs: tuple[tuple[str, ...], ...] = ()
     token: str = field(default_factory=lambda: uuid.uuid4().hex)  # names this run's cached pricers
 
     @property
