@@ -139,6 +139,17 @@ def test_a_price_given_as_a_range_starts_at_its_pert_mean_with_a_note(tmp_path):
     assert "PERT mean" in context["ranges_note"]
 
 
+def test_a_range_whose_mean_has_no_end_starts_its_field_at_the_cent(tmp_path):
+    """{low = 250, likely = 300, high = 400} has the PERT mean (250 + 4 x 300 + 400) / 6 =
+    308.333... (Malcolm et al. 1959); the field and the page's starting figures use 308.33, what a
+    reader would type, not sixteen digits."""
+    ranged = _run(tmp_path, _scenario_text(**{"standby_rate = 400 ": "standby_rate = {low = 250, likely = 300, "
+                                                                      "high = 400} "}), "standby_range")
+    assert whatif_data(ranged)["prices"]["standby_rate"] == 308.33
+    context = whatif_context(ranged, "send the crews out", "dry day", "day", 2)
+    assert dict((key, typed) for key, _, _, typed in context["fields"])["standby_rate"] == "308.33"
+
+
 def test_without_a_standby_rate_standby_follows_the_day_rate_typed(tmp_path):
     base_text = _scenario_text(**{"standby_rate = 400 ": "# no standby rate "})
     base = _run(tmp_path, base_text, "base")

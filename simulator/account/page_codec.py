@@ -14,7 +14,7 @@ import math
 import numpy as np
 
 __all__ = ["UINT_MAX", "encode_uint", "encode_counts", "encode_float64", "decode_counts", "decode_float64",
-           "typed_number"]
+           "typed_number", "start_value"]
 
 UINT_MAX = {1: 255, 2: 65535, 4: 4294967295}
 
@@ -58,3 +58,11 @@ def typed_number(value: float) -> str:
     """An amount as a reader would type it: ``2400``, ``-150.5``."""
     value = float(value)
     return str(int(value)) if value.is_integer() and math.isfinite(value) else repr(value)
+
+
+def start_value(scenario, key: str, value: float) -> float:
+    """A what-if field's starting value for the scenario's ``key`` (``"costs.miss"``,
+    ``"operations.day_rate"``): a range's PERT mean to the cent, as a reader would type it (308.33,
+    not 308.3333333333333), any other value as the scenario writes it."""
+    given = scenario.cost_ranges().get(key)
+    return round(float(value), 2) if given is not None and given.high > given.low else float(value)

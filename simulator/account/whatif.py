@@ -37,7 +37,7 @@ import numpy as np
 from ..inputs.scenario_types import BASELINES, MAX_MONEY
 from ..pricing.decision import OBJECTIVE_NAMES, SAME_MONEY, SHORTFALL_SHARE
 from .findings import strategy_label
-from .page_codec import encode_uint, typed_number
+from .page_codec import encode_uint, start_value, typed_number
 from .report_page import script_json
 from .whatif_rules import rules_fields, rules_whatif_data
 
@@ -99,7 +99,7 @@ def whatif_data(result) -> dict:
     scenario_costs = result.scenario.costs
     return {
         "kind": "costs", "keys": list(COST_KEYS),
-        "costs": {key: float(getattr(scenario_costs, key)) for key in COST_KEYS},
+        "costs": {key: start_value(result.scenario, f"costs.{key}", getattr(scenario_costs, key)) for key in COST_KEYS},
         "min_money": -MAX_MONEY, "max_money": MAX_MONEY, "objective": result.decision.objective, "shortfall_share": SHORTFALL_SHARE,
         "same_money": SAME_MONEY, "cutoffs": [float(c) for c in result.cutoffs],
         "replicates": int(result.replicates),
@@ -136,7 +136,7 @@ def whatif_context(result, action: str, event: str, occasion: str, decimals: int
                     if key not in shown]
         unused_note = ("Not priced in this scenario, so no field: " + " and ".join(left_out) + "."
                        if left_out else "")
-        ranges_note = ("Prices given as ranges start here at their PERT mean, fixed; the run above drew "
+        ranges_note = ("Prices given as ranges start here at their PERT mean (to the cent), fixed; the run above drew "
                        "them season by season, so its figures differ a little from these." if any(
                            result.scenario.cost_ranges()[key].high > result.scenario.cost_ranges()[key].low
                            for key in ranged) else "")
@@ -147,12 +147,14 @@ def whatif_context(result, action: str, event: str, occasion: str, decimals: int
                 "miss": f"Did not {action}, and \u201c{event}\u201d happened",
                 "correct_negative": f"Did not {action}, and it did not happen"}
         labels = {"hit": "Hit", "false_alarm": "False alarm", "miss": "Miss", "correct_negative": "Correct negative"}
-        fields = [(key, labels[key], what[key], typed_number(getattr(costs, key))) for key in COST_KEYS]
+        fields = [(key, labels[key], what[key], typed_number(start_value(result.scenario, f"costs.{key}",
+                                                                         getattr(costs, key))))
+                  for key in COST_KEYS]
         reference_note = ("The calendar-month rule keeps the months it acts in at the scenario's costs "
                           "(their break-even probability)." if reference == "seasonal_rate" else "")
         standby_note = unused_note = ""
         # costs given as ranges are typed in at their PERT mean; the run above drew them per season
-        ranges_note = ("Costs given as ranges start here at their PERT mean, fixed; the run above drew "
+        ranges_note = ("Costs given as ranges start here at their PERT mean (to the cent), fixed; the run above drew "
                        "them season by season, so its figures differ a little from these."
                        if any(r.high > r.low for r in result.scenario.cost_ranges().values()) else "")
     return {

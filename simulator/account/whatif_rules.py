@@ -31,7 +31,7 @@ from ..inputs.scenario_types import BASELINES, MAX_MONEY
 from ..pricing.decision import SAME_MONEY, SHORTFALL_SHARE, cheaper, lowest, objective_cost
 from ..rules.operating_rules import RulePrices, _iso
 from ..rules.price_terms import moving_prices, price_counts, price_terms, priced_by_terms
-from .page_codec import decode_counts, decode_float64, encode_counts, encode_float64, typed_number
+from .page_codec import decode_counts, decode_float64, encode_counts, encode_float64, start_value, typed_number
 
 __all__ = ["SAMPLE", "rules_fields", "rules_whatif_data", "page_figures"]
 
@@ -60,7 +60,9 @@ def rules_fields(result) -> list[tuple[str, str, str, str]]:
                                      + (f" ({_iso(rules.dates[0] + rules.deadline_day)})"
                                         if rules.deadline_day is not None else "")),
             "unfinished_cost": "per crew-day of work left when the season ends"}
-    return [(key, _LABELS[key], what[key], typed_number(getattr(prices, key))) for key in _given(result)]
+    return [(key, _LABELS[key], what[key], typed_number(start_value(result.scenario, f"operations.{key}",
+                                                                     getattr(prices, key))))
+            for key in _given(result)]
 
 
 def rules_whatif_data(result, sample: int | None = None) -> dict:
@@ -93,7 +95,8 @@ def rules_whatif_data(result, sample: int | None = None) -> dict:
     section = result.scenario.operations
     return {
         "kind": "rules", "keys": _given(result),
-        "prices": {key: float(getattr(RulePrices.of(section), key)) for key in terms},
+        "prices": {key: start_value(result.scenario, f"operations.{key}", getattr(RulePrices.of(section), key))
+                   for key in terms},
         "follows": {"standby_rate": "day_rate"} if section.standby_rate is None else {},
         "terms": {key: [[count, float(factor)] for count, factor in pairs] for key, pairs in terms.items()},
         "min_money": 0.0, "max_money": MAX_MONEY, "objective": result.decision.objective,
