@@ -60,7 +60,7 @@ from ..rules.operating_rules import RulePrices
 from ..rules.season_cost import reprice
 
 __all__ = ["RULES", "RULE_WORDS", "CONFIDENCE", "SeasonCosts", "Verdict", "season_costs", "season_pricer",
-           "played_season_pricer", "SeasonTable", "judge", "worth_using", "best_rule", "together"]
+           "played_season_pricer", "SeasonTable", "season_counts", "judge", "worth_using", "best_rule", "together"]
 
 RULES = ("never_act", "always_act", "persistence", "seasonal_rate")
 """The rules that ignore the forecast, in the order ties are broken."""
@@ -235,7 +235,7 @@ def season_costs(history: History, calendar: Calendar, cutoffs: np.ndarray, scen
     if rules_of is not None and not np.array_equal(rules_of.seasons, seasons):
         raise ValueError("rules_of must come from the same history's seasons")
     if rules_of is not None and scenario.operations is None:
-        return dataclasses.replace(rules_of, model=_model_with_costs(history, cutoffs, scenario.costs, seasons),
+        return dataclasses.replace(rules_of, model=price(season_counts(history, cutoffs), scenario.costs),
                                    cutoffs=cutoffs)
     if scenario.operations is None:
         return season_pricer(history, cutoffs)(scenario.costs)
@@ -306,9 +306,8 @@ class SeasonTable:
         evaluated = history.evaluated
         k = seasons.size
         index = np.searchsorted(seasons, history.season[evaluated])  # each evaluated row's season
-        p, event = history.p[evaluated], history.event[evaluated]
-        per_season = [count_at_cutoffs(p[index == i], event[index == i], cutoffs) for i in range(k)]
-        self.model_counts = Contingency(*(np.stack([getattr(c, cell) for c in per_season]) for cell in _CELLS))
+        event = history.event[evaluated]
+        self.model_counts = season_counts(history, cutoffs)
         acts = {"never_act": np.zeros(event.size, dtype=bool), "always_act": np.ones(event.size, dtype=bool),
                 "persistence": history.prev_event[evaluated]}
         self.fixed_counts = {name: Contingency(*(np.bincount(index, weights=cell, minlength=k)
@@ -356,11 +355,11 @@ def _learnt(history: History) -> list[History]:
                                 validation=np.zeros_like(evaluated)) for s in history.seasons]
 
 
-def _model_with_costs(history: History, cutoffs: np.ndarray, costs, seasons: np.ndarray) -> np.ndarray:
-    """Each season's cost acting on the forecast at every cutoff, (n_seasons, n_cutoffs), priced
-    on its historical occasions with the ``[costs]`` matrix."""
-    evaluated = history.evaluated
+def season_counts(history: History, cutoffs: np.ndarray) -> Contingency:
+    """Each evaluated season's classification counts acting on the forecast at every cutoff, on its
+    historical occasions: (n_seasons, n_cutoffs) per cell, seasons ascending."""
+    seasons, evaluated = history.seasons, history.evaluated
     index = np.searchsorted(seasons, history.season[evaluated])  # each evaluated row's season
     p, event = history.p[evaluated], history.event[evaluated]
-    return np.stack([price(count_at_cutoffs(p[index == i], event[index == i], cutoffs), costs)
-                     for i in range(seasons.size)])
+    per_season = [count_at_cutoffs(p[index == i], event[index == i], cutoffs) for i in range(seasons.size)]
+    return Contingency(*(np.stack([getattr(c, cell) for c in per_season]) for cell in _CELLS))
